@@ -1,0 +1,7 @@
+"""Allow ``python -m photpipe``."""
+
+import sys
+
+from photpipe.cli.main import main
+
+sys.exit(main())

@@ -1,0 +1,3 @@
+"""photpipe.activity."""
+
+__all__ = []

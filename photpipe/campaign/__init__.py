@@ -1,0 +1,3 @@
+"""photpipe.campaign."""
+
+__all__ = []

@@ -1,0 +1,3 @@
+"""photpipe.cli."""
+
+__all__ = []

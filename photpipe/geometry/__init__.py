@@ -1,0 +1,3 @@
+"""photpipe.geometry."""
+
+__all__ = []

@@ -1,0 +1,3 @@
+"""photpipe.nucleus."""
+
+__all__ = []

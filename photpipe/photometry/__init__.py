@@ -1,0 +1,3 @@
+"""photpipe.photometry."""
+
+__all__ = []

@@ -1,0 +1,3 @@
+"""photpipe.rotation."""
+
+__all__ = []

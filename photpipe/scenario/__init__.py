@@ -1,0 +1,3 @@
+"""photpipe.scenario."""
+
+__all__ = []

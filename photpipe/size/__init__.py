@@ -1,0 +1,3 @@
+"""photpipe.size."""
+
+__all__ = []
