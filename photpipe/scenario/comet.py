@@ -1,0 +1,140 @@
+"""The synthetic comet: a point-source nucleus plus a K/ρ coma, seen through the PSF.
+
+The coma is integrated exactly over each pixel (:func:`photpipe.nucleus.coma.coma_image`), then
+convolved with the pixel-sampled PSF; the nucleus is a PSF stamp at the sub-pixel position.
+"""
+
+from dataclasses import dataclass
+
+import numpy as np
+from astropy import units as u
+from scipy.signal import fftconvolve
+
+from photpipe._quantity import as_positive_value, as_value
+from photpipe.nucleus.coma import coma_image
+
+from .psf import moffat_stamp
+
+__all__ = ["CometSpec", "coma_k_from_afrho", "render_comet"]
+
+
+@dataclass(frozen=True)
+class CometSpec:
+    """What the synthetic comet looks like in one frame.
+
+    Parameters
+    ----------
+    ra, dec : `~astropy.units.Quantity` ['angle']
+        Sky position of the nucleus.
+    nucleus_mag : `~astropy.units.Quantity` [mag] or None
+        Magnitude of the bare nucleus in the frame's band (None: no nucleus).
+    afrho : `~astropy.units.Quantity` ['length'] or None
+        A(θ)fρ of the coma at the frame's phase angle (None: no coma unless ``coma_k`` given).
+    r_h, delta : `~astropy.units.Quantity` ['length']
+        Heliocentric and geocentric distances (needed to turn Afρ into a surface brightness).
+    m_sun : float
+        Apparent magnitude of the Sun in the band at 1 AU (same system as the zero point).
+    coma_k : `~astropy.units.Quantity` [electron / s] or None
+        Direct coma strength (K in Σ = K/ρ, ρ in pixels) when ``afrho`` is None.
+    gamma : float
+        Power-law index of the coma; the generator renders the steady-state γ = 1 exactly.
+    """
+
+    ra: u.Quantity
+    dec: u.Quantity
+    nucleus_mag: u.Quantity | None = None
+    afrho: u.Quantity | None = None
+    r_h: u.Quantity = 1.0 * u.au
+    delta: u.Quantity = 1.0 * u.au
+    m_sun: float = -27.15
+    coma_k: u.Quantity | None = None
+    gamma: float = 1.0
+
+    def __post_init__(self):
+        if self.gamma != 1.0:
+            msg = f"the scenario renders only the steady-state coma, gamma = 1; got {self.gamma}"
+            raise ValueError(msg)
+        as_positive_value(self.r_h, u.au, "r_h")
+        as_positive_value(self.delta, u.au, "delta")
+
+
+def coma_k_from_afrho(afrho, *, r_h, delta, pixel_scale, zero_point, m_sun):
+    """Coma strength K (electron/s per pixel, Σ = K/ρ with ρ in pixels) for a given Afρ.
+
+    Notes
+    -----
+    A'Hearn et al. (1984, AJ 89, 579) define Afρ = (4 r_h² Δ² / ρ) 10^(0.4 (m_sun - m)), with r_h in
+    AU and Δ, ρ in the same length unit. A K/ρ coma puts F(ρ) = 2π K ρ_pix inside radius ρ_pix, and
+    m = zp - 2.5 log10 F. Solving for K with ρ = ρ_pix Δ s (s the pixel scale in radians):
+
+        K = Afρ · s · 10^(-0.4 (m_sun - zp)) / (8π r_h² Δ)
+
+    which does not depend on ρ, as a steady-state coma should not.
+
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> k = coma_k_from_afrho(500 * u.cm, r_h=1.5 * u.au, delta=1.0 * u.au,
+    ...                       pixel_scale=1.0 * u.arcsec, zero_point=25.0, m_sun=-27.15)
+    >>> k.unit
+    Unit("electron / s")
+    """
+    afrho_cm = as_positive_value(afrho, u.cm, "afrho")
+    r_h_au = as_positive_value(r_h, u.au, "r_h")
+    delta_cm = as_positive_value(delta, u.cm, "delta")
+    s_rad = as_positive_value(pixel_scale, u.rad, "pixel_scale")
+    zp = as_value(zero_point, u.mag, "zero_point", allow_dimensionless=True)
+    k = afrho_cm * s_rad * 10 ** (-0.4 * (m_sun - zp)) / (8 * np.pi * r_h_au**2 * delta_cm)
+    return k * u.electron / u.s
+
+
+def render_comet(shape, x0, y0, *, nucleus_flux, coma_k, psf_kernel, stamp_of):
+    """Noise-free comet image in electrons (or whatever unit the fluxes are in).
+
+    Parameters
+    ----------
+    shape : tuple of int
+        (ny, nx) of the frame.
+    x0, y0 : float
+        Nucleus position in 0-based pixel coordinates.
+    nucleus_flux : float
+        Total nucleus signal.
+    coma_k : float
+        Coma strength K (signal per pixel at ρ = 1 pixel).
+    psf_kernel : ndarray
+        Centred, unit-sum PSF kernel for the coma convolution.
+    stamp_of : callable
+        ``stamp_of(dx, dy) -> ndarray`` gives a unit-sum PSF stamp offset by (dx, dy).
+
+    Returns
+    -------
+    image : ndarray, shape ``shape``
+    """
+    image = np.zeros(shape)
+    if coma_k > 0:
+        image += fftconvolve(coma_image(shape, x0, y0, coma_k), psf_kernel, mode="same")
+    if nucleus_flux > 0:
+        add_stamp(image, x0, y0, nucleus_flux, stamp_of)
+    return image
+
+
+def add_stamp(image, x, y, flux, stamp_of):
+    """Add ``flux`` times a PSF stamp centred at (x, y) to ``image`` in place (clipped at edges)."""
+    ix, iy = int(np.round(x)), int(np.round(y))
+    stamp = stamp_of(x - ix, y - iy)
+    half = stamp.shape[0] // 2
+    ny, nx = image.shape
+    y0, y1 = iy - half, iy + half + 1
+    x0, x1 = ix - half, ix + half + 1
+    sy0, sx0 = max(0, -y0), max(0, -x0)
+    sy1 = stamp.shape[0] - max(0, y1 - ny)
+    sx1 = stamp.shape[1] - max(0, x1 - nx)
+    if sy1 <= sy0 or sx1 <= sx0:
+        return
+    image[max(y0, 0):min(y1, ny), max(x0, 0):min(x1, nx)] += flux * stamp[sy0:sy1, sx0:sx1]
+
+
+def _moffat_stamp_factory(size, fwhm, beta, **kw):
+    def stamp_of(dx, dy):
+        return moffat_stamp(size, dx, dy, fwhm, beta, **kw)
+    return stamp_of
