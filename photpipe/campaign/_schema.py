@@ -1,0 +1,262 @@
+"""The campaign store's schema: tables, their columns and the units of their values.
+
+One registry describes every table; the SQL that creates them and the units that exports put back
+on the values both come from it, so the database and the ECSV files cannot drift apart. Values are
+stored as plain numbers in the unit named here (the unit is also in the column name where the
+data contracts of ``DEVELOPERS.md`` put it there).
+"""
+
+from dataclasses import dataclass
+
+from astropy import units as u
+
+__all__ = ["SCHEMA_VERSION", "Column", "TABLES", "RESULT_TABLES", "schema_sql", "column_unit"]
+
+#: Version of the layout below; stored in the ``schema_version`` table of every store.
+SCHEMA_VERSION = 1
+
+
+@dataclass(frozen=True)
+class Column:
+    """One stored column.
+
+    Attributes
+    ----------
+    name : str
+        Column name, shared by the database and the exported tables.
+    sql : str
+        SQLite type (``REAL``, ``INTEGER`` or ``TEXT``).
+    unit : `~astropy.units.UnitBase` or None
+        Unit of the stored numbers; exports attach it.
+    description : str
+        One line for the ECSV header.
+    """
+
+    name: str
+    sql: str
+    unit: object = None
+    description: str = ""
+
+
+def _c(name, sql="REAL", unit=None, description=""):
+    return Column(name, sql, None if unit is None else u.Unit(unit), description)
+
+
+_MAG = u.mag
+_FLAGS = _c("flags", "TEXT", None, "comma-separated quality flags, empty when all is well")
+
+#: Columns of the ``measurements.ecsv`` contract (after ``frame``), one row per aperture.
+MEASUREMENT_COLUMNS = (
+    _c("mjd_utc_mid", description="mid-exposure time, MJD (UTC)"),
+    _c("filter", "TEXT"),
+    _c("exptime_s", unit=u.s),
+    _c("airmass"),
+    _c("zp_mag", unit=_MAG, description="mag = zp_mag - 2.5 log10(flux in electron/s)"),
+    _c("zp_err_mag", unit=_MAG),
+    _c("n_stars", "INTEGER"),
+    _c("x_pix", unit=u.pix),
+    _c("y_pix", unit=u.pix),
+    _c("ra_deg", unit=u.deg),
+    _c("dec_deg", unit=u.deg),
+    _c("r_h_au", unit=u.AU),
+    _c("delta_au", unit=u.AU),
+    _c("phase_deg", unit=u.deg),
+    _c("elong_deg", unit=u.deg),
+    _c("rho_km", unit=u.km, description="aperture radius at the comet"),
+    _c("rho_arcsec", unit=u.arcsec),
+    _c("mag", unit=_MAG),
+    _c("mag_err", unit=_MAG),
+    _c("afrho_cm", unit=u.cm),
+    _c("afrho_err_cm", unit=u.cm),
+    _c("a0frho_cm", unit=u.cm, description="Afrho corrected to 0 deg phase"),
+    _c("a0frho_err_cm", unit=u.cm),
+    _c("coma_slope"),
+    _FLAGS,
+)
+
+#: Columns of the ``nucleus.ecsv`` contract (after ``frame``), one row per frame.
+NUCLEUS_COLUMNS = (
+    _c("mjd_utc_mid", description="mid-exposure time, MJD (UTC)"),
+    _c("nucleus_mag", unit=_MAG),
+    _c("nucleus_mag_err", unit=_MAG),
+    _c("nucleus_flux_e_s", unit=u.electron / u.s),
+    _c("coma_k"),
+    _c("coma_gamma"),
+    _c("fwhm_arcsec", unit=u.arcsec),
+    _c("nucleus_fraction"),
+    _c("chi2_red"),
+    _c("method", "TEXT"),
+    _FLAGS,
+)
+
+#: Per-frame zero point (one row per frame).
+ZERO_POINT_COLUMNS = (
+    _c("zp_mag", unit=_MAG),
+    _c("zp_err_mag", unit=_MAG),
+    _c("n_stars", "INTEGER"),
+    _c("colour_term"),
+    _c("fwhm_arcsec", unit=u.arcsec),
+    _c("airmass"),
+    _FLAGS,
+)
+
+#: Field stars measured in a frame (one row per star).
+STAR_COLUMNS = (
+    _c("ra_deg", unit=u.deg),
+    _c("dec_deg", unit=u.deg),
+    _c("x_pix", unit=u.pix),
+    _c("y_pix", unit=u.pix),
+    _c("flux_e_s", unit=u.electron / u.s),
+    _c("flux_err_e_s", unit=u.electron / u.s),
+    _c("mag_ref", unit=_MAG, description="reference-catalogue magnitude"),
+    _c("colour_ref", unit=_MAG),
+    _c("mag_inst", unit=_MAG, description="-2.5 log10(flux in electron/s)"),
+    _c("residual_mag", unit=_MAG, description="reference minus calibrated magnitude"),
+    _c("used", "INTEGER", description="1 if the star entered the zero-point fit"),
+)
+
+#: Observing geometry at each frame's mid-exposure time (one row per frame).
+GEOMETRY_COLUMNS = (
+    _c("r_h_au", unit=u.AU),
+    _c("delta_au", unit=u.AU),
+    _c("phase_deg", unit=u.deg),
+    _c("elong_deg", unit=u.deg),
+    _c("ra_deg", unit=u.deg),
+    _c("dec_deg", unit=u.deg),
+    _c("light_time_s", unit=u.s),
+)
+
+#: Table name -> (columns after the frame key, one row per frame?). These hold a frame's results
+#: and are replaced as a whole when the frame is measured again.
+RESULT_TABLES = {
+    "geometry": (GEOMETRY_COLUMNS, True),
+    "zero_points": (ZERO_POINT_COLUMNS, True),
+    "stars": (STAR_COLUMNS, False),
+    "measurements": (MEASUREMENT_COLUMNS, False),
+    "nucleus": (NUCLEUS_COLUMNS, True),
+}
+
+#: Bookkeeping tables with their columns (in export order).
+TABLES = {
+    "runs": (
+        _c("run", "INTEGER"), _c("started", "TEXT"), _c("ended", "TEXT"), _c("status", "TEXT"),
+        _c("config_hash", "TEXT"), _c("software_version", "TEXT"), _c("host", "TEXT"),
+        _c("config_text", "TEXT"),
+    ),
+    "frames": (
+        _c("night", "TEXT"), _c("frame", "TEXT"), _c("path", "TEXT"),
+        _c("content_hash", "TEXT", description="sha256 of the file's bytes"), _c("kind", "TEXT"),
+        _c("mjd_utc_mid", description="mid-exposure time, MJD (UTC)"), _c("filter", "TEXT"),
+        _c("exptime_s", unit=u.s), _c("site", "TEXT"),
+    ),
+    "calibrations": (
+        _c("night", "TEXT"), _c("kind", "TEXT"), _c("filter", "TEXT"),
+        _c("exptime_s", unit=u.s), _c("n_inputs", "INTEGER"), _c("path", "TEXT"),
+        _c("content_hash", "TEXT"),
+    ),
+    "skipped": (
+        _c("night", "TEXT"), _c("item", "TEXT"), _c("stage", "TEXT"), _c("reason", "TEXT"),
+        _c("run", "INTEGER"),
+    ),
+}
+
+
+def column_unit(table, name):
+    """Return the unit of column ``name`` of ``table`` (None when it has none).
+
+    Examples
+    --------
+    >>> column_unit("measurements", "rho_km")
+    Unit("km")
+    """
+    columns = RESULT_TABLES[table][0] if table in RESULT_TABLES else TABLES[table]
+    for col in columns:
+        if col.name == name:
+            return col.unit
+    msg = f"table {table!r} has no column {name!r}"
+    raise KeyError(msg)
+
+
+def _result_table_sql(name, columns, one_per_frame):
+    cols = ",\n  ".join(f'"{c.name}" {c.sql}' for c in columns)
+    if one_per_frame:
+        key = "frame_id INTEGER PRIMARY KEY REFERENCES frames(id) ON DELETE CASCADE"
+        return f"CREATE TABLE IF NOT EXISTS {name} (\n  {key},\n  {cols}\n);"
+    key = ("frame_id INTEGER NOT NULL REFERENCES frames(id) ON DELETE CASCADE,\n"
+           "  row_index INTEGER NOT NULL")
+    return (f"CREATE TABLE IF NOT EXISTS {name} (\n  {key},\n  {cols},\n"
+            f"  PRIMARY KEY (frame_id, row_index)\n);")
+
+
+def schema_sql():
+    """Return the SQL statements that create the store's tables (idempotent).
+
+    Returns
+    -------
+    statements : list of str
+        ``CREATE TABLE IF NOT EXISTS`` / ``CREATE INDEX IF NOT EXISTS`` statements.
+    """
+    statements = [
+        "CREATE TABLE IF NOT EXISTS schema_version (version INTEGER NOT NULL);",
+        """CREATE TABLE IF NOT EXISTS runs (
+  id INTEGER PRIMARY KEY AUTOINCREMENT,
+  started TEXT NOT NULL,
+  ended TEXT,
+  status TEXT NOT NULL CHECK (status IN ('running', 'completed', 'failed', 'interrupted')),
+  config_text TEXT NOT NULL,
+  config_hash TEXT NOT NULL,
+  software_version TEXT NOT NULL,
+  host TEXT,
+  pid INTEGER
+);""",
+        """CREATE TABLE IF NOT EXISTS frames (
+  id INTEGER PRIMARY KEY,
+  night TEXT NOT NULL,
+  name TEXT NOT NULL,
+  path TEXT NOT NULL,
+  content_hash TEXT NOT NULL,
+  kind TEXT NOT NULL,
+  mjd_utc_mid REAL,
+  filter TEXT,
+  exptime_s REAL,
+  site TEXT,
+  UNIQUE (night, name)
+);""",
+        """CREATE TABLE IF NOT EXISTS calibrations (
+  id INTEGER PRIMARY KEY,
+  night TEXT NOT NULL,
+  kind TEXT NOT NULL,
+  filter TEXT,
+  exptime_s REAL,
+  n_inputs INTEGER,
+  path TEXT NOT NULL UNIQUE,
+  content_hash TEXT
+);""",
+        """CREATE TABLE IF NOT EXISTS frame_calibrations (
+  frame_id INTEGER NOT NULL REFERENCES frames(id) ON DELETE CASCADE,
+  calibration_id INTEGER NOT NULL REFERENCES calibrations(id) ON DELETE CASCADE,
+  PRIMARY KEY (frame_id, calibration_id)
+);""",
+        # The marker that a frame's results are complete: written last, in the same transaction.
+        """CREATE TABLE IF NOT EXISTS frame_results (
+  frame_id INTEGER PRIMARY KEY REFERENCES frames(id) ON DELETE CASCADE,
+  run_id INTEGER NOT NULL REFERENCES runs(id),
+  content_hash TEXT NOT NULL,
+  config_hash TEXT NOT NULL,
+  stages TEXT NOT NULL,
+  calibrated_path TEXT
+);""",
+        """CREATE TABLE IF NOT EXISTS skipped (
+  id INTEGER PRIMARY KEY,
+  night TEXT NOT NULL,
+  item TEXT NOT NULL,
+  stage TEXT NOT NULL,
+  reason TEXT NOT NULL,
+  run_id INTEGER REFERENCES runs(id),
+  UNIQUE (night, item, stage)
+);""",
+    ]
+    for name, (columns, one_per_frame) in RESULT_TABLES.items():
+        statements.append(_result_table_sql(name, columns, one_per_frame))
+    statements.append("CREATE INDEX IF NOT EXISTS frames_night ON frames (night);")
+    return statements

@@ -1,0 +1,320 @@
+"""Running independent tasks on Dask, streaming results back as each one finishes.
+
+Both ways of running use the same code: a :class:`distributed.Client` on either a
+:class:`distributed.LocalCluster` of ``workers`` single-threaded processes that this module starts
+(the default), or an existing cluster named by its scheduler address. Results come back through
+:func:`distributed.as_completed`, so the caller can store each frame as soon as it is done and the
+parent never holds more than one result at a time. ``workers=0`` runs the tasks one after another
+in the calling process, with the same error and warning handling; it is for debugging and quick
+tests.
+
+Why ``LocalCluster`` rather than dask's multiprocessing scheduler: the multiprocessing scheduler
+returns only when the whole graph is computed (no streaming to the store), restarts nothing when a
+process dies, and is a different code path from a remote cluster. ``LocalCluster`` gives streaming,
+a nanny that replaces a crashed worker, and the very path a cluster user takes.
+"""
+
+import logging
+import os
+import pickle
+import sys
+import time
+import traceback
+import warnings
+from dataclasses import dataclass, field
+
+__all__ = ["TaskRunner", "TaskError", "run_tasks"]
+
+log = logging.getLogger("photpipe.campaign")
+
+
+class TaskError(Exception):
+    """A task that failed in a worker, carried back to the caller as a value.
+
+    Attributes
+    ----------
+    kind : str
+        Class name of the original exception (``"KilledWorker"`` when the process died).
+    message : str
+        The original message.
+    details : str
+        The worker-side traceback, for the log.
+    original : BaseException or None
+        The original exception when it could be carried over.
+    """
+
+    def __init__(self, kind, message, *, details="", original=None):
+        super().__init__(f"{kind}: {message}" if message else kind)
+        self.kind = kind
+        self.message = message
+        self.details = details
+        self.original = original
+
+
+@dataclass
+class _Outcome:
+    ok: bool
+    value: object = None
+    kind: str = ""
+    message: str = ""
+    details: str = ""
+    original: object = None
+    warnings: list = field(default_factory=list)
+    seconds: float = 0.0
+    pid: int = 0
+    peak_rss_mb: float = 0.0
+
+
+def _peak_rss_mb():
+    try:
+        import resource
+    except ImportError:  # pragma: no cover - not on POSIX
+        return 0.0
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    return peak / 1024.0 if sys.platform != "darwin" else peak / 2**20
+
+
+def _guarded(func, item, shared):
+    """Run ``func`` on ``item`` and return an `_Outcome`; never raises (a top-level function)."""
+    start = time.perf_counter()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            value = func(item) if shared is None else func(item, shared)
+            outcome = _Outcome(True, value)
+        except Exception as exc:  # noqa: BLE001 - every failure of one item is returned, not raised
+            try:
+                pickle.dumps(exc)
+                original = exc
+            except Exception:  # noqa: BLE001 - an exception that cannot travel is described
+                original = None
+            outcome = _Outcome(False, kind=type(exc).__name__, message=str(exc),
+                               details=traceback.format_exc(), original=original)
+    outcome.warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
+    outcome.seconds = time.perf_counter() - start
+    outcome.pid = os.getpid()
+    outcome.peak_rss_mb = _peak_rss_mb()
+    return outcome
+
+
+class TaskRunner:
+    """A connection to the processes that run tasks, kept open over several batches.
+
+    Parameters
+    ----------
+    workers : int, optional
+        Number of local worker processes (one thread each). ``0`` runs tasks in this process.
+        Ignored when ``scheduler`` is given.
+    scheduler : str, optional
+        Address of an existing Dask scheduler (``"tcp://host:8786"``) to run the tasks on.
+    progress : bool, optional
+        Show a progress bar (counts, rate, time remaining) on standard error.
+
+    Attributes
+    ----------
+    peak_memory_mb : dict
+        Peak resident memory reported by each worker process (pid -> MB) over the tasks run.
+    task_seconds : list of float
+        Wall time of each finished task, in the worker.
+
+    Examples
+    --------
+    >>> with TaskRunner(workers=0, progress=False) as runner:
+    ...     [r for _, r in runner.map(abs, [-1, -2])]
+    [1, 2]
+    """
+
+    def __init__(self, *, workers=1, scheduler=None, progress=True):
+        if scheduler is None and (not isinstance(workers, int) or workers < 0):
+            msg = f"'workers' must be a whole number >= 0, got {workers!r}"
+            raise ValueError(msg)
+        self.workers = workers
+        self.scheduler = scheduler
+        self.progress = progress
+        self.peak_memory_mb = {}
+        self.task_seconds = []
+        self._client = None
+        self._cluster = None
+
+    @property
+    def description(self):
+        """One line saying where tasks run."""
+        if self.scheduler is not None:
+            return f"Dask cluster at {self.scheduler}"
+        if self.workers == 0:
+            return "this process (workers = 0)"
+        return f"{self.workers} local worker process{'es' if self.workers != 1 else ''} (Dask)"
+
+    def __enter__(self):
+        self.open()
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+    def open(self):
+        """Start the local cluster or connect to the scheduler (no-op for ``workers=0``)."""
+        if self._client is not None or (self.scheduler is None and self.workers == 0):
+            return
+        import dask
+        from distributed import Client, LocalCluster
+
+        if self.scheduler is not None:
+            try:
+                self._client = Client(self.scheduler, timeout="20s")
+            except (OSError, TimeoutError) as exc:
+                msg = f"cannot connect to the Dask scheduler at {self.scheduler!r}: {exc}"
+                raise ConnectionError(msg) from exc
+            return
+        # A task that kills its worker process is retried once on a fresh process, then
+        # reported as failed instead of taking more workers down.
+        with dask.config.set({"distributed.scheduler.allowed-failures": 1}):
+            self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1,
+                                         processes=True, dashboard_address=None,
+                                         silence_logs=logging.ERROR)
+            self._client = Client(self._cluster)
+
+    def close(self):
+        """Close the client and the local cluster it started."""
+        if self._client is not None:
+            self._client.close()
+            self._client = None
+        if self._cluster is not None:
+            self._cluster.close()
+            self._cluster = None
+
+    def map(self, func, items, *, shared=None, desc="tasks", label=str):
+        """Run ``func`` on every item; yield ``(item, result)`` in the order tasks finish.
+
+        Parameters
+        ----------
+        func : callable
+            A picklable top-level function ``func(item)``, or ``func(item, shared)`` when
+            ``shared`` is given.
+        items : iterable
+            Plain, picklable task inputs (paths, dicts, small dataclasses).
+        shared : object, optional
+            One larger object every task needs (master calibrations, a star catalogue); sent to
+            each worker once, not once per task.
+        desc : str, optional
+            Label of the progress bar.
+        label : callable, optional
+            ``label(item) -> str`` naming an item in the log.
+
+        Yields
+        ------
+        item, result : object, object or `TaskError`
+            A failed task yields a `TaskError` in place of its result; the others go on.
+        """
+        items = list(items)
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=len(items), desc=desc, unit="task", disable=not self.progress,
+                   file=sys.stderr, dynamic_ncols=True, mininterval=0.5)
+        failed = 0
+        try:
+            for item, outcome in self._outcomes(func, items, shared):
+                result = self._unpack(item, outcome, label)
+                failed += isinstance(result, TaskError)
+                bar.update(1)
+                if failed:
+                    bar.set_postfix_str(f"{failed} failed", refresh=False)
+                yield item, result
+        finally:
+            bar.close()
+
+    def _outcomes(self, func, items, shared):
+        if self._client is None and self.scheduler is None and self.workers == 0:
+            for item in items:
+                yield item, _guarded(func, item, shared)
+            return
+        self.open()
+        from distributed import as_completed
+
+        client = self._client
+        shared_arg = None if shared is None else client.scatter(shared, broadcast=True,
+                                                                hash=False)
+        futures = {}
+        for index, item in enumerate(items):
+            future = client.submit(_guarded, func, item, shared_arg, pure=False,
+                                   key=f"photpipe-task-{os.getpid()}-{id(items)}-{index}")
+            futures[future.key] = (future, item)
+        pending = as_completed([f for f, _ in futures.values()])
+        try:
+            for future in pending:
+                _, item = futures.pop(future.key)
+                if future.status == "error":
+                    exc = future.exception()
+                    outcome = _Outcome(False, kind=type(exc).__name__, message=_dask_message(exc))
+                else:
+                    outcome = future.result()
+                future.release()
+                yield item, outcome
+        finally:
+            for future, _ in futures.values():
+                future.cancel()
+
+    def _unpack(self, item, outcome, label):
+        name = label(item)
+        for text in outcome.warnings:
+            log.warning("%s: %s", name, text)
+        if outcome.pid:
+            self.peak_memory_mb[outcome.pid] = max(self.peak_memory_mb.get(outcome.pid, 0.0),
+                                                   outcome.peak_rss_mb)
+            self.task_seconds.append(outcome.seconds)
+        if outcome.ok:
+            return outcome.value
+        error = TaskError(outcome.kind, outcome.message, details=outcome.details,
+                          original=outcome.original)
+        log.error("%s: %s", name, error)
+        if outcome.details:
+            log.debug("%s: worker traceback\n%s", name, outcome.details)
+        return error
+
+
+def _dask_message(exc):
+    if type(exc).__name__ == "KilledWorker":
+        return ("the worker process died while running this task (it was tried again on a "
+                "fresh process and died again)")
+    return str(exc)
+
+
+def run_tasks(func, items, *, workers=1, scheduler=None, progress=True, desc="tasks",
+              shared=None, label=str):
+    """Run ``func`` over ``items`` on Dask and yield ``(item, result or TaskError)`` as they end.
+
+    A one-batch shortcut for :class:`TaskRunner`; the processes are started for this batch and
+    stopped when the iterator is exhausted or closed.
+
+    Parameters
+    ----------
+    func : callable
+        Picklable top-level function of one item (or of ``item, shared``).
+    items : iterable
+        Task inputs.
+    workers : int, optional
+        Local worker processes; ``0`` runs in this process.
+    scheduler : str, optional
+        Address of an existing Dask scheduler; overrides ``workers``.
+    progress : bool, optional
+        Show a progress bar.
+    desc : str, optional
+        Progress-bar label.
+    shared : object, optional
+        Data every task needs, sent once per worker.
+    label : callable, optional
+        Names an item in log messages.
+
+    Yields
+    ------
+    item, result : object, object or `TaskError`
+
+    Examples
+    --------
+    >>> import math
+    >>> out = dict(run_tasks(math.sqrt, [4.0, -1.0], workers=0, progress=False))
+    >>> out[4.0], type(out[-1.0]).__name__
+    (2.0, 'TaskError')
+    """
+    with TaskRunner(workers=workers, scheduler=scheduler, progress=progress) as runner:
+        yield from runner.map(func, items, shared=shared, desc=desc, label=label)
