@@ -25,6 +25,7 @@ N_SCIENCE = 12
 
 
 def main():
+    """Render the demo night, its reference stars and its truth table."""
     config = load_config(HERE.parent / "configs" / "demo.toml")
     night = config["night"][0]
     folder = Path(night["path"])
