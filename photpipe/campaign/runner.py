@@ -109,6 +109,8 @@ class TaskRunner:
         Address of an existing Dask scheduler (``"tcp://host:8786"``) to run the tasks on.
     progress : bool, optional
         Show a progress bar (counts, rate, time remaining) on standard error.
+    connect_timeout : float, optional
+        Seconds to wait for the scheduler at ``scheduler``.
 
     Attributes
     ----------
@@ -124,13 +126,14 @@ class TaskRunner:
     [1, 2]
     """
 
-    def __init__(self, *, workers=1, scheduler=None, progress=True):
+    def __init__(self, *, workers=1, scheduler=None, progress=True, connect_timeout=20.0):
         if scheduler is None and (not isinstance(workers, int) or workers < 0):
             msg = f"'workers' must be a whole number >= 0, got {workers!r}"
             raise ValueError(msg)
         self.workers = workers
         self.scheduler = scheduler
         self.progress = progress
+        self.connect_timeout = float(connect_timeout)
         self.peak_memory_mb = {}
         self.task_seconds = []
         self._client = None
@@ -161,7 +164,7 @@ class TaskRunner:
 
         if self.scheduler is not None:
             try:
-                self._client = Client(self.scheduler, timeout="20s")
+                self._client = Client(self.scheduler, timeout=self.connect_timeout)
             except (OSError, TimeoutError) as exc:
                 msg = f"cannot connect to the Dask scheduler at {self.scheduler!r}: {exc}"
                 raise ConnectionError(msg) from exc

@@ -1,0 +1,78 @@
+import logging
+
+import pytest
+
+from photpipe.campaign import TaskError, TaskRunner, run_tasks
+
+from . import _toys
+
+
+def test_inline_results_and_errors_per_item():
+    out = dict(run_tasks(_toys.fail_on_three, range(6), workers=0, progress=False))
+    assert [out[i] for i in (0, 1, 2, 4, 5)] == [0, 1, 2, 4, 5]
+    err = out[3]
+    assert isinstance(err, TaskError)
+    assert err.kind == "ValueError"
+    assert str(err) == "ValueError: item 3 is bad"
+    assert isinstance(err.original, ValueError)
+    assert "fail_on_three" in err.details
+
+
+def test_warnings_are_logged_not_raised(caplog):
+    # pytest turns warnings into errors; the runner records them per item instead.
+    with caplog.at_level(logging.WARNING, logger="photpipe.campaign"):
+        out = dict(run_tasks(_toys.warn_and_return, [7], workers=0, progress=False,
+                             label=lambda x: f"frame{x}"))
+    assert out == {7: 7}
+    assert "frame7: PoorResultWarning: item 7 is poor" in caplog.text
+
+
+def test_shared_data_reaches_every_task():
+    out = dict(run_tasks(_toys.add_shared, [1, 2], workers=0, progress=False,
+                         shared={"offset": 10}))
+    assert out == {1: 11, 2: 12}
+
+
+def test_unpicklable_exception_is_described():
+    (_, err), = run_tasks(_toys.raise_unpicklable, [1], workers=0, progress=False)
+    assert err.kind == "Unpicklable" and err.original is None
+    assert err.message == "cannot travel"
+
+
+@pytest.mark.parametrize("workers", [
+    pytest.param(-1, id="negative"), pytest.param(1.5, id="fraction")])
+def test_bad_worker_count(workers):
+    with pytest.raises(ValueError, match="'workers' must be a whole number >= 0"):
+        TaskRunner(workers=workers)
+
+
+@pytest.mark.slow
+def test_local_cluster_streams_results_and_survives_a_dead_worker():
+    items = list(range(6))
+    with TaskRunner(workers=2, progress=False) as runner:
+        out = dict(runner.map(_toys.die_on_two, items))
+        again = dict(runner.map(_toys.add_shared, [1, 2], shared={"offset": 5}))
+    assert {k: v for k, v in out.items() if k != 2} == {0: 0, 1: 1, 3: 3, 4: 4, 5: 5}
+    assert isinstance(out[2], TaskError) and out[2].kind == "KilledWorker"
+    assert "worker process died" in out[2].message
+    assert again == {1: 6, 2: 7}
+    assert len(runner.peak_memory_mb) >= 1
+
+
+@pytest.mark.slow
+def test_existing_scheduler_gives_the_same_results():
+    from distributed import LocalCluster
+
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
+                      dashboard_address=None, silence_logs=logging.ERROR) as cluster:
+        remote = dict(run_tasks(_toys.fail_on_three, range(5), scheduler=cluster.scheduler_address,
+                                progress=False))
+    local = dict(run_tasks(_toys.fail_on_three, range(5), workers=0, progress=False))
+    assert {k: v for k, v in remote.items() if k != 3} == {k: v for k, v in local.items()
+                                                            if k != 3}
+    assert str(remote[3]) == str(local[3]) == "ValueError: item 3 is bad"
+
+
+def test_unreachable_scheduler_is_named():
+    with pytest.raises(ConnectionError, match="tcp://127.0.0.1:9"):
+        TaskRunner(scheduler="tcp://127.0.0.1:9", connect_timeout=1.0).open()
