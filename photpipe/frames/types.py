@@ -110,6 +110,9 @@ class CalibratedFrame:
         Celestial WCS from the header, if any.
     history : list of str
         Calibration steps applied, in order.
+    flags : tuple of str
+        Short words for calibrations that were not ideal (``no_dark``, ``dark_scaled``), empty
+        when all is well.
     """
 
     info: FrameInfo
@@ -118,6 +121,7 @@ class CalibratedFrame:
     quality: np.ndarray
     wcs: WCS | None = None
     history: list = field(default_factory=list)
+    flags: tuple = ()
 
     def __post_init__(self):
         shapes = {self.data.shape, self.variance.shape, self.quality.shape}

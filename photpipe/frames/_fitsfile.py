@@ -1,0 +1,188 @@
+"""Private FITS helpers: open a frame file safely, find its image, read rows, write atomically.
+
+Every problem becomes a `FrameError` that starts with the file path, so batch code can record
+one clear line and go on.
+"""
+
+import contextlib
+import os
+import tempfile
+import warnings
+
+import numpy as np
+from astropy.io import fits
+
+from .errors import FrameError
+
+__all__ = ["open_image", "read_image", "RowReader", "write_atomic", "merged_header"]
+
+# keywords that describe one HDU's layout and must not be copied from the primary header
+_STRUCTURAL = {"SIMPLE", "EXTEND", "BITPIX", "NAXIS", "NAXIS1", "NAXIS2", "NAXIS3", "PCOUNT",
+               "GCOUNT", "XTENSION", "EXTNAME", "BZERO", "BSCALE", "CHECKSUM", "DATASUM",
+               "COMMENT", "HISTORY", ""}
+
+_IMAGE_TYPES = (fits.PrimaryHDU, fits.ImageHDU, fits.CompImageHDU)
+
+
+def _image_index(hdul):
+    for i, hdu in enumerate(hdul):
+        if isinstance(hdu, _IMAGE_TYPES) and hdu.header.get("NAXIS", 0) >= 2:
+            dims = [hdu.header.get(f"NAXIS{k}", 0) for k in range(1, hdu.header["NAXIS"] + 1)]
+            if all(d > 0 for d in dims):
+                return i
+    return None
+
+
+def merged_header(hdul, index):
+    """Header of the image HDU with the primary header's other keywords added after it."""
+    header = hdul[index].header.copy()
+    if index != 0:
+        for card in hdul[0].header.cards:
+            if card.keyword not in _STRUCTURAL and card.keyword not in header:
+                header.append(card)
+    return header
+
+
+def _check_size(path, hdul, index):
+    info = hdul.fileinfo(index)
+    if info is None or getattr(info["file"], "compression", None):
+        return  # gzip streams are checked when the data are read
+    expected = info["datLoc"] + info["datSpan"]
+    actual = os.path.getsize(path)
+    if actual < expected:
+        msg = f"file is truncated: {actual} bytes on disk, its headers promise {expected}"
+        raise FrameError(path, msg)
+
+
+@contextlib.contextmanager
+def open_image(path, *, memmap=False):
+    """Open a FITS file and yield ``(hdul, index)`` of its first image HDU with data.
+
+    Raises
+    ------
+    FrameError
+        If the file is missing, is not FITS, is truncated, or holds no 2-D image.
+    """
+    path = os.fspath(path)
+    if not os.path.isfile(path):
+        raise FrameError(path, "no such file")
+    try:
+        with warnings.catch_warnings():
+            # astropy warns about truncation and fixable header cards; truncation is checked
+            # below from the file size, header fixes are harmless for reading
+            warnings.simplefilter("ignore")
+            hdul = fits.open(path, memmap=memmap, lazy_load_hdus=False)
+    except (OSError, ValueError, TypeError, IndexError, KeyError) as exc:
+        raise FrameError(path, f"not a readable FITS file ({exc})") from exc
+    try:
+        index = _image_index(hdul)
+        if index is None:
+            raise FrameError(path, "no HDU holds a 2-D image with data")
+        ndim = hdul[index].header["NAXIS"]
+        if ndim != 2:
+            dims = [hdul[index].header.get(f"NAXIS{k}", 0) for k in range(1, ndim + 1)]
+            extra = [d for d in dims[2:] if d != 1]
+            if extra:
+                raise FrameError(path, f"image has {ndim} axes {dims}; expected a 2-D frame")
+        _check_size(path, hdul, index)
+        yield hdul, index
+    finally:
+        hdul.close()
+
+
+def _as_2d(arr, path):
+    arr = np.asarray(arr)
+    if arr.ndim > 2:
+        arr = arr.reshape(arr.shape[-2:])
+    if arr.ndim != 2:
+        raise FrameError(path, f"image data has shape {arr.shape}; expected 2-D")
+    return arr
+
+
+def read_image(path, *, dtype=np.float32):
+    """Read the first image of ``path`` as a 2-D array of ``dtype`` (BZERO/BSCALE applied)."""
+    with open_image(path) as (hdul, index):
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                data = hdul[index].data
+        except (OSError, ValueError, TypeError, EOFError) as exc:
+            raise FrameError(path, f"image data cannot be read, file damaged or truncated "
+                                   f"({exc})") from exc
+        return _as_2d(data, path).astype(dtype, copy=False)
+
+
+class RowReader:
+    """Read the same block of rows from many frame files, one block at a time.
+
+    The files stay open (sections are read on demand; compressed tiles are decoded as needed),
+    so memory holds one block per file, never whole frames.
+
+    Parameters
+    ----------
+    paths : list of str
+        Frame files, all of the same 2-D shape.
+    shape : tuple of int
+        Expected ``(ny, nx)``.
+    """
+
+    def __init__(self, paths, shape):
+        self.paths = [os.fspath(p) for p in paths]
+        self.shape = tuple(shape)
+        self._stack = contextlib.ExitStack()
+        self._hdus = []
+
+    def __enter__(self):
+        try:
+            for path in self.paths:
+                hdul, index = self._stack.enter_context(open_image(path, memmap=False))
+                hdu = hdul[index]
+                shape = tuple(hdu.shape[-2:])
+                if shape != self.shape:
+                    msg = f"image shape {shape} differs from the group's {self.shape}"
+                    raise FrameError(path, msg)
+                self._hdus.append(hdu)
+        except BaseException:
+            self._stack.close()
+            raise
+        return self
+
+    def __exit__(self, *exc):
+        self._hdus = []
+        self._stack.close()
+        return False
+
+    def read(self, i, r0, r1, *, dtype=np.float32):
+        """Rows ``r0:r1`` of file ``i`` as ``dtype``."""
+        hdu = self._hdus[i]
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                if hdu.header["NAXIS"] > 2:
+                    block = hdu.section[(0,) * (hdu.header["NAXIS"] - 2) + (slice(r0, r1),)]
+                else:
+                    block = hdu.section[r0:r1, :]
+        except (OSError, ValueError, TypeError, EOFError) as exc:
+            raise FrameError(self.paths[i], f"rows {r0}:{r1} cannot be read ({exc})") from exc
+        return np.asarray(block, dtype=dtype)
+
+
+def write_atomic(hdul, path):
+    """Write ``hdul`` to ``path`` through a temporary file in the same folder, then rename.
+
+    A reader never sees a half-written file, and an existing file is replaced only once the new
+    one is complete.
+    """
+    path = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(path))
+    os.makedirs(folder, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(path) + ".",
+                               suffix=".part")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            hdul.writeto(fh, output_verify="silentfix")
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.remove(tmp)
+        raise

@@ -1,0 +1,246 @@
+"""Calibrating a science frame: bias, dark, flat, electrons, variance and quality planes."""
+
+import functools
+import os
+import warnings
+
+import numpy as np
+from astropy import units as u
+from astropy.wcs import WCS, FITSFixedWarning
+
+from ._fitsfile import read_image
+from .cosmics import find_cosmic_rays
+from .errors import FrameError
+from .ingest import read_frame_info
+from .noise import DIGITISATION_SIGMA_ADU
+from .types import CalibratedFrame, FrameInfo, Quality
+
+__all__ = ["calibrate_frame", "prepare_calibration", "apply_calibration", "Prepared"]
+
+
+class Prepared:
+    """Per-pixel factors of one (bias, dark, flat, exposure, detector) combination.
+
+    They depend only on the masters, the exposure time and the detector, so they are computed
+    once per process and reused for every frame of the same exposure.
+
+    Attributes
+    ----------
+    offset : ndarray
+        ``bias + dark_rate * t`` in adu.
+    gain_over_flat : ndarray
+        ``G / F`` (NaN where the flat is unusable).
+    poisson_factor : ndarray
+        ``G / F**2``: variance in electron**2 per adu of signal.
+    constant_var : ndarray
+        Variance terms independent of the frame's signal, in electron**2 (see `apply_calibration`).
+    flat_relvar : ndarray
+        ``var(F) / F**2``.
+    quality : ndarray of uint16
+        Quality bits of the masters.
+    """
+
+    def __init__(self, bias, bias_var, dark_rate, dark_var, flat, flat_var, quality, *,
+                 exptime, gain, read_noise):
+        t, g = float(exptime), float(gain)
+        if dark_rate is None:
+            dark_rate = np.zeros_like(bias)
+            dark_var = np.zeros_like(bias)
+        dark_adu = dark_rate * t
+        usable = np.isfinite(flat) & (flat > 0) & np.isfinite(bias) & np.isfinite(dark_adu)
+        f = np.where(usable, flat, np.nan).astype(np.float32)
+        self.offset = (bias + dark_adu).astype(np.float32)
+        self.gain_over_flat = (g / f).astype(np.float32)
+        self.poisson_factor = (g / f**2).astype(np.float32)
+        const = (g * np.maximum(dark_adu, 0.0) + float(read_noise) ** 2
+                 + (g * DIGITISATION_SIGMA_ADU) ** 2 + g**2 * (bias_var + t**2 * dark_var))
+        self.constant_var = (const / f**2).astype(np.float32)
+        self.flat_relvar = (flat_var / f**2).astype(np.float32)
+        q = np.asarray(quality, np.uint16).copy()
+        q[~usable] |= np.uint16(Quality.NONFINITE)
+        self.quality = q
+        for arr in (self.offset, self.gain_over_flat, self.poisson_factor, self.constant_var,
+                    self.flat_relvar, self.quality):
+            arr.setflags(write=False)
+
+
+@functools.lru_cache(maxsize=4)
+def _prepared_cached(bias_path, dark_path, flat_path, exptime, gain, read_noise):
+    from .masters import load_master
+
+    bias = load_master(bias_path)
+    dark = None if dark_path is None else load_master(dark_path)
+    flat = load_master(flat_path)
+    quality = bias.quality | flat.quality
+    if dark is not None:
+        quality = quality | dark.quality
+    return Prepared(bias.value, bias.variance, None if dark is None else dark.value,
+                    None if dark is None else dark.variance, flat.value, flat.variance,
+                    quality, exptime=exptime, gain=gain, read_noise=read_noise)
+
+
+def prepare_calibration(bias, dark, flat, *, exptime, gain, read_noise):
+    """The `Prepared` factors for master files ``bias``, ``dark`` (or None), ``flat``.
+
+    Cached per process on the file names and the exposure and detector values.
+    """
+    return _prepared_cached(bias.path, None if dark is None else dark.path, flat.path,
+                            float(exptime), float(gain), float(read_noise))
+
+
+def apply_calibration(raw, prepared, *, saturation):
+    r"""Calibrate raw adu into electrons with variance and quality planes.
+
+    Parameters
+    ----------
+    raw : ndarray, shape (ny, nx)
+        Raw frame in adu.
+    prepared : Prepared
+        Factors from the masters.
+    saturation : float
+        Raw level (adu) at or above which a pixel is SATURATED.
+
+    Returns
+    -------
+    data, variance : ndarray of float32
+        Electrons and electron**2.
+    quality : ndarray of uint16
+
+    Notes
+    -----
+    With ``x = raw - B - R t`` (bias ``B``, dark rate ``R``, exposure ``t``), gain ``G`` and
+    normalised flat ``F``:
+
+    .. math::
+
+        d = G x / F, \qquad
+        \sigma_d^2 = \frac{G \max(x, 0) + G \max(R t, 0) + N_R^2 + G^2\sigma_f^2
+                     + G^2(\sigma_B^2 + t^2 \sigma_R^2)}{F^2}
+                     + d^2 \frac{\sigma_F^2}{F^2}
+
+    the Poisson noise of the collected source, sky and dark electrons, the read noise, the
+    digitisation noise (sigma_f = 1/sqrt(12) adu), and the noise of the masters, propagated
+    to first order; per pixel these are the terms of the CCD equation (Merline & Howell 1995).
+    The dark electrons' Poisson term uses the master's rate, not the noisy frame.
+    """
+    data = np.subtract(raw, prepared.offset, dtype=np.float32)
+    var = np.maximum(data, 0.0)
+    data *= prepared.gain_over_flat
+    var *= prepared.poisson_factor
+    var += prepared.constant_var
+    sq = np.square(data)
+    sq *= prepared.flat_relvar
+    var += sq
+    quality = prepared.quality.copy()
+    saturated = raw >= saturation
+    quality[saturated] |= np.uint16(Quality.SATURATED)
+    if raw.dtype.kind == "f":
+        quality[~np.isfinite(raw)] |= np.uint16(Quality.NONFINITE)
+    return data, var, quality
+
+
+def _read_wcs(header):
+    try:
+        with warnings.catch_warnings():
+            # astropy reports header keywords it normalised (dates, units); not a problem here
+            warnings.simplefilter("ignore", FITSFixedWarning)
+            wcs = WCS(header, naxis=2)
+    except Exception as exc:  # noqa: BLE001 - any unreadable WCS means "no WCS"
+        return None, f"header WCS unreadable ({type(exc).__name__}: {exc})"
+    if not wcs.has_celestial:
+        return None, "no celestial WCS in the header"
+    return wcs.celestial, None
+
+
+def calibrate_frame(frame, masters, *, detect_cosmics=True, cosmic_method="lacosmic",
+                    cosmic_options=None, kind_map=None, max_saturated_fraction=0.5):
+    """Calibrate one science frame with a night's masters.
+
+    Parameters
+    ----------
+    frame : FrameInfo or str or path-like
+        The raw frame (a path is read with `read_frame_info`).
+    masters : MasterSet
+        From `build_masters`; the masters are chosen by the rules of
+        :mod:`photpipe.frames.plan`.
+    detect_cosmics : bool, optional
+        Flag cosmic-ray hits (COSMIC_RAY bit). The data values are left as they are.
+    cosmic_method : str, optional
+        Key of `~photpipe.frames.cosmics.COSMIC_METHODS`.
+    cosmic_options : dict, optional
+        Passed to the cosmic-ray method (for L.A.Cosmic: ``sigclip``, ``objlim``, ...).
+    kind_map : KindMap, optional
+        Used when ``frame`` is a path.
+    max_saturated_fraction : float, optional
+        A frame with a larger fraction of saturated pixels is refused.
+
+    Returns
+    -------
+    CalibratedFrame
+        ``data`` in electrons over the exposure (float32), ``variance`` in electron**2,
+        ``quality`` bits, ``wcs`` from the header, ``history`` of the steps.
+
+    Raises
+    ------
+    FrameError
+        No matching masters, unreadable data, a shape that differs from the masters, or too
+        many saturated pixels.
+
+    Notes
+    -----
+    See `apply_calibration` for the equations. Quality bits: the masters' BAD, HOT,
+    LOW_FLAT and NONFINITE bits, SATURATED where the raw value is at or above SATURATE,
+    COSMIC_RAY from L.A.Cosmic (van Dokkum 2001, PASP 113, 1420). Pixels where the flat is
+    zero, negative or not finite get NaN data and variance.
+    """
+    info = frame if isinstance(frame, FrameInfo) else read_frame_info(frame, kind_map=kind_map)
+    bias, dark, flat, flags = masters.choose(info)
+    raw = read_image(info.path)
+    if raw.shape != tuple(info.shape):
+        raise FrameError(info.path, f"image shape {raw.shape} differs from its header's "
+                                    f"{tuple(info.shape)}")
+    gain = info.gain.to_value(u.electron / u.adu)
+    read_noise = info.read_noise.to_value(u.electron)
+    t = info.exptime.to_value(u.s)
+    prepared = prepare_calibration(bias, dark, flat, exptime=t, gain=gain,
+                                   read_noise=read_noise)
+    if prepared.offset.shape != raw.shape:
+        raise FrameError(info.path, f"image shape {raw.shape} differs from the masters' "
+                                    f"{prepared.offset.shape}")
+    saturation = info.saturation.to_value(u.adu)
+    data, var, quality = apply_calibration(raw, prepared, saturation=saturation)
+    n_sat = int(np.count_nonzero(quality & Quality.SATURATED))
+    frac = n_sat / raw.size
+    if frac >= 1.0:
+        raise FrameError(info.path, f"every pixel is saturated (raw >= {saturation:g} adu)")
+    if frac > max_saturated_fraction:
+        raise FrameError(info.path, f"{100 * frac:.1f}% of pixels are saturated (raw >= "
+                                    f"{saturation:g} adu), more than the "
+                                    f"{100 * max_saturated_fraction:g}% allowed")
+    history = [f"bias: subtracted {bias.describe()}"]
+    if dark is None:
+        history.append("dark: none available, dark current not removed (flag no_dark)")
+    else:
+        dt = dark.key[3] / 1000.0
+        how = f"rate scaled from {dt:g} s to {t:g} s" if "dark_scaled" in flags else \
+            f"rate times {t:g} s"
+        history.append(f"dark: subtracted {dark.describe()}, {how}")
+    history.append(f"flat: divided by {flat.describe()}")
+    history.append(f"units: times gain {gain:g} electron/adu -> electrons; variance from "
+                   f"Poisson + read noise {read_noise:g} electron + digitisation + masters")
+    history.append(f"saturated: {n_sat} pixels at or above {saturation:g} adu")
+    if detect_cosmics:
+        ignore = quality != 0
+        hits = find_cosmic_rays(data, var, ignore, read_noise=read_noise,
+                                method=cosmic_method, **dict(cosmic_options or {}))
+        quality[hits] |= np.uint16(Quality.COSMIC_RAY)
+        history.append(f"cosmic rays: {int(hits.sum())} pixels flagged by {cosmic_method}"
+                       + (f" {dict(cosmic_options)}" if cosmic_options else ""))
+    wcs, why = _read_wcs(info.header)
+    if why:
+        history.append(f"wcs: {why}")
+    for flag in flags:
+        history.append(f"flag: {flag}")
+    history.append(f"raw: {os.path.basename(info.path)}")
+    return CalibratedFrame(info=info, data=data, variance=var, quality=quality, wcs=wcs,
+                           history=history, flags=tuple(flags))
