@@ -1,0 +1,163 @@
+"""Absolute magnitude of the nucleus: reduced magnitudes and their rotation-averaged mean."""
+
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+from astropy import units as u
+
+from photpipe._quantity import as_positive_value, as_value
+from photpipe._warnings import PoorResultWarning
+from photpipe.size._mean_flux import flux_mean
+from photpipe.size._mean_phase_binned import phase_binned_mean
+
+__all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude"]
+
+#: Method name -> function(mag, err, *, times, period, n_bins) -> (flux, flux_err, flags).
+MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean}
+
+_LN10_04 = 0.4 * np.log(10.0)
+
+
+def reduce_magnitude(mag, r_h, delta, phase, *, phase_coefficient=0.035 * u.mag / u.deg):
+    """Return the reduced magnitude m(1, 1, 0) of an apparent nucleus magnitude.
+
+    Parameters
+    ----------
+    mag : float or array-like or `~astropy.units.Quantity` ['mag']
+        Apparent magnitude(s).
+    r_h, delta : `~astropy.units.Quantity` ['length']
+        Heliocentric and geocentric distances.
+    phase : `~astropy.units.Quantity` ['angle']
+        Phase angle α.
+    phase_coefficient : `~astropy.units.Quantity`, optional
+        Linear phase coefficient β (mag/deg); default 0.035, the mean of measured nuclei
+        (Lamy et al. 2004, Comets II, from memory).
+
+    Returns
+    -------
+    m110 : `~astropy.units.Quantity` ['mag']
+        ``m - 5 log10(r_h Δ) - β α`` with r_h and Δ in AU.
+
+    Examples
+    --------
+    >>> from astropy import units as u
+    >>> m = reduce_magnitude(20.0, 2 * u.au, 1 * u.au, 10 * u.deg)
+    >>> print(f"{m.to_value('mag'):.4f}")
+    18.1449
+    """
+    m = np.asarray(as_value(mag, u.mag, "mag", allow_dimensionless=True))
+    rh = as_positive_value(r_h, u.au, "r_h")
+    dl = as_positive_value(delta, u.au, "delta")
+    alpha = as_value(phase, u.deg, "phase")
+    beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
+    return (m - 5.0 * np.log10(np.asarray(rh) * np.asarray(dl)) - beta * np.asarray(alpha)) * u.mag
+
+
+@dataclass(frozen=True)
+class AbsoluteMagnitude:
+    """Rotation-averaged absolute magnitude of a nucleus.
+
+    Attributes
+    ----------
+    H, H_err : float
+        Magnitude of the mean flux and its 1-sigma error (mag).
+    n_points : int
+        Points used.
+    method : str
+        Averaging method (a key of `MEAN_METHODS`).
+    flags : tuple of str
+        ``single_point``, ``sparse_rotation_coverage`` or empty.
+    """
+
+    H: float
+    H_err: float
+    n_points: int
+    method: str
+    flags: tuple = ()
+
+    def to_dict(self):
+        """Return the result as plain values."""
+        return {"H_mag": self.H, "H_err_mag": self.H_err, "n_points": self.n_points,
+                "H_method": self.method, "flags": list(self.flags)}
+
+
+def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean", times=None,
+                            period=None, n_bins=8):
+    """Average a reduced lightcurve over rotation into the absolute magnitude H.
+
+    Parameters
+    ----------
+    reduced_mag, reduced_mag_err : array-like or `~astropy.units.Quantity` ['mag']
+        Reduced magnitudes m(1, 1, 0) and their errors; non-finite rows are dropped.
+    method : {"flux-mean", "phase-binned"}, optional
+        ``"flux-mean"``: mean flux of all points. ``"phase-binned"``: fold at ``period`` and
+        give each of ``n_bins`` phase bins equal weight (uneven sampling of the rotation then
+        does not bias H).
+    times : `~astropy.units.Quantity` ['time'] or `~astropy.time.Time`, optional
+        Observation times (light-time corrected), for ``"phase-binned"``.
+    period : `~astropy.units.Quantity` ['time'], optional
+        Rotation period, for ``"phase-binned"``.
+    n_bins : int, optional
+        Number of rotational phase bins.
+
+    Returns
+    -------
+    AbsoluteMagnitude
+
+    Raises
+    ------
+    ValueError
+        If no finite point is left ("H with no lightcurve behind it"), errors are negative, or
+        the method is unknown.
+
+    Warns
+    -----
+    PoorResultWarning
+        For a single point, or phase-binned coverage of less than half the bins.
+
+    Notes
+    -----
+    The effective radius belongs to the mean cross-section, so the average is taken in flux:
+    ``H = -2.5 log10(<10^(-0.4 m)>)``, ``σ_H = (2.5 / ln 10) σ_F / F``.
+
+    Examples
+    --------
+    >>> h = mean_absolute_magnitude([15.1, 14.9, 15.1, 14.9], [0.02] * 4)
+    >>> print(f"{h.H:.3f} +- {h.H_err:.3f}")
+    14.995 +- 0.058
+    """
+    m = np.atleast_1d(as_value(reduced_mag, u.mag, "reduced_mag", allow_dimensionless=True))
+    e = np.atleast_1d(as_value(reduced_mag_err, u.mag, "reduced_mag_err",
+                               allow_dimensionless=True))
+    if m.shape != e.shape:
+        msg = f"'reduced_mag' and 'reduced_mag_err' differ in shape: {m.shape} vs {e.shape}"
+        raise ValueError(msg)
+    if method not in MEAN_METHODS:
+        msg = f"unknown method {method!r}; choose from {sorted(MEAN_METHODS)}"
+        raise ValueError(msg)
+    good = np.isfinite(m) & np.isfinite(e)
+    if not np.any(good):
+        msg = ("no finite reduced magnitudes: H needs a lightcurve behind it "
+               f"({m.size} row(s) given, none usable)")
+        raise ValueError(msg)
+    if np.any(e[good] < 0):
+        msg = "'reduced_mag_err' must be >= 0"
+        raise ValueError(msg)
+    t = p = None
+    if method == "phase-binned":
+        if times is None or period is None:
+            msg = "method 'phase-binned' needs both 'times' and 'period'"
+            raise ValueError(msg)
+        t_all = times.mjd if hasattr(times, "mjd") else as_value(times, u.day, "times")
+        t = np.atleast_1d(np.asarray(t_all, dtype=float))[good]
+        p = as_positive_value(period, u.day, "period")
+    flux, flux_err, flags = MEAN_METHODS[method](m[good], e[good], times=t, period=p,
+                                                 n_bins=int(n_bins))
+    result = AbsoluteMagnitude(H=float(-2.5 * np.log10(flux)),
+                               H_err=float(flux_err / flux / _LN10_04),
+                               n_points=int(good.sum()), method=method, flags=tuple(flags))
+    if flags:
+        msg = f"absolute magnitude from {result.n_points} point(s) is weak: {', '.join(flags)}"
+        warnings.warn(msg, PoorResultWarning, stacklevel=2)
+    return result
