@@ -1,0 +1,160 @@
+"""The elliptical Moffat profile, as a pure model function (no fitting here).
+
+The Moffat (1969, A&A 3, 455) point-spread function normalised to unit flux over the plane is
+
+    I(u, v) = (β - 1) / (π α_a α_b) · (1 + u²/α_a² + v²/α_b²)^(-β),
+
+with (u, v) along the major and minor axes, α_b = (1 - e) α_a for ellipticity e = 1 - b/a, and
+FWHM_a = 2 α_a sqrt(2^(1/β) - 1) along the major axis (Trujillo et al. 2001, MNRAS 328, 977,
+eq. 3 and 5).
+"""
+
+import numpy as np
+from numpy.polynomial.legendre import leggauss
+
+__all__ = ["moffat_alpha", "moffat_fwhm", "moffat_surface", "moffat_pixel_image", "moffat_kernel"]
+
+
+def moffat_alpha(fwhm, beta):
+    """Moffat core width α for a FWHM and β.
+
+    Examples
+    --------
+    >>> round(float(moffat_alpha(2.0, 3.0)), 6)
+    1.961459
+    """
+    return fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / beta) - 1.0))
+
+
+def moffat_fwhm(alpha, beta):
+    """FWHM of a Moffat profile of core width α and index β (inverse of `moffat_alpha`).
+
+    Examples
+    --------
+    >>> round(float(moffat_fwhm(moffat_alpha(3.3, 2.5), 2.5)), 12)
+    3.3
+    """
+    return 2.0 * alpha * np.sqrt(2.0 ** (1.0 / beta) - 1.0)
+
+
+def moffat_surface(x, y, *, fwhm, beta, ellipticity=0.0, angle=0.0):
+    """Moffat surface density at offsets (x, y) from its centre, unit integral over the plane.
+
+    Parameters
+    ----------
+    x, y : array-like
+        Offsets in pixels.
+    fwhm : float
+        FWHM along the major axis, pixels.
+    beta : float
+        Moffat index (> 1).
+    ellipticity : float, optional
+        1 - b/a, in [0, 1).
+    angle : float, optional
+        Major-axis angle, radians counter-clockwise from +x.
+
+    Returns
+    -------
+    density : ndarray
+        Per unit pixel area.
+
+    Examples
+    --------
+    >>> a = moffat_alpha(3.0, 3.0)
+    >>> round(float(moffat_surface(0.0, 0.0, fwhm=3.0, beta=3.0) * np.pi * a**2), 12)
+    2.0
+    """
+    if beta <= 1.0:
+        msg = f"Moffat 'beta' must exceed 1, got {beta}"
+        raise ValueError(msg)
+    if not 0.0 <= ellipticity < 1.0:
+        msg = f"'ellipticity' must lie in [0, 1), got {ellipticity}"
+        raise ValueError(msg)
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    c, s = np.cos(angle), np.sin(angle)
+    aa = moffat_alpha(fwhm, beta)
+    ab = aa * (1.0 - ellipticity)
+    u_ = (x * c + y * s) / aa
+    v_ = (-x * s + y * c) / ab
+    return (beta - 1.0) / (np.pi * aa * ab) * (1.0 + u_**2 + v_**2) ** (-beta)
+
+
+def moffat_pixel_image(shape, x0, y0, *, fwhm, beta, ellipticity=0.0, angle=0.0, nodes=4):
+    """Moffat integrated over each pixel of an image: a unit-flux point source at (x0, y0).
+
+    Parameters
+    ----------
+    shape : tuple of int
+        (ny, nx).
+    x0, y0 : float
+        Centre in pixel coordinates (pixel centres at integers).
+    fwhm, beta, ellipticity, angle
+        As in `moffat_surface`.
+    nodes : int, optional
+        Gauss-Legendre nodes per pixel side.
+
+    Returns
+    -------
+    image : ndarray, shape (ny, nx)
+        Fraction of the total flux in each pixel; sums to < 1 when wings leave the image.
+
+    Notes
+    -----
+    Gauss-Legendre product quadrature over each pixel (Abramowitz & Stegun 1964, 25.4.29). With
+    4 nodes and FWHM ≥ 2 pixels the pixel values are good to better than 1e-4 relative.
+
+    Examples
+    --------
+    >>> img = moffat_pixel_image((61, 61), 30.2, 29.9, fwhm=3.0, beta=3.0)
+    >>> round(float(img.sum()), 3)
+    1.0
+    """
+    ny, nx = shape
+    t, w = leggauss(nodes)
+    t = 0.5 * t
+    w = 0.5 * w
+    xs = (np.arange(nx)[:, None] + t[None, :]).ravel() - x0
+    ys = (np.arange(ny)[:, None] + t[None, :]).ravel() - y0
+    img = moffat_surface(xs[None, :], ys[:, None], fwhm=fwhm, beta=beta,
+                         ellipticity=ellipticity, angle=angle)
+    img = img.reshape(ny, nodes, nx, nodes)
+    return np.einsum("ijnm,j,m->in", img, w, w)
+
+
+def moffat_kernel(size, *, fwhm, beta, ellipticity=0.0, angle=0.0, oversample=1):
+    """Point-sampled, centred, unit-sum Moffat kernel for convolving pixel-integrated scenes.
+
+    Parameters
+    ----------
+    size : int
+        Kernel side in pixels (odd).
+    fwhm, beta, ellipticity, angle
+        As in `moffat_surface`.
+    oversample : int, optional
+        Samples per pixel side; the kernel has ``size * oversample`` samples per side.
+
+    Returns
+    -------
+    kernel : ndarray, shape (size * oversample, size * oversample)
+
+    Notes
+    -----
+    A scene already integrated over pixels, convolved with the PSF sampled at pixel centres,
+    gives the pixel integrals of the PSF-blurred scene (the pixel box enters once); a
+    pixel-integrated kernel would apply the box twice.
+
+    Examples
+    --------
+    >>> k = moffat_kernel(15, fwhm=3.0, beta=3.0)
+    >>> k.shape, round(float(k.sum()), 12), bool(k[7, 7] == k.max())
+    ((15, 15), 1.0, True)
+    """
+    if size % 2 != 1:
+        msg = f"kernel 'size' must be odd, got {size}"
+        raise ValueError(msg)
+    n = size * oversample
+    c = (np.arange(n) + 0.5) / oversample - size / 2.0
+    k = moffat_surface(c[None, :], c[:, None], fwhm=fwhm, beta=beta, ellipticity=ellipticity,
+                       angle=angle)
+    return k / k.sum()

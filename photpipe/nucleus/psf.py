@@ -1,0 +1,369 @@
+"""The PSF of a frame, measured from its field stars: analytic Moffat or empirical ePSF."""
+
+import warnings
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+from astropy import units as u
+from photutils.psf import ImagePSF
+from scipy.optimize import least_squares
+
+from photpipe._quantity import as_positive_value
+from photpipe._warnings import PoorResultWarning
+from photpipe.frames.types import CalibratedFrame
+
+from ._stamps import cut_star_stamps, fit_profile_to_stamp
+from .moffat import moffat_kernel, moffat_pixel_image, moffat_surface
+from .psf_epsf import build_epsf_image
+from .psf_moffat import fit_moffat_shape
+
+__all__ = ["PSFModel", "measure_psf", "PSF_BUILDERS", "EPSF_MARGIN"]
+
+#: The ePSF is chosen only when its residual χ² per degree of freedom is this factor below the
+#: Moffat's: it is built from the same stars it is scored on and so partly fits their noise.
+EPSF_MARGIN = 0.95
+
+
+@dataclass(frozen=True, eq=False)
+class PSFModel:
+    """A frame's point-spread function.
+
+    Attributes
+    ----------
+    method : str
+        ``"moffat"``, ``"epsf"`` or ``"fallback"`` (analytic, from a supplied FWHM).
+    fwhm_major_pix : float
+        FWHM along the major axis, pixels (for an ePSF: of a Moffat fitted to its image).
+    beta : float
+        Moffat index.
+    ellipticity : float
+        1 - b/a.
+    angle_deg : float
+        Major axis, degrees counter-clockwise from +x.
+    n_stars : int
+        Stars used.
+    flags : tuple of str
+        ``psf_fallback`` and the like.
+    scores : dict
+        Residual χ²/dof of the star fits for each method tried.
+    image : ndarray or None
+        Oversampled ePSF (``method == "epsf"``).
+    oversampling : int
+        Oversampling of ``image``.
+    """
+
+    method: str
+    fwhm_major_pix: float
+    beta: float = 3.0
+    ellipticity: float = 0.0
+    angle_deg: float = 0.0
+    n_stars: int = 0
+    flags: tuple = ()
+    scores: dict = field(default_factory=dict)
+    image: np.ndarray | None = None
+    oversampling: int = 1
+
+    @property
+    def fwhm_pix(self):
+        """Geometric-mean FWHM sqrt(FWHM_major FWHM_minor), pixels."""
+        return self.fwhm_major_pix * np.sqrt(1.0 - self.ellipticity)
+
+    @property
+    def half_size(self):
+        """Half side (pixels) of the square where the PSF is rendered."""
+        if self.image is not None:
+            return self.image.shape[0] // (2 * self.oversampling)
+        return int(np.clip(np.ceil(5.0 * self.fwhm_major_pix), 8, 40))
+
+    @cached_property
+    def _moffat_norm(self):
+        h = self.half_size
+        return float(moffat_pixel_image((2 * h + 1, 2 * h + 1), h, h, **self._moffat_args()).sum())
+
+    @cached_property
+    def _image_psf(self):
+        m = ImagePSF(self.image, oversampling=self.oversampling)
+        h = self.half_size
+        yy, xx = np.mgrid[-h:h + 1, -h:h + 1]
+        norm = float(np.sum(m.evaluate(xx, yy, 1.0, 0.0, 0.0)))
+        return m, norm
+
+    def _moffat_args(self):
+        return {"fwhm": self.fwhm_major_pix, "beta": self.beta, "ellipticity": self.ellipticity,
+                "angle": np.deg2rad(self.angle_deg)}
+
+    def render(self, shape, x0, y0):
+        """Unit-flux point source at (x0, y0), integrated over the pixels of an image.
+
+        The flux is normalised within the square of side ``2 * half_size + 1`` (as the kernel
+        is), so "flux" means what a large aperture collects.
+
+        Parameters
+        ----------
+        shape : tuple of int
+            (ny, nx) of the image.
+        x0, y0 : float
+            Position in pixel coordinates (pixel centres at integers).
+
+        Returns
+        -------
+        image : ndarray, shape (ny, nx)
+
+        Examples
+        --------
+        >>> psf = PSFModel.from_moffat(3.0, beta=3.0)
+        >>> round(float(psf.render((81, 81), 40.3, 39.8).sum()), 3)
+        1.0
+        """
+        ny, nx = shape
+        h = self.half_size
+        ix, iy = int(np.round(x0)), int(np.round(y0))
+        xa, xb = max(ix - h, 0), min(ix + h + 1, nx)
+        ya, yb = max(iy - h, 0), min(iy + h + 1, ny)
+        out = np.zeros(shape)
+        if xb <= xa or yb <= ya:
+            return out
+        if self.image is None:
+            out[ya:yb, xa:xb] = moffat_pixel_image((yb - ya, xb - xa), x0 - xa, y0 - ya,
+                                                   **self._moffat_args()) / self._moffat_norm
+        else:
+            m, norm = self._image_psf
+            yy, xx = np.mgrid[ya:yb, xa:xb]
+            out[ya:yb, xa:xb] = m.evaluate(xx - x0, yy - y0, 1.0, 0.0, 0.0) / norm
+        return out
+
+    def kernel(self, size, *, oversample=1):
+        """Centred, unit-sum kernel for convolving pixel-integrated scenes.
+
+        Parameters
+        ----------
+        size : int
+            Side in pixels (odd).
+        oversample : int, optional
+            Samples per pixel side.
+
+        Returns
+        -------
+        kernel : ndarray, shape (size * oversample, size * oversample)
+
+        Notes
+        -----
+        The analytic PSF is sampled at the points (see `moffat_kernel`); the ePSF is an
+        effective PSF, already integrated over a pixel, so its kernel carries the pixel box once
+        more (a variance of 1/12 pixel² per axis, small beside the PSF's).
+
+        Examples
+        --------
+        >>> k = PSFModel.from_moffat(3.0).kernel(21)
+        >>> k.shape, round(float(k.sum()), 12)
+        ((21, 21), 1.0)
+        """
+        if size % 2 != 1:
+            msg = f"kernel 'size' must be odd, got {size}"
+            raise ValueError(msg)
+        if self.image is None:
+            return moffat_kernel(size, oversample=oversample, **self._moffat_args())
+        m, _ = self._image_psf
+        n = size * oversample
+        c = (np.arange(n) + 0.5) / oversample - size / 2.0
+        k = m.evaluate(c[None, :], c[:, None], 1.0, 0.0, 0.0)
+        k = np.clip(k, 0.0, None)
+        return k / k.sum()
+
+    @classmethod
+    def from_moffat(cls, fwhm, *, beta=3.0, ellipticity=0.0, angle_deg=0.0, method="moffat",
+                    n_stars=0, flags=(), scores=None):
+        """Analytic Moffat PSF of a given major-axis FWHM (pixels).
+
+        Examples
+        --------
+        >>> PSFModel.from_moffat(3.2, method="fallback", flags=("psf_fallback",)).flags
+        ('psf_fallback',)
+        """
+        fwhm = float(fwhm)
+        if not (np.isfinite(fwhm) and fwhm > 0):
+            msg = f"PSF 'fwhm' must be finite and positive, got {fwhm}"
+            raise ValueError(msg)
+        return cls(method=method, fwhm_major_pix=fwhm, beta=float(beta),
+                   ellipticity=float(ellipticity), angle_deg=float(angle_deg), n_stars=n_stars,
+                   flags=tuple(flags), scores=dict(scores or {}))
+
+    def to_dict(self):
+        """Summary as a plain dict (no image)."""
+        return {"method": self.method, "fwhm_pix": float(self.fwhm_pix),
+                "fwhm_major_pix": self.fwhm_major_pix, "beta": self.beta,
+                "ellipticity": self.ellipticity, "angle_deg": self.angle_deg,
+                "n_stars": self.n_stars, "flags": ",".join(self.flags),
+                **{f"score_{k}": v for k, v in self.scores.items()}}
+
+
+def _moffat_from_stamps(stamps, fwhm_guess):
+    shape = fit_moffat_shape(stamps, fwhm_guess=fwhm_guess)
+    return PSFModel.from_moffat(shape["fwhm"], beta=shape["beta"],
+                                ellipticity=shape["ellipticity"],
+                                angle_deg=np.rad2deg(shape["angle"]), n_stars=shape["n_used"])
+
+
+def _moffat_fit_to_image(image, oversampling):
+    """Moffat shape of an oversampled ePSF image (for reporting its FWHM and ellipticity)."""
+    n = image.shape[0]
+    c = (np.arange(n) - (n - 1) / 2.0) / oversampling
+    xx, yy = np.meshgrid(c, c)
+
+    def resid(p):
+        amp, fwhm, beta, q1, q2 = p
+        e = min(float(np.hypot(q1, q2)), 0.9)
+        ang = 0.5 * np.arctan2(q2, q1)
+        return amp * moffat_surface(xx, yy, fwhm=fwhm, beta=beta, ellipticity=e,
+                                    angle=ang).ravel() - image.ravel()
+
+    res = least_squares(resid, [1.0, 3.0, 3.0, 0.0, 0.0],
+                        bounds=([0, 0.5, 1.2, -0.6, -0.6], [10, n, 20, 0.6, 0.6]))
+    _, fwhm, beta, q1, q2 = res.x
+    return float(fwhm), float(beta), float(np.hypot(q1, q2)), float(0.5 * np.arctan2(q2, q1))
+
+
+def _epsf_from_stamps(stamps, fwhm_guess):
+    out = build_epsf_image(stamps)
+    fwhm, beta, e, ang = _moffat_fit_to_image(out["image"], out["oversampling"])
+    return PSFModel(method="epsf", fwhm_major_pix=fwhm, beta=beta, ellipticity=e,
+                    angle_deg=float(np.rad2deg(ang)), n_stars=out["n_used"], image=out["image"],
+                    oversampling=out["oversampling"])
+
+
+#: PSF builders by name: each takes (stamps, fwhm_guess) and returns a PSFModel.
+PSF_BUILDERS = {"moffat": _moffat_from_stamps, "epsf": _epsf_from_stamps}
+
+
+def _score(psf, stamps):
+    chi2 = dof = 0.0
+    for st in stamps:
+        c, d, *_ = fit_profile_to_stamp(st, psf.render)
+        chi2 += c
+        dof += d
+    return chi2 / dof
+
+
+def _fallback(frame_name, fwhm_pix, reason, n_stars):
+    if fwhm_pix is None:
+        msg = (f"frame {frame_name!r}: cannot measure the PSF ({reason}) and no fallback FWHM "
+               "was given")
+        raise ValueError(msg)
+    warnings.warn(f"frame {frame_name!r}: {reason}; using an analytic Moffat PSF of FWHM "
+                  f"{fwhm_pix:.2f} pixels", PoorResultWarning, stacklevel=3)
+    return PSFModel.from_moffat(fwhm_pix, beta=3.0, method="fallback", n_stars=n_stars,
+                                flags=("psf_fallback",))
+
+
+def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "epsf"),
+                fallback_fwhm=None, pixel_scale=None, fwhm_guess=3.0, exclude_xy=None,
+                exclude_radius=15.0):
+    """Measure a frame's PSF from its field stars and keep the model that fits them best.
+
+    Parameters
+    ----------
+    frame : `~photpipe.frames.CalibratedFrame`
+        Calibrated frame (electrons, sky not subtracted).
+    star_xy : array-like, shape (n, 2)
+        Star positions (x, y) in pixels, e.g. from the photometry stage's star table.
+    cutout : int, optional
+        Side of the star stamps in pixels (odd).
+    min_stars : int, optional
+        Fewer usable stars than this gives the fallback PSF.
+    methods : sequence of str, optional
+        Keys of `PSF_BUILDERS` to try.
+    fallback_fwhm : `~astropy.units.Quantity` ['angle'] or [pix], or float, optional
+        FWHM for the analytic fallback (a float is in pixels). Without it, too few stars raise.
+    pixel_scale : `~astropy.units.Quantity` [arcsec / pix], optional
+        Needed only when ``fallback_fwhm`` is an angle.
+    fwhm_guess : float, optional
+        Starting FWHM of the star fits, pixels.
+    exclude_xy : tuple of float, optional
+        A position (the comet) whose surroundings give no PSF stars.
+    exclude_radius : float, optional
+        Radius around ``exclude_xy`` in pixels.
+
+    Returns
+    -------
+    psf : PSFModel
+
+    Raises
+    ------
+    TypeError
+        If ``frame`` is not a CalibratedFrame.
+    ValueError
+        If there are too few stars and no fallback FWHM, or a method name is unknown.
+
+    Notes
+    -----
+    The Moffat (1969) shape is the median of star-by-star fits; the ePSF is that of Anderson &
+    King (2000) built by photutils. Both are scored by refitting every star with the shape held
+    fixed (flux, position and sky free); the ePSF wins only when its χ²/dof is below
+    ``EPSF_MARGIN`` times the Moffat's.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from astropy import units as u
+    >>> from astropy.time import Time
+    >>> from photpipe.frames.types import CalibratedFrame, FrameInfo
+    >>> info = FrameInfo("demo.fits", "science", Time("2026-01-01"), 60 * u.s, "R",
+    ...                  1 * u.electron / u.adu, 5 * u.electron, 60000 * u.adu, (1, 1), (64, 64))
+    >>> data = np.full((64, 64), 100.0, dtype=np.float32)
+    >>> frame = CalibratedFrame(info, data, data.copy(), np.zeros((64, 64), np.uint16))
+    >>> import warnings
+    >>> with warnings.catch_warnings():
+    ...     warnings.simplefilter("ignore")
+    ...     psf = measure_psf(frame, [], fallback_fwhm=3.0)
+    >>> psf.method, psf.flags
+    ('fallback', ('psf_fallback',))
+    """
+    if not isinstance(frame, CalibratedFrame):
+        msg = f"'frame' must be a CalibratedFrame, got {type(frame).__name__}"
+        raise TypeError(msg)
+    for name in methods:
+        if name not in PSF_BUILDERS:
+            msg = f"unknown PSF method {name!r}; known: {sorted(PSF_BUILDERS)}"
+            raise ValueError(msg)
+    fb_pix = None
+    if fallback_fwhm is not None:
+        if isinstance(fallback_fwhm, u.Quantity) and fallback_fwhm.unit.physical_type == "angle":
+            if pixel_scale is None:
+                msg = "'pixel_scale' is needed to turn an angular 'fallback_fwhm' into pixels"
+                raise ValueError(msg)
+            scale = as_positive_value(pixel_scale, u.arcsec / u.pix, "pixel_scale")
+            fb_pix = as_positive_value(fallback_fwhm, u.arcsec, "fallback_fwhm") / scale
+        else:
+            fb_pix = as_positive_value(fallback_fwhm, u.pix, "fallback_fwhm",
+                                       allow_dimensionless=True)
+    if cutout % 2 != 1 or cutout < 9:
+        msg = f"'cutout' must be an odd number of pixels >= 9, got {cutout}"
+        raise ValueError(msg)
+    stamps, dropped = cut_star_stamps(frame, star_xy, size=cutout, exclude_xy=exclude_xy,
+                                      exclude_radius=exclude_radius)
+    if len(stamps) < min_stars:
+        reason = (f"only {len(stamps)} usable PSF stars (need {min_stars}; dropped: "
+                  + ", ".join(f"{k} {v}" for k, v in dropped.items() if v) + ")")
+        if fb_pix is None and stamps:
+            # a Moffat from the few stars there are is still better than nothing: flagged
+            psf = _moffat_from_stamps(stamps, fwhm_guess)
+            fb_pix = psf.fwhm_major_pix
+        return _fallback(frame.name, fb_pix, reason, len(stamps))
+    candidates = {}
+    scores = {}
+    for name in methods:
+        try:
+            candidates[name] = PSF_BUILDERS[name](stamps, fwhm_guess)
+        except (ValueError, RuntimeError, np.linalg.LinAlgError):
+            continue
+        scores[name] = _score(candidates[name], stamps)
+    if not candidates:
+        return _fallback(frame.name, fb_pix, "no PSF model could be fitted to the stars",
+                         len(stamps))
+    best = min(scores, key=lambda k: scores[k] * (1.0 if k == "epsf" else EPSF_MARGIN))
+    chosen = candidates[best]
+    return PSFModel(method=chosen.method, fwhm_major_pix=chosen.fwhm_major_pix,
+                    beta=chosen.beta, ellipticity=chosen.ellipticity, angle_deg=chosen.angle_deg,
+                    n_stars=chosen.n_stars, flags=chosen.flags, scores=scores,
+                    image=chosen.image, oversampling=chosen.oversampling)
