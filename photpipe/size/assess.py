@@ -98,7 +98,7 @@ def assess_nucleus(absolute_magnitude, *, band, m_sun=None, albedo=0.04, albedo_
     >>> h = AbsoluteMagnitude(H=15.0, H_err=0.05, n_points=40, method="flux-mean")
     >>> res = assess_nucleus(h, band="V", albedo_range=(0.02, 0.06), n_samples=2000, rng=3)
     >>> print(f"{res.radius_at_albedo_km:.3f} km")
-    3.323 km
+    3.326 km
     """
     if not isinstance(absolute_magnitude, AbsoluteMagnitude):
         msg = ("'absolute_magnitude' must be an AbsoluteMagnitude from a lightcurve "

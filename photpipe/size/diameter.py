@@ -34,12 +34,16 @@ def size_constant(*, band="V", m_sun=None):
 
     .. math:: C = 2\,\mathrm{AU}\,10^{m_\odot/5},
 
-    which with ``m_sun(V) = -26.762`` gives the 1329 km of Fowler & Chillemi (1992).
+    which with ``m_sun(V) = -26.762`` (the value Pravec & Harris adopt) gives the 1329 km of
+    Fowler & Chillemi (1992). The project's solar table (Willmer 2018, V = -26.76) gives
+    1330.3 km, 0.1% more.
 
     Examples
     --------
-    >>> print(f"{size_constant(band='V').to_value('km'):.1f}")
+    >>> print(f"{size_constant(m_sun=-26.762).to_value('km'):.1f}")
     1329.1
+    >>> print(f"{size_constant(band='R').to_value('km'):.1f}")
+    1111.6
     """
     m_sun, _ = resolve_solar_magnitude(band, m_sun)
     return 2.0 * _AU_KM * 10.0 ** (0.2 * m_sun) * u.km
@@ -95,6 +99,6 @@ def radius_from_H(H, albedo, *, band="V", m_sun=None):
     Examples
     --------
     >>> print(f"{radius_from_H(15.0, 0.04).to_value('km'):.3f}")
-    3.323
+    3.326
     """
     return 0.5 * diameter_from_H(H, albedo, band=band, m_sun=m_sun)

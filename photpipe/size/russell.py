@@ -57,7 +57,7 @@ def radius_russell(mag, r_h, delta, phase, *, albedo, band="V", m_sun=None,
     >>> from astropy import units as u
     >>> r = radius_russell(15.0, 1 * u.au, 1 * u.au, 0 * u.deg, albedo=0.04)
     >>> print(f"{r.to_value('km'):.3f}")
-    3.323
+    3.326
     """
     m = np.asarray(magnitude(mag, "mag"))
     rh = as_positive_value(r_h, u.au, "r_h")
