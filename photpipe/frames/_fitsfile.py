@@ -77,6 +77,11 @@ def open_image(path, *, memmap=False):
     try:
         index = _image_index(hdul)
         if index is None:
+            size = os.path.getsize(path)
+            if size % 2880:
+                raise FrameError(path, f"file is truncated: {size} bytes is not a whole number "
+                                       f"of 2880-byte FITS blocks, and no complete image HDU "
+                                       f"was found")
             raise FrameError(path, "no HDU holds a 2-D image with data")
         ndim = hdul[index].header["NAXIS"]
         if ndim != 2:
