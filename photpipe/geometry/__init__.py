@@ -16,6 +16,8 @@ from photpipe.geometry.orbit import *  # noqa: F403
 from photpipe.geometry.orbit import __all__ as _orbit_all
 from photpipe.geometry.solar_system import *  # noqa: F403
 from photpipe.geometry.solar_system import __all__ as _solar_all
+from photpipe.geometry.table_source import *  # noqa: F403
+from photpipe.geometry.table_source import __all__ as _table_all
 
 __all__ = (_caution_all + _kepler_all + _observer_all + _observing_all + _orbit_all
-           + _solar_all)
+           + _solar_all + _table_all)
