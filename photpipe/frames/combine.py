@@ -98,7 +98,8 @@ def clipped_mean(stack, *, sigma=3.0, maxiters=5, noise_var=None):
     empty = hi == 0
     hi_safe = np.maximum(hi, 1)
     center = _median_of_range(s, lo, hi_safe)
-    dev = np.where(finite, np.abs(s - center[..., None]), np.inf)
+    with np.errstate(invalid="ignore"):  # inf - inf where a pixel has no finite value
+        dev = np.where(finite, np.abs(s - center[..., None]), np.inf)
     dev.sort(axis=-1)
     mad = _median_of_range(dev, lo, hi_safe)
     del dev
@@ -107,8 +108,9 @@ def clipped_mean(stack, *, sigma=3.0, maxiters=5, noise_var=None):
         scale = robust
         if noise_var is not None:
             scale = np.maximum(scale, np.sqrt(np.maximum(noise_var(center), 0.0)))
-        lower = (center - sigma * scale)[..., None]
-        upper = (center + sigma * scale)[..., None]
+        with np.errstate(invalid="ignore"):
+            lower = (center - sigma * scale)[..., None]
+            upper = (center + sigma * scale)[..., None]
         new_lo = np.count_nonzero(s < lower, axis=-1)
         new_hi = np.minimum(np.count_nonzero(s <= upper, axis=-1), nfin)
         bad = new_hi <= new_lo
