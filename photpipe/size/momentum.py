@@ -106,10 +106,12 @@ class BoundComparison:
         rb = self.radius_bound.to_value(u.km)
         rho_min = self.density_min.to_value(_G_CM3)
         rho_hi = self.density_hi.to_value(_G_CM3)
+        rho_lo = self.density_lo.to_value(_G_CM3)
         if self.consistent:
+            part = ("all of" if rho_min <= rho_lo else f"the part above {rho_min:.3g} g/cm^3 of")
             return (f"The photometric radius {r:.3g} km (albedo {self.albedo:g}) meets the "
-                    f"momentum bound: it needs a bulk density of at least {rho_min:.3g} g/cm^3, "
-                    f"within the assumed range.")
+                    f"momentum bound for any bulk density of {rho_min:.3g} g/cm^3 or more: "
+                    f"{part} the assumed {rho_lo:g}-{rho_hi:g} g/cm^3 range.")
         return (f"The photometric radius {r:.3g} km (albedo {self.albedo:g}) is below the "
                 f"momentum-bound radius {rb:.3g} km at {rho_hi:.3g} g/cm^3: either the density "
                 f"is at least {rho_min:.3g} g/cm^3 or the albedo is at most "
