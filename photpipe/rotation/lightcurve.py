@@ -1,0 +1,262 @@
+"""The reduced lightcurve: nucleus magnitudes at unit distances and 0° phase, emission epochs."""
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+from astropy import constants as const
+from astropy import units as u
+from astropy.table import QTable, Table
+from astropy.time import Time
+
+from photpipe._quantity import as_value
+from photpipe.rotation.errors import LightcurveError
+from photpipe.rotation.phase_laws import PHASE_LAWS
+
+__all__ = ["ReducedLightcurve", "reduce_lightcurve", "SOURCES"]
+
+#: Values of the ``source`` column and whether they are free of coma light.
+SOURCES = {"nucleus_fit": True, "small_aperture": False}
+
+_AU_LIGHT_S = (const.au / const.c).to_value(u.s)
+
+
+@dataclass(frozen=True)
+class ReducedLightcurve:
+    """Nucleus magnitudes reduced to r_h = Δ = 1 AU and 0° phase, at light-time-corrected epochs.
+
+    Attributes
+    ----------
+    frame : ndarray of str
+        Frame names.
+    epoch_mjd : ndarray
+        Emission epochs, MJD (UTC): mid-exposure minus the light time.
+    mag, mag_err : ndarray
+        Reduced magnitude ``m(1, 1, 0)`` and its 1-σ error.
+    observed_mag : ndarray
+        The magnitude as measured.
+    phase_deg, r_h_au, delta_au : ndarray
+        Geometry of each point.
+    site, filter, source : ndarray of str
+        Observing site, filter and origin (``"nucleus_fit"`` or ``"small_aperture"``).
+    coma_contaminated : ndarray of bool
+        True for small-aperture magnitudes, which hold coma light.
+    flags : ndarray of str
+        Comma-separated flags per point.
+    phase_law : str
+        Phase law used (a key of `~photpipe.rotation.phase_laws.PHASE_LAWS`).
+    phase_parameters : dict
+        Its parameters (``coefficient_mag_per_deg`` or ``slope_g``).
+    """
+
+    frame: np.ndarray
+    epoch_mjd: np.ndarray
+    mag: np.ndarray
+    mag_err: np.ndarray
+    observed_mag: np.ndarray
+    phase_deg: np.ndarray
+    r_h_au: np.ndarray
+    delta_au: np.ndarray
+    site: np.ndarray
+    filter: np.ndarray
+    source: np.ndarray
+    coma_contaminated: np.ndarray
+    flags: np.ndarray
+    phase_law: str = "linear"
+    phase_parameters: dict = field(default_factory=dict)
+
+    def __post_init__(self):
+        n = len(self.epoch_mjd)
+        for name in ("frame", "mag", "mag_err", "observed_mag", "phase_deg", "r_h_au",
+                     "delta_au", "site", "filter", "source", "coma_contaminated", "flags"):
+            if len(getattr(self, name)) != n:
+                msg = f"ReducedLightcurve: {name!r} has {len(getattr(self, name))} rows, not {n}"
+                raise ValueError(msg)
+
+    @property
+    def n_points(self):
+        """Number of points."""
+        return len(self.epoch_mjd)
+
+    @property
+    def time(self):
+        """Emission epochs as `~astropy.time.Time` (UTC)."""
+        return Time(self.epoch_mjd, format="mjd", scale="utc")
+
+    @property
+    def coma_free(self):
+        """True when no point holds coma light."""
+        return not bool(np.any(self.coma_contaminated))
+
+    def select(self, mask):
+        """Return the lightcurve restricted to the points where ``mask`` is true."""
+        mask = np.asarray(mask)
+        arrays = {name: getattr(self, name)[mask] for name in (
+            "frame", "epoch_mjd", "mag", "mag_err", "observed_mag", "phase_deg", "r_h_au",
+            "delta_au", "site", "filter", "source", "coma_contaminated", "flags")}
+        return replace(self, **arrays)
+
+    def to_table(self):
+        """Return the lightcurve as a QTable with units."""
+        return QTable({
+            "frame": self.frame, "epoch_mjd": self.epoch_mjd * u.day,
+            "reduced_mag": self.mag * u.mag, "reduced_mag_err": self.mag_err * u.mag,
+            "observed_mag": self.observed_mag * u.mag, "phase": self.phase_deg * u.deg,
+            "r_h": self.r_h_au * u.au, "delta": self.delta_au * u.au, "site": self.site,
+            "filter": self.filter, "source": self.source,
+            "coma_contaminated": self.coma_contaminated, "flags": self.flags,
+        }, meta={"phase_law": self.phase_law, **self.phase_parameters})
+
+
+def _get(data, name, unit, *, required=True):
+    """Return column ``name`` as floats in ``unit`` (plain numbers are taken as ``unit``)."""
+    if name not in data.keys():
+        if not required:
+            return None
+        msg = f"the lightcurve has no {name!r} column (columns: {sorted(data.keys())})"
+        raise LightcurveError(msg)
+    col = data[name]
+    if isinstance(col, Time):
+        return np.asarray(col.utc.mjd, dtype=float)
+    if not isinstance(col, u.Quantity) and getattr(col, "unit", None) is not None:
+        col = u.Quantity(col)
+    try:
+        return np.atleast_1d(as_value(col, unit, name, allow_dimensionless=True)).astype(float)
+    except (TypeError, ValueError) as exc:
+        msg = f"lightcurve column {name!r}: {exc}"
+        raise LightcurveError(msg) from exc
+
+
+def _strings(data, name, n, default):
+    if name not in data.keys():
+        return np.full(n, default, dtype=object)
+    col = np.asarray(data[name])
+    if np.ma.isMaskedArray(data[name]):
+        col = np.ma.filled(data[name], default)
+    return np.array([default if v is None else str(v) for v in col], dtype=object)
+
+
+def _name_rows(frames, bad):
+    names = [str(f) for f in frames[bad][:5]]
+    more = f" and {bad.sum() - 5} more" if bad.sum() > 5 else ""
+    return ", ".join(names) + more
+
+
+def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
+                      phase_coefficient=0.035 * u.mag / u.deg, H_G_slope=0.15):  # noqa: N803
+    """Reduce a campaign lightcurve to unit distances and 0° phase at emission epochs.
+
+    Parameters
+    ----------
+    table_or_arrays : `~astropy.table.Table`, `~astropy.table.QTable` or mapping of arrays
+        Columns ``frame, mjd_utc_mid, nucleus_mag, nucleus_mag_err, r_h_au, delta_au,
+        phase_deg`` and, optionally, ``light_time_s, site, filter, source, flags`` (the
+        ``lightcurve.ecsv`` contract). Plain columns are taken in the units their names give;
+        Quantity columns are converted.
+    phase_law : {"linear", "hg"}, optional
+        Linear law with ``phase_coefficient``, or the IAU H,G system with ``H_G_slope``.
+    phase_coefficient : `~astropy.units.Quantity` ['mag/angle'], optional
+        Linear phase coefficient; 0.035 mag/deg is the mean for nuclei (Lamy et al. 2004,
+        Comets II; from memory).
+    H_G_slope : float, optional
+        Slope parameter G of the H,G system (0.15 when unknown; Bowell et al. 1989).
+
+    Returns
+    -------
+    reduced : ReducedLightcurve
+
+    Raises
+    ------
+    LightcurveError
+        If a column is missing, a value is not finite, an error is not positive, a distance is
+        not positive, or a ``source`` is unknown; the message names the frames.
+    TypeError
+        If ``table_or_arrays`` is neither a table nor a mapping.
+
+    Notes
+    -----
+    ``m(1, 1, 0) = m - 5 log10(r_h Δ) - Φ(α)``, with ``Φ(α) = β α`` (linear) or
+    ``Φ(α) = -2.5 log10[(1 - G) Φ1 + G Φ2]`` (Bowell et al. 1989, Asteroids II, eq. A1).
+    The epoch is the emission time ``t - Δ/c``: ``light_time_s`` when given, otherwise from Δ.
+    Small-aperture magnitudes (``source = "small_aperture"``) hold coma light; they are kept but
+    flagged ``coma_contaminated``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> data = {"frame": ["a", "b"], "mjd_utc_mid": [61000.0, 61000.1],
+    ...         "nucleus_mag": [20.0, 20.2], "nucleus_mag_err": [0.05, 0.05],
+    ...         "r_h_au": [2.0, 2.0], "delta_au": [1.0, 1.0], "phase_deg": [10.0, 10.0]}
+    >>> lc = reduce_lightcurve(data)
+    >>> np.round(lc.mag, 4)
+    array([18.1449, 18.3449])
+    """
+    if not isinstance(table_or_arrays, (Table, Mapping)):
+        msg = (f"reduce_lightcurve takes a Table, QTable or mapping of arrays, got "
+               f"{type(table_or_arrays).__name__}")
+        raise TypeError(msg)
+    if phase_law not in PHASE_LAWS:
+        msg = f"unknown phase_law {phase_law!r}; choose one of {sorted(PHASE_LAWS)}"
+        raise ValueError(msg)
+    beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
+    data = table_or_arrays
+    mjd = _get(data, "mjd_utc_mid", u.day)
+    n = mjd.size
+    if n == 0:
+        msg = "the lightcurve has no rows: there is nothing to reduce"
+        raise LightcurveError(msg)
+    frames = _strings(data, "frame", n, "?")
+    mag = _get(data, "nucleus_mag", u.mag)
+    err = _get(data, "nucleus_mag_err", u.mag)
+    r_h = _get(data, "r_h_au", u.au)
+    delta = _get(data, "delta_au", u.au)
+    alpha = _get(data, "phase_deg", u.deg)
+    light_time = _get(data, "light_time_s", u.s, required=False)
+
+    checks = [
+        (~np.isfinite(mjd), "have no finite epoch (mjd_utc_mid)"),
+        (~np.isfinite(mag), "have no finite magnitude (nucleus_mag)"),
+        (~np.isfinite(err), "have a NaN or infinite magnitude error (nucleus_mag_err)"),
+        (np.isfinite(err) & (err <= 0), "have a zero or negative magnitude error "
+                                        "(nucleus_mag_err); errors must be positive"),
+        (~(np.isfinite(r_h) & (r_h > 0)) | ~(np.isfinite(delta) & (delta > 0)),
+         "have a missing or non-positive r_h_au or delta_au"),
+        (~(np.isfinite(alpha) & (alpha >= 0) & (alpha < 180)), "have a phase angle outside 0-180°"),
+    ]
+    for bad, what in checks:
+        if np.any(bad):
+            msg = (f"{bad.sum()} of {n} lightcurve rows {what}: {_name_rows(frames, bad)}. "
+                   f"Remove or repair them; a period cannot be weighed on such points")
+            raise LightcurveError(msg)
+
+    if light_time is None:
+        light_time = delta * _AU_LIGHT_S
+    else:
+        light_time = np.where(np.isfinite(light_time), light_time, delta * _AU_LIGHT_S)
+    epoch = mjd - light_time / 86400.0
+
+    source = _strings(data, "source", n, "nucleus_fit")
+    unknown = ~np.isin(source, list(SOURCES))
+    if np.any(unknown):
+        msg = (f"unknown 'source' {sorted(set(source[unknown]))} in rows "
+               f"{_name_rows(frames, unknown)}; expected one of {sorted(SOURCES)}")
+        raise LightcurveError(msg)
+    contaminated = np.array([not SOURCES[s] for s in source], dtype=bool)
+    flags = _strings(data, "flags", n, "")
+    flags = np.array([",".join([f for f in (fl, "coma_contaminated" if c else "") if f])
+                      for fl, c in zip(flags, contaminated)], dtype=object)
+
+    params = ({"coefficient_mag_per_deg": beta} if phase_law == "linear"
+              else {"slope_g": float(H_G_slope)})
+    if phase_law == "hg" and np.any(alpha > 120):
+        far = alpha > 120
+        flags = np.array([",".join([f for f in (fl, "phase_beyond_hg") if f]) if b else fl
+                          for fl, b in zip(flags, far)], dtype=object)
+    excess = PHASE_LAWS[phase_law](alpha, **params)
+    reduced = mag - 5 * np.log10(r_h * delta) - excess
+    return ReducedLightcurve(
+        frame=frames, epoch_mjd=epoch, mag=reduced, mag_err=err, observed_mag=mag,
+        phase_deg=alpha, r_h_au=r_h, delta_au=delta,
+        site=_strings(data, "site", n, ""), filter=_strings(data, "filter", n, ""),
+        source=source, coma_contaminated=contaminated, flags=flags,
+        phase_law=phase_law, phase_parameters=params)
