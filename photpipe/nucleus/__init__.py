@@ -1,3 +1,28 @@
-"""photpipe.nucleus."""
+"""photpipe.nucleus: the nucleus separated from the coma by PSF-convolved fitting.
 
-__all__ = []
+The PSF is measured from the field stars (`measure_psf`); the model (`nucleus_coma_image`) is the
+PSF convolved with a point source plus a power-law coma, plus sky; `fit_nucleus` fits it to a
+frame and `fisher_bound` gives the Cramér-Rao bound of its parameters.
+"""
+
+from .coma import *  # noqa: F403
+from .coma import __all__ as _coma_all
+from .fisher import *  # noqa: F403
+from .fisher import __all__ as _fisher_all
+from .fit import *  # noqa: F403
+from .fit import __all__ as _fit_all
+from .models import *  # noqa: F403
+from .models import __all__ as _models_all
+from .moffat import *  # noqa: F403
+from .moffat import __all__ as _moffat_all
+from .plot import *  # noqa: F403
+from .plot import __all__ as _plot_all
+from .profile import *  # noqa: F403
+from .profile import __all__ as _profile_all
+from .psf import *  # noqa: F403
+from .psf import __all__ as _psf_all
+from .table import *  # noqa: F403
+from .table import __all__ as _table_all
+
+__all__ = (_coma_all + _fisher_all + _fit_all + _models_all + _moffat_all + _plot_all
+           + _profile_all + _psf_all + _table_all)

@@ -27,9 +27,14 @@ class ComponentRenderer:
     The coma is integrated over the pixels of a grid padded by the kernel half-width on every
     side, so that coma light from just outside the cutout is blurred into it, and convolved by
     FFT with the PSF kernel (computed once).
+
+    The central ``2 * core + 1`` pixels square of the coma is done apart, on a grid oversampled
+    ``oversample`` times: a coarse convolution of pixel integrals ignores how the cusp's light is
+    placed inside each pixel, an error of ~2 % in the central pixels for a 3-pixel FWHM that
+    falls as 1/oversample² when the core is refined.
     """
 
-    def __init__(self, shape, psf, *, order=0):
+    def __init__(self, shape, psf, *, order=0, core=3, oversample=3):
         self.shape = tuple(int(s) for s in shape)
         self.psf = psf
         self.order = int(order)
@@ -43,6 +48,15 @@ class ComponentRenderer:
         self.kernel_fft = fft.rfft2(kernel, s=self.fshape)
         self.names = component_names(self.order)
         self.n_evaluations = 0
+        self.core = int(core)
+        self.oversample = int(oversample)
+        if self.core > 0 and self.oversample > 1:
+            n = self.oversample
+            side = (2 * self.core + 1 + 2 * h) * n
+            self.fine_shape = (side, side)
+            self.fine_fshape = (fft.next_fast_len(side + (2 * h + 1) * n - 1, real=True),) * 2
+            self.fine_kernel_fft = fft.rfft2(psf.kernel(2 * h + 1, oversample=n),
+                                             s=self.fine_fshape)
 
     def convolve(self, padded_image):
         """Blur a padded, pixel-integrated scene; returns the (ny, nx) cutout."""
@@ -51,13 +65,47 @@ class ComponentRenderer:
         f = fft.irfft2(fft.rfft2(padded_image, s=self.fshape) * self.kernel_fft, s=self.fshape)
         return f[2 * h:2 * h + ny, 2 * h:2 * h + nx]
 
+    def coma(self, x0, y0, gamma):
+        """The blurred unit coma ρ^-γ on the cutout, the core refined on a fine grid."""
+        h = self.h
+        padded = power_law_coma_image(self.padded, x0 + h, y0 + h, 1.0, gamma)
+        if self.core <= 0 or self.oversample <= 1:
+            return self.convolve(padded)
+        c, n = self.core, self.oversample
+        ny, nx = self.shape
+        # core block in padded pixels, centred on the pixel nearest the nucleus
+        px, py = int(np.round(x0)) + h - c, int(np.round(y0)) + h - c
+        b = 2 * c + 1
+        if px < 0 or py < 0 or px + b > self.padded[1] or py + b > self.padded[0]:
+            return self.convolve(padded)
+        padded[py:py + b, px:px + b] = 0.0
+        out = self.convolve(padded)
+        # fine grid over the core plus h on each side; fine pixel f centred at (f + 0.5)/n - 0.5
+        fx = (x0 + h - (px - h) + 0.5) * n - 0.5
+        fy = (y0 + h - (py - h) + 0.5) * n - 0.5
+        side = self.fine_shape[0]
+        block = np.zeros(self.fine_shape)
+        sl = slice(h * n, (h + b) * n)
+        fine = power_law_coma_image(self.fine_shape, fx, fy, n ** (gamma - 2.0), gamma)
+        block[sl, sl] = fine[sl, sl]
+        hn = ((2 * h + 1) * n - 1) // 2  # 'same' offset of the odd fine kernel
+        f = fft.irfft2(fft.rfft2(block, s=self.fine_fshape) * self.fine_kernel_fft,
+                       s=self.fine_fshape)[hn:hn + side, hn:hn + side]
+        coarse = f.reshape(side // n, n, side // n, n).sum(axis=(1, 3))
+        # coarse covers padded pixels [px - h, px + b + h): cutout pixels shifted by -h
+        cx0, cy0 = px - 2 * h, py - 2 * h
+        xa, xb = max(cx0, 0), min(cx0 + coarse.shape[1], nx)
+        ya, yb = max(cy0, 0), min(cy0 + coarse.shape[0], ny)
+        out[ya:yb, xa:xb] += coarse[ya - cy0:yb - cy0, xa - cx0:xb - cx0]
+        return out
+
     def components(self, x0, y0, gamma):
         """Unit-amplitude component images, shape (n_components, ny, nx)."""
         self.n_evaluations += 1
         h = self.h
         out = np.empty((len(self.names),) + self.shape)
         out[0] = self.psf.render(self.shape, x0, y0)
-        out[1] = self.convolve(power_law_coma_image(self.padded, x0 + h, y0 + h, 1.0, gamma))
+        out[1] = self.coma(x0, y0, gamma)
         i = 2
         for m in range(1, self.order + 1):
             for phase in ("cos", "sin"):
