@@ -65,7 +65,7 @@ def _window_name(fw, baseline_d, multi_site):
     return f"{kind} 1/({1 / fw:.2f} d)"
 
 
-def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.15, max_peaks=6, oversample=10):
+def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.1, max_peaks=6, oversample=10):
     """Return the strong peaks of the spectral window, named.
 
     Parameters
@@ -90,8 +90,10 @@ def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.15, max_peaks=6, overs
 
     Notes
     -----
-    The central lobe (``f < 1.5/T``) is skipped. Peaks within ``max(0.02, 1/T)`` of an integer
-    are ``k/day`` (common practice: nightly sampling from one longitude).
+    The central lobe (``f < 1.5/T``) is skipped; the peak near 1/day is always kept (if its
+    power exceeds 0.02), as it is the alias every single-site campaign has. Peaks within
+    ``max(0.02, 1/T)`` of an integer are ``k/day`` (common practice: nightly sampling from one
+    longitude).
 
     Examples
     --------
@@ -106,9 +108,14 @@ def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.15, max_peaks=6, overs
     nf = int(np.ceil(f_max / df)) + 1
     freq, power = spectral_window(t, 0.0, df, nf)
     start = int(np.ceil(1.5 / baseline / df))
-    idx, _ = find_peaks(power[start:], height=min_power, distance=oversample)
+    idx, _ = find_peaks(power[start:], height=min(min_power, 0.02), distance=oversample)
     idx = idx + start
-    idx = idx[np.argsort(power[idx])[::-1]][:max_peaks]
+    # keep the strong peaks, and the daily one however weak: it is the alias observers expect
+    daily = idx[np.abs(freq[idx] - 1.0) < max(0.02, 1.0 / baseline)]
+    keep = idx[power[idx] >= min_power]
+    if daily.size:
+        keep = np.union1d(keep, daily[np.argmax(power[daily])])
+    idx = keep[np.argsort(power[keep])[::-1]][:max_peaks]
     multi = sites is not None and len(set(np.asarray(sites, dtype=str))) > 1
     names = [_window_name(freq[i], baseline, multi) for i in idx]
     return QTable({"name": np.array(names, dtype=str),

@@ -1,0 +1,611 @@
+"""The rotation-period search: three periodograms side by side, one adopted period with errors.
+
+Steps: choose the points, check what the sampling can constrain, compute the periodograms of
+every method on one frequency grid, decide between single- and double-peaked interpretations
+with an F test on the odd harmonics, fit the adopted Fourier series with its frequency, estimate
+errors from the covariance and a bootstrap, weigh the named aliases by Δχ², and turn the
+amplitude into a lower bound on the axial ratio.
+"""
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+from astropy import units as u
+from astropy.table import QTable
+from scipy import stats
+
+from photpipe._quantity import as_positive_value, as_value
+from photpipe.rotation.aliases import describe_relation, periodogram_peaks, window_peaks
+from photpipe.rotation.errors import LightcurveError, RotationWarning
+from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series
+from photpipe.rotation.fourier_model import fourier_series, model_extrema
+from photpipe.rotation.grid import frequency_grid
+from photpipe.rotation.lightcurve import ReducedLightcurve
+from photpipe.rotation.methods import METHODS
+from photpipe.rotation.periodogram import fap_from_power
+from photpipe.rotation.shape import (
+    amplitude_at_zero_phase,
+    minimum_axial_ratio,
+    undilute_amplitude,
+)
+
+__all__ = ["RotationResult", "search_rotation", "count_nights"]
+
+_NIGHT_GAP_D = 0.3
+
+
+@dataclass(frozen=True)
+class RotationResult:
+    """The outcome of a rotation-period search.
+
+    Attributes
+    ----------
+    period, period_err : `~astropy.units.Quantity` ['time']
+        Adopted rotation period and its 1-σ error (the larger of the covariance and bootstrap
+        errors).
+    period_err_covariance, period_err_bootstrap : `~astropy.units.Quantity` ['time']
+        The two error estimates (bootstrap is NaN when no resamples were drawn).
+    amplitude, amplitude_err : `~astropy.units.Quantity` ['mag']
+        Peak-to-peak amplitude of the fitted lightcurve and its 1-σ error, as observed.
+    amplitude_nucleus : `~astropy.units.Quantity` ['mag']
+        The amplitude with the coma dilution removed (equal to ``amplitude`` when coma-free;
+        NaN when the lightcurve holds coma and no coma fraction was given).
+    amplitude_zero_phase : `~astropy.units.Quantity` ['mag']
+        The nucleus amplitude corrected to 0° phase (Zappalà et al. 1990).
+    axial_ratio_min : float
+        Lower bound on a/b from ``amplitude_zero_phase`` (a lower bound of it when the coma
+        dilution is unknown).
+    n_points : int
+        Points used.
+    method : str
+        Method whose fit gives the adopted period (``"fourier"``).
+    fit : `~photpipe.rotation.fit.FourierFit`
+        The adopted fit.
+    false_alarm_probability : float
+        Chance that noise alone gives as strong a fit anywhere on the grid.
+    periodograms : dict
+        Method name -> `~photpipe.rotation.periodogram.Periodogram`.
+    candidates : `~astropy.table.QTable`
+        The best peaks of every method and how each relates to the adopted period.
+    window : `~astropy.table.QTable`
+        Named peaks of the spectral window.
+    aliases : `~astropy.table.QTable`
+        The adopted period's aliases, each with the Δχ² by which it is rejected.
+    shape : dict
+        The single- versus double-peaked choice and its evidence.
+    methods_summary : dict
+        Method name -> best period and its relation to the adopted one.
+    flags : tuple of str
+        Short words for whatever needs care.
+    lightcurve : `~photpipe.rotation.lightcurve.ReducedLightcurve`
+        The points used.
+    magnitudes : ndarray
+        The magnitudes searched (per-filter offsets removed).
+    mean_phase_deg : float
+        Mean phase angle of the points.
+    """
+
+    period: u.Quantity
+    period_err: u.Quantity
+    period_err_covariance: u.Quantity
+    period_err_bootstrap: u.Quantity
+    amplitude: u.Quantity
+    amplitude_err: u.Quantity
+    amplitude_nucleus: u.Quantity
+    amplitude_zero_phase: u.Quantity
+    axial_ratio_min: float
+    n_points: int
+    method: str
+    fit: object
+    false_alarm_probability: float
+    periodograms: dict
+    candidates: QTable
+    window: QTable
+    aliases: QTable
+    shape: dict
+    methods_summary: dict
+    flags: tuple
+    lightcurve: ReducedLightcurve
+    magnitudes: np.ndarray
+    mean_phase_deg: float
+    settings: dict = field(default_factory=dict)
+
+    def to_dict(self):
+        """Return the result as a JSON-friendly dict (the ``rotation.json`` contract).
+
+        Returns
+        -------
+        result : dict
+            ``period_h, period_err_h, amplitude_mag, amplitude_err_mag, axial_ratio_min,
+            n_points, method`` and the supporting figures and evidence.
+        """
+        def _f(q, unit):
+            v = float(q.to_value(unit))
+            return v if np.isfinite(v) else None
+
+        return {
+            "period_h": _f(self.period, u.h),
+            "period_err_h": _f(self.period_err, u.h),
+            "period_err_covariance_h": _f(self.period_err_covariance, u.h),
+            "period_err_bootstrap_h": _f(self.period_err_bootstrap, u.h),
+            "frequency_per_day": float(self.fit.frequency),
+            "amplitude_mag": _f(self.amplitude, u.mag),
+            "amplitude_err_mag": _f(self.amplitude_err, u.mag),
+            "amplitude_nucleus_mag": _f(self.amplitude_nucleus, u.mag),
+            "amplitude_zero_phase_mag": _f(self.amplitude_zero_phase, u.mag),
+            "axial_ratio_min": (float(self.axial_ratio_min)
+                                if np.isfinite(self.axial_ratio_min) else None),
+            "n_points": int(self.n_points),
+            "method": self.method,
+            "fourier_order": int(self.fit.order),
+            "chi2_reduced": float(self.fit.chi2_reduced),
+            "false_alarm_probability": float(self.false_alarm_probability),
+            "mean_phase_deg": float(self.mean_phase_deg),
+            "coma_free": bool(self.lightcurve.coma_free),
+            "shape": self.shape,
+            "aliases": [{"name": str(r["name"]), "period_h": float(r["period"].to_value(u.h)),
+                         "delta_chi2": float(r["delta_chi2"])} for r in self.aliases],
+            "window_peaks": [{"name": str(r["name"]),
+                              "frequency_per_day": float(r["frequency"].to_value(1 / u.day)),
+                              "power": float(r["power"])} for r in self.window],
+            "methods": self.methods_summary,
+            "flags": list(self.flags),
+            "settings": self.settings,
+        }
+
+    def summary(self):
+        """Return a few readable lines describing the result."""
+        d = self.to_dict()
+        lines = [
+            f"rotation period  {d['period_h']:.4f} ± {d['period_err_h']:.4f} h "
+            f"({self.shape['choice']}), Fourier order {d['fourier_order']}, "
+            f"{d['n_points']} points",
+            f"amplitude        {d['amplitude_mag']:.3f} ± {d['amplitude_err_mag']:.3f} mag "
+            f"observed; a/b >= {d['axial_ratio_min']:.2f}" if d["axial_ratio_min"] else
+            f"amplitude        {d['amplitude_mag']:.3f} ± {d['amplitude_err_mag']:.3f} mag "
+            f"observed; a/b not bounded (coma dilution unknown)",
+            f"false-alarm prob {d['false_alarm_probability']:.2g}",
+        ]
+        for a in d["aliases"][:3]:
+            lines.append(f"alias {a['name']:<22s} {a['period_h']:.4f} h  rejected by "
+                         f"Δχ² = {a['delta_chi2']:.1f}")
+        for name, m in d["methods"].items():
+            lines.append(f"{name:<13s} best {m['period_h']:.4f} h ({m['relation']})")
+        if d["flags"]:
+            lines.append("flags: " + ", ".join(d["flags"]))
+        return "\n".join(lines)
+
+
+def count_nights(epoch_mjd):
+    """Return the number of separate nights (runs of points split by gaps over 0.3 d).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> count_nights(np.array([0.0, 0.1, 1.0, 1.1, 5.0]))
+    3
+    """
+    t = np.sort(np.asarray(epoch_mjd, dtype=float))
+    return int(1 + np.sum(np.diff(t) > _NIGHT_GAP_D))
+
+
+def _warn(flags, flag, message):
+    flags.append(flag)
+    warnings.warn(message, RotationWarning, stacklevel=3)
+
+
+def _choose_points(reduced, use_points, min_points, flags):
+    free = ~reduced.coma_contaminated
+    if use_points == "coma-free":
+        chosen = reduced.select(free)
+    elif use_points == "all":
+        chosen = reduced
+    elif use_points == "auto":
+        chosen = reduced.select(free) if free.sum() >= min_points else reduced
+    else:
+        msg = f"'use_points' must be 'auto', 'coma-free' or 'all', got {use_points!r}"
+        raise ValueError(msg)
+    if not chosen.coma_free:
+        flags.append("coma_contaminated")
+    return chosen
+
+
+def _check_errors(lc):
+    err = lc.mag_err
+    bad = ~np.isfinite(err) | (err <= 0) | ~np.isfinite(lc.mag) | ~np.isfinite(lc.epoch_mjd)
+    if np.any(bad):
+        names = ", ".join(str(f) for f in lc.frame[bad][:5])
+        msg = (f"{bad.sum()} of {lc.n_points} points have a NaN, infinite or non-positive "
+               f"magnitude error, magnitude or epoch ({names}): without honest errors neither "
+               f"the period's significance nor its uncertainty can be given")
+        raise LightcurveError(msg)
+
+
+def _remove_filter_offsets(lc, flags):
+    y = lc.mag.copy()
+    w = 1 / lc.mag_err**2
+    filters = sorted(set(lc.filter))
+    if len(filters) > 1:
+        for name in filters:
+            sel = lc.filter == name
+            y[sel] -= np.sum(w[sel] * y[sel]) / np.sum(w[sel])
+        y += np.sum(w * lc.mag) / np.sum(w)
+        flags.append("filter_offsets_removed")
+    return y
+
+
+def _odd_harmonics_p(t, y, dy, f_high, order_high, *, half_width):
+    """p-value that the curve at ``f_high/2`` differs from two identical halves."""
+    fit_full = fit_fourier_series(t, y, dy, f_high, order_high, search_half_width=half_width)
+    fit_half = fit_fourier_series(t, y, dy, f_high / 2, 2 * order_high,
+                                  search_half_width=half_width / 2)
+    n_extra = 2 * order_high
+    dof = t.size - (4 * order_high + 2)
+    if dof <= 0:
+        return 1.0, fit_full, fit_half
+    fstat = (max(fit_full.chi2 - fit_half.chi2, 0.0) / n_extra) / (fit_half.chi2 / dof)
+    return float(stats.f.sf(fstat, n_extra, dof)), fit_full, fit_half
+
+
+def _significant_maxima(fit):
+    """Number of brightness maxima per cycle that stand out of the model's noise."""
+    bright, faint = model_extrema(fit.coefficients)
+    if bright.size <= 1:
+        return int(bright.size)
+    phase = np.arange(2000) / 2000
+    v = fourier_series(phase, 1.0, fit.coefficients)
+    coef_err = np.sqrt(np.abs(np.diag(fit.covariance)[:-1]))
+    noise = 2.0 * np.sqrt(np.sum(coef_err[1:] ** 2))
+    count = 0
+    for ph in bright:
+        i = int(round(ph * 2000)) % 2000
+        # prominence: rise to the faintest point on either side before the next maximum
+        others = np.sort(np.mod(bright - ph, 1.0))[1:]
+        nxt = others[0] if others.size else 1.0
+        seg_r = v[(i + np.arange(int(nxt * 2000) + 1)) % 2000]
+        prv = 1.0 - others[-1] if others.size else 1.0
+        seg_l = v[(i - np.arange(int(prv * 2000) + 1)) % 2000]
+        prominence = min(seg_r.max(), seg_l.max()) - v[i]
+        if prominence > max(noise, 0.05 * np.ptp(v)):
+            count += 1
+    return max(count, 1)
+
+
+def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefer_double,
+                  half_width):
+    """Return (frequency, order, evidence) of the adopted single/double-peaked solution."""
+    f, m = f_start, order
+    steps = []
+    # Up: if the curve at f is two identical halves, the data repeat at 2f.
+    for _ in range(3):
+        if m < 2 or 2 * f > f_max * (1 + 1e-9):
+            break
+        p, _, _ = _odd_harmonics_p(t, y, dy, 2 * f, m // 2, half_width=half_width)
+        steps.append({"test": "odd harmonics at the start", "period_h": 24 / f, "p": p})
+        if p < significance:
+            break
+        f, m = 2 * f, max(1, m // 2)
+    # Down: do the two halves of the doubled period differ significantly?
+    p_down = None
+    for _ in range(3):
+        if f / 2 < f_min * (1 - 1e-9):
+            break
+        p_down, _, fit_half = _odd_harmonics_p(t, y, dy, f, m, half_width=half_width)
+        steps.append({"test": "odd harmonics at twice the period", "period_h": 48 / f,
+                      "p": p_down})
+        if p_down >= significance:
+            break
+        f, m = fit_half.frequency, 2 * m
+    fit = fit_fourier_series(t, y, dy, f, m, search_half_width=half_width)
+    n_max = _significant_maxima(fit)
+    evidence = {"tests": steps, "maxima_per_cycle_at_shortest_repeat": n_max,
+                "significance": significance}
+    if n_max >= 2:
+        choice = "double-peaked"
+        reason = (f"the lightcurve at {24 / f:.4f} h shows {n_max} maxima per cycle"
+                  + (" and its two halves differ (odd harmonics significant)"
+                     if any(s["p"] < significance for s in steps
+                            if s["test"].startswith("odd harmonics at twice")) else ""))
+        adopted_f, adopted_m = f, m
+    elif prefer_double and f / 2 >= f_min * (1 - 1e-9):
+        choice = "double-peaked (assumed)"
+        p_txt = f"p = {p_down:.2g}" if p_down is not None else "untested"
+        reason = (f"one maximum per {24 / f:.4f} h cycle and the two halves of "
+                  f"{48 / f:.4f} h do not differ significantly ({p_txt}); the double-peaked "
+                  f"period is adopted because an elongated body shows two maxima per rotation "
+                  f"(common practice)")
+        adopted_f, adopted_m = f / 2, 2 * m
+    else:
+        choice = "single-peaked"
+        reason = (f"one maximum per {24 / f:.4f} h cycle; "
+                  + ("twice that period lies outside the search range"
+                     if prefer_double else "single-peaked interpretation requested"))
+        adopted_f, adopted_m = f, m
+    evidence.update({"choice": choice, "reason": reason,
+                     "single_peaked_period_h": 24 / f if n_max < 2 else 12 / f})
+    return adopted_f, adopted_m, evidence
+
+
+def _candidates(periodograms, adopted, tolerance, window, n_candidates, distance):
+    rows = []
+    for name, pg in periodograms.items():
+        for rank, i in enumerate(periodogram_peaks(pg.score, n_peaks=n_candidates,
+                                                   distance=distance), start=1):
+            f = float(pg.frequency[i])
+            rows.append((name, rank, f, 24.0 / f, float(pg.statistic[i]), float(pg.fap[i]),
+                         describe_relation(f, adopted, tolerance=tolerance, window=window)))
+    names = ["method", "rank", "frequency", "period", "statistic", "fap", "relation"]
+    cols = list(zip(*rows)) if rows else [[] for _ in names]
+    table = QTable(dict(zip(names, [np.array(c) for c in cols])))
+    table["frequency"] = np.asarray(table["frequency"], dtype=float) / u.day
+    table["period"] = np.asarray(table["period"], dtype=float) * u.h
+    return table
+
+
+def _aliases(t, y, dy, fit, window, f_min, f_max, half_width):
+    rows = []
+    scale2 = fit.error_scale**2
+    for row in window:
+        fw = float(row["frequency"].to_value(1 / u.day))
+        for sign, text in ((1, "+"), (-1, "-")):
+            f = fit.frequency + sign * fw
+            if not f_min <= f <= f_max:
+                continue
+            alt = fit_fourier_series(t, y, dy, f, fit.order, search_half_width=half_width)
+            rows.append((f"adopted {text} {row['name']}", alt.frequency, 24 / alt.frequency,
+                         (alt.chi2 - fit.chi2) / scale2))
+    rows.sort(key=lambda r: r[3])
+    names = ["name", "frequency", "period", "delta_chi2"]
+    cols = list(zip(*rows)) if rows else [[] for _ in names]
+    table = QTable(dict(zip(names, [np.array(c) for c in cols])))
+    table["name"] = np.asarray(table["name"], dtype=str)
+    table["frequency"] = np.asarray(table["frequency"], dtype=float) / u.day
+    table["period"] = np.asarray(table["period"], dtype=float) * u.h
+    table["delta_chi2"] = np.asarray(table["delta_chi2"], dtype=float)
+    return table
+
+
+def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
+                    methods=("lomb-scargle", "fourier", "pdm"), n_bootstrap=100, rng=None,
+                    oversample=10, max_order=4, order_criterion="bic", ls_nterms=2,
+                    pdm_bins=10, pdm_covers=2, prefer_double_peaked=True, use_points="auto",
+                    coma_fraction=None, amplitude_phase_slope=0.015 / u.deg,
+                    significance=0.01, alias_delta_chi2=10.0, n_candidates=5, min_points=12):
+    """Search a reduced lightcurve for the nucleus rotation period.
+
+    Parameters
+    ----------
+    reduced : `~photpipe.rotation.lightcurve.ReducedLightcurve`
+        The lightcurve (see :func:`~photpipe.rotation.lightcurve.reduce_lightcurve`).
+    min_period, max_period : `~astropy.units.Quantity` ['time'], optional
+        Range of rotation periods searched.
+    methods : sequence of str, optional
+        Periodograms to compute, keys of `~photpipe.rotation.methods.METHODS`.
+    n_bootstrap : int, optional
+        Bootstrap resamples for the period and amplitude errors (0 to skip).
+    rng : `numpy.random.Generator`, optional
+        Random generator for the bootstrap and the amplitude error draws.
+    oversample : int, optional
+        Grid points per peak width ``1/T``.
+    max_order : int, optional
+        Highest Fourier order tried.
+    order_criterion : {"bic", "f-test"}, optional
+        How the Fourier order is chosen.
+    ls_nterms : int, optional
+        Harmonics of the Lomb-Scargle periodogram.
+    pdm_bins, pdm_covers : int, optional
+        PDM bin structure.
+    prefer_double_peaked : bool, optional
+        When the data cannot tell a single-peaked curve at P from two identical halves at 2P,
+        adopt 2P (an elongated body gives two maxima per rotation).
+    use_points : {"auto", "coma-free", "all"}, optional
+        ``"auto"`` uses the coma-free (nucleus-fit) points when there are at least
+        ``min_points`` of them, all points otherwise.
+    coma_fraction : float, optional
+        Fraction of the measured flux that is coma, for the dilution correction of a lightcurve
+        that is not coma-free.
+    amplitude_phase_slope : `~astropy.units.Quantity` ['1/angle'], optional
+        Amplitude-phase slope of Zappalà et al. (1990).
+    significance : float, optional
+        p-value below which odd harmonics count as detected.
+    alias_delta_chi2 : float, optional
+        An alias closer than this in χ² (after error scaling) is flagged ``alias_ambiguous``.
+    n_candidates : int, optional
+        Peaks listed per method.
+    min_points : int, optional
+        Fewest points for which a period is searched.
+
+    Returns
+    -------
+    result : RotationResult
+
+    Raises
+    ------
+    TypeError
+        If ``reduced`` is not a ReducedLightcurve.
+    LightcurveError
+        If the data cannot constrain any period in the range (too few points, baseline shorter
+        than the shortest trial period, bad errors).
+
+    Warns
+    -----
+    RotationWarning
+        When the result needs care: one night only, the longest trial periods longer than the
+        baseline, an alias not clearly rejected, a weak detection, methods that disagree.
+
+    Notes
+    -----
+    The adopted period comes from the least-squares Fourier series (Harris et al. 1989, Icarus
+    77, 171) fitted with its frequency; Lomb-Scargle (Zechmeister & Kürster 2009) and PDM
+    (Stellingwerf 1978) are computed on the same grid as independent views. Single or double
+    peak: the lightcurve at twice the period is fitted with twice the harmonics, and an F test
+    on the odd harmonics says whether its two halves differ. The minimum axial ratio is
+    ``a/b >= 10^(0.4 A(0))``, ``A(0) = A(α)/(1 + s α)`` (Zappalà et al. 1990, A&A 231, 548),
+    after removing the coma dilution (:func:`~photpipe.rotation.shape.undilute_amplitude`).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from astropy import units as u
+    >>> from photpipe.rotation import reduce_lightcurve, synthetic_lightcurve
+    >>> table, truth = synthetic_lightcurve(period=6.2 * u.h, rng=np.random.default_rng(5))
+    >>> result = search_rotation(reduce_lightcurve(table), min_period=3 * u.h,
+    ...                          max_period=20 * u.h, n_bootstrap=20,
+    ...                          rng=np.random.default_rng(5))
+    >>> bool(abs(result.period - truth.period) < 3 * result.period_err)
+    True
+    """
+    if not isinstance(reduced, ReducedLightcurve):
+        msg = (f"search_rotation takes a ReducedLightcurve (see reduce_lightcurve), got "
+               f"{type(reduced).__name__}")
+        raise TypeError(msg)
+    unknown = [m for m in methods if m not in METHODS]
+    if unknown:
+        msg = f"unknown method(s) {unknown}; choose from {sorted(METHODS)}"
+        raise ValueError(msg)
+    rng = np.random.default_rng() if rng is None else rng
+    pmin_h = as_positive_value(min_period, u.h, "min_period")
+    pmax_h = as_positive_value(max_period, u.h, "max_period")
+    slope = as_value(amplitude_phase_slope, 1 / u.deg, "amplitude_phase_slope")
+    flags = []
+
+    lc = _choose_points(reduced, use_points, min_points, flags)
+    _check_errors(lc)
+    n = lc.n_points
+    need = max(min_points, 2 * (2 * 2 + 2))
+    if n < need:
+        msg = (f"only {n} usable points: at least {need} are needed to fit a two-harmonic "
+               f"lightcurve with its period and test it; these data can give a mean magnitude "
+               f"and its scatter, but no rotation period")
+        raise LightcurveError(msg)
+    t = lc.epoch_mjd
+    dy = lc.mag_err
+    y = _remove_filter_offsets(lc, flags)
+    baseline_h = float(np.ptp(t)) * 24
+    nights = count_nights(t)
+    if baseline_h < pmin_h:
+        msg = (f"the points span {baseline_h:.2f} h, less than the shortest trial period "
+               f"({pmin_h:g} h): no period in the range can be constrained; the data only show "
+               f"the brightness change over {baseline_h:.2f} h (a lower bound on the amplitude)")
+        raise LightcurveError(msg)
+    if nights == 1:
+        _warn(flags, "single_night",
+              f"all {n} points come from one night ({baseline_h:.2f} h): periods longer than "
+              f"that cannot be constrained, and the cycle count between nights cannot be "
+              f"tested")
+    if baseline_h < pmax_h:
+        _warn(flags, "max_period_clipped",
+              f"the baseline ({baseline_h:.2f} h) is shorter than the longest trial period "
+              f"({pmax_h:g} h): the search stops at {baseline_h:.2f} h, as longer periods "
+              f"cannot be constrained by these data")
+        pmax_h = baseline_h
+    if pmin_h >= pmax_h:
+        msg = (f"the search range is empty once limited by the {baseline_h:.2f} h baseline "
+               f"(min_period {pmin_h:g} h)")
+        raise LightcurveError(msg)
+
+    grid = frequency_grid(t, min_period=pmin_h * u.h, max_period=pmax_h * u.h,
+                          oversample=oversample)
+    options = {
+        "lomb-scargle": {"nterms": ls_nterms},
+        "fourier": {"max_order": max_order, "criterion": order_criterion},
+        "pdm": {"n_bins": pdm_bins, "n_covers": pdm_covers},
+    }
+    periodograms = {name: METHODS[name](t, y, dy, grid, **options.get(name, {}))
+                    for name in methods}
+
+    if "fourier" in periodograms:
+        start = periodograms["fourier"]
+        order = start.info["order"]
+    else:
+        start = periodograms[methods[0]]
+        order = max(2, ls_nterms)
+    half_width = 1.0 / (2 * grid.baseline_d)
+    f_adopt, m_adopt, shape = _decide_shape(
+        t, y, dy, start.best_frequency, order, grid.f0, grid.f_max, significance=significance,
+        prefer_double=prefer_double_peaked, half_width=half_width)
+    if shape["choice"] == "double-peaked (assumed)":
+        flags.append("double_peaked_assumed")
+    fit = fit_fourier_series(t, y, dy, f_adopt, m_adopt, search_half_width=half_width / 4)
+
+    period_h = 24.0 / fit.frequency
+    err_cov_h = 24.0 * fit.frequency_err / fit.frequency**2
+    amp = fit.amplitude
+    coef_draws = rng.multivariate_normal(fit.coefficients, fit.covariance[:-1, :-1], size=400)
+    phase = np.arange(1000) / 1000
+    curves = np.stack([fourier_series(phase, 1.0, c) for c in coef_draws])
+    amp_err_cov = float(np.std(np.ptp(curves, axis=1)))
+    if n_bootstrap > 0:
+        f_boot, a_boot = bootstrap_fourier_fit(t, y, dy, fit, n_bootstrap=n_bootstrap, rng=rng)
+        err_boot_h = float(np.std(24.0 / f_boot, ddof=1))
+        amp_err_boot = float(np.std(a_boot, ddof=1))
+    else:
+        err_boot_h, amp_err_boot = np.nan, np.nan
+    period_err_h = float(np.nanmax([err_cov_h, err_boot_h]))
+    amp_err = float(np.nanmax([amp_err_cov, amp_err_boot]))
+
+    mean_phase = float(np.mean(lc.phase_deg))
+    model_cycle = fourier_series(phase, 1.0, fit.coefficients)
+    if lc.coma_free:
+        amp_nucleus = amp
+    elif coma_fraction is not None:
+        try:
+            amp_nucleus = undilute_amplitude(model_cycle, coma_fraction)
+        except ValueError as exc:
+            msg = f"coma dilution correction: {exc}"
+            raise LightcurveError(msg) from exc
+        flags.append("coma_dilution_corrected")
+    else:
+        amp_nucleus = np.nan
+        _warn(flags, "coma_dilution_unknown",
+              "the lightcurve holds coma light and no coma fraction was given: the observed "
+              "amplitude is only a lower bound on the nucleus amplitude, and a/b is not bounded")
+    amp0 = amplitude_at_zero_phase(amp_nucleus, mean_phase, slope_per_deg=slope)
+    ratio = minimum_axial_ratio(amp0) if np.isfinite(amp0) else np.nan
+
+    power = 1.0 - fit.chi2 / float(np.sum((y - np.average(y, weights=1 / dy**2)) ** 2 / dy**2))
+    fap = float(fap_from_power(power, n, 2 * fit.order, grid.n_independent))
+    if fap > 0.01:
+        _warn(flags, "weak_detection",
+              f"the adopted period's false-alarm probability is {fap:.2g}: the variation may "
+              f"be noise")
+
+    window = window_peaks(t, sites=lc.site, f_max=min(3.5, grid.f_max - grid.f0 + 0.5))
+    aliases = _aliases(t, y, dy, fit, window, grid.f0, grid.f_max, half_width)
+    if len(aliases) and float(aliases["delta_chi2"][0]) < alias_delta_chi2:
+        _warn(flags, "alias_ambiguous",
+              f"the alias '{aliases['name'][0]}' ({aliases['period'][0].to_value(u.h):.4f} h) "
+              f"fits nearly as well (Δχ² = {float(aliases['delta_chi2'][0]):.1f}): more nights "
+              f"or another site are needed to decide")
+
+    tolerance = max(3 * fit.frequency_err, 0.5 / grid.baseline_d)
+    candidates = _candidates(periodograms, fit.frequency, tolerance, window, n_candidates,
+                             distance=max(1, oversample // 2))
+    summary = {}
+    for name, pg in periodograms.items():
+        f_best = pg.best_frequency
+        summary[name] = {"period_h": 24.0 / f_best,
+                         "relation": describe_relation(f_best, fit.frequency,
+                                                       tolerance=tolerance, window=window),
+                         "fap": float(pg.fap[pg.best_index]), **pg.info}
+    if any(s["relation"] == "unrelated" for s in summary.values()):
+        _warn(flags, "methods_disagree",
+              "the methods' best periods are not the same, a harmonic or an alias of each "
+              "other: see the candidates table")
+
+    settings = {"min_period_h": pmin_h, "max_period_h": pmax_h, "oversample": oversample,
+                "n_frequencies": grid.n, "baseline_h": baseline_h, "n_nights": nights,
+                "n_bootstrap": n_bootstrap, "phase_law": lc.phase_law,
+                "amplitude_phase_slope_per_deg": slope, "coma_fraction": coma_fraction,
+                **{f"phase_{k}": v for k, v in lc.phase_parameters.items()}}
+    return RotationResult(
+        period=period_h * u.h, period_err=period_err_h * u.h,
+        period_err_covariance=err_cov_h * u.h, period_err_bootstrap=err_boot_h * u.h,
+        amplitude=amp * u.mag, amplitude_err=amp_err * u.mag,
+        amplitude_nucleus=amp_nucleus * u.mag, amplitude_zero_phase=amp0 * u.mag,
+        axial_ratio_min=ratio, n_points=n, method="fourier", fit=fit,
+        false_alarm_probability=fap, periodograms=periodograms, candidates=candidates,
+        window=window, aliases=aliases, shape=shape, methods_summary=summary,
+        flags=tuple(dict.fromkeys(flags)), lightcurve=lc, magnitudes=y,
+        mean_phase_deg=mean_phase, settings=settings)
