@@ -1,0 +1,233 @@
+"""Finding stars in a calibrated frame: global sky level, peak detection, centroids and FWHM.
+
+Detection runs photutils' ``find_peaks`` on a signal-to-noise image made from the data and the
+variance plane, binned ``binning`` × ``binning`` first (sums of data and of variance) and
+band-pass filtered with a difference of Gaussians (σ and 4σ), the usual approximation of a
+Laplacian-of-Gaussian detector (Marr & Hildreth 1980, Proc. R. Soc. B 207, 187). The band pass
+removes smooth light, so the noise on a bright coma does not turn into thousands of false peaks;
+the whole thing is several times faster than a matched-filter finder on a full 2048 × 2048 frame
+and, for a PSF of FWHM ≳ 3 pixels, loses nothing that the zero point needs. Centroids are then
+measured on the full resolution frame with photutils' ``centroid_sources`` (one pass of a
+centre-of-mass box on the peak pixel). The FWHM comes from a closed-form fit of a circular
+Gaussian to the log of each star's core (Caruana's method with the weights of Guo 2011), checked
+in the tests against photutils' ``psf.fit_fwhm``, which is about a hundred times slower.
+"""
+
+import warnings
+
+import numpy as np
+from astropy.stats import sigma_clipped_stats
+from astropy.table import QTable
+from photutils.centroids import centroid_com, centroid_sources
+from photutils.detection import find_peaks
+from photutils.utils.exceptions import NoDetectionsWarning
+from scipy.ndimage import gaussian_filter
+
+__all__ = ["sky_statistics", "detect_sources", "measure_fwhm"]
+
+
+def sky_statistics(data, good, *, step=4):
+    """Sigma-clipped median and standard deviation of the sky over a sub-sampled frame.
+
+    Parameters
+    ----------
+    data : ndarray, shape (ny, nx)
+        Calibrated frame (electrons).
+    good : ndarray of bool, shape (ny, nx)
+        Usable pixels.
+    step : int, optional
+        Use every ``step``-th pixel along each axis (the statistics need far fewer than 4 M
+        pixels).
+
+    Returns
+    -------
+    level, sigma : float
+        Sky level and per-pixel scatter in the data's unit.
+
+    Notes
+    -----
+    3σ clipping, 5 iterations (astropy ``sigma_clipped_stats``; common practice).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> level, sigma = sky_statistics(rng.normal(100, 5, (64, 64)), np.ones((64, 64), bool),
+    ...                               step=1)
+    >>> round(level), round(sigma)
+    (100, 5)
+    """
+    sub = data[::step, ::step]
+    ok = good[::step, ::step]
+    values = sub[ok]
+    if values.size < 10:
+        msg = f"only {values.size} usable pixels to estimate the sky"
+        raise ValueError(msg)
+    _, median, std = sigma_clipped_stats(values, sigma=3.0, maxiters=5)
+    return float(median), float(std)
+
+
+def _bin(a, b):
+    ny, nx = (a.shape[0] // b) * b, (a.shape[1] // b) * b
+    return a[:ny, :nx].reshape(ny // b, b, nx // b, b).sum(axis=(1, 3))
+
+
+def _band_pass_snr(signal, variance, sigma):
+    """Signal-to-noise of a difference-of-Gaussians (σ, 4σ) filtered image."""
+    dog = gaussian_filter(signal, sigma) - gaussian_filter(signal, 4.0 * sigma)
+    probe = np.zeros((int(16 * sigma) | 1,) * 2)
+    probe[probe.shape[0] // 2, probe.shape[1] // 2] = 1.0
+    kernel = gaussian_filter(probe, sigma) - gaussian_filter(probe, 4.0 * sigma)
+    local_var = gaussian_filter(variance, 4.0 * sigma) * np.sum(kernel**2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return dog / np.sqrt(np.where(local_var > 0, local_var, np.inf))
+
+
+def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=2, box_size=5,
+                   centroid_box=7, max_sources=3000, n_centroid=120, smooth=1.0):
+    """Detect point-like sources and measure their centroids.
+
+    Parameters
+    ----------
+    data, variance : ndarray, shape (ny, nx)
+        Calibrated signal and its variance (electrons, electrons²).
+    good : ndarray of bool, shape (ny, nx)
+        Usable pixels (others are replaced by the sky before detection).
+    sky : float
+        Global sky level per pixel.
+    threshold : float, optional
+        Detection threshold in units of the local noise of the binned image.
+    binning : int, optional
+        Binning factor for detection (1 to detect at full resolution).
+    box_size : int, optional
+        Size of the local-maximum box on the binned image (``find_peaks``).
+    centroid_box : int, optional
+        Box (odd, full-resolution pixels) of the centre-of-mass centroid.
+    max_sources : int, optional
+        Keep at most this many sources, highest signal-to-noise first.
+    smooth : float, optional
+        σ in binned pixels of the inner Gaussian of the band-pass filter.
+    n_centroid : int, optional
+        Measure centroids for this many sources (highest signal-to-noise first); the others keep
+        the position of their peak pixel, which is enough to mask them.
+
+    Returns
+    -------
+    sources : `~astropy.table.QTable`
+        Columns ``x, y`` (0-based pixels, full resolution), ``snr`` (binned peak signal-to-noise),
+        ``peak`` (sky-subtracted value of the full-resolution pixel at the centroid),
+        ``centroided`` (bool).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(1)
+    >>> img = rng.normal(100.0, 5.0, (64, 64))
+    >>> yy, xx = np.mgrid[:64, :64]
+    >>> img += 2000 * np.exp(-((xx - 30.3) ** 2 + (yy - 20.6) ** 2) / (2 * 1.5 ** 2))
+    >>> src = detect_sources(img, np.full(img.shape, 25.0), np.ones(img.shape, bool), sky=100.0)
+    >>> len(src), abs(float(src["x"][0]) - 30.3) < 0.1, abs(float(src["y"][0]) - 20.6) < 0.1
+    (1, True, True)
+    """
+    work = np.where(good, data, sky) - sky
+    var = np.where(good, variance, np.nanmedian(variance[::8, ::8]))
+    b = max(int(binning), 1)
+    sig_b = _bin(work, b) if b > 1 else work
+    var_b = _bin(var, b) if b > 1 else var
+    snr = _band_pass_snr(sig_b, var_b, smooth)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", NoDetectionsWarning)
+        peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
+    out = QTable({"x": np.zeros(0), "y": np.zeros(0), "snr": np.zeros(0), "peak": np.zeros(0),
+                  "centroided": np.zeros(0, bool)})
+    if peaks is None or len(peaks) == 0:
+        return out
+    order = np.argsort(-np.asarray(peaks["peak_value"]))[:max_sources]
+    xb = np.asarray(peaks["x_peak"], dtype=float)[order]
+    yb = np.asarray(peaks["y_peak"], dtype=float)[order]
+    x0 = b * xb + (b - 1) / 2.0
+    y0 = b * yb + (b - 1) / 2.0
+    box = int(centroid_box) | 1
+    positive = np.clip(work, 0.0, None)
+    x, y = x0.copy(), y0.copy()
+    nc = min(int(n_centroid), len(x0))
+    if nc:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            xn, yn = centroid_sources(positive, x0[:nc], y0[:nc], box_size=box,
+                                      centroid_func=centroid_com)
+        ok = np.isfinite(xn) & np.isfinite(yn) & (np.hypot(xn - x0[:nc], yn - y0[:nc]) <= box)
+        x[:nc] = np.where(ok, xn, x0[:nc])
+        y[:nc] = np.where(ok, yn, y0[:nc])
+    centroided = np.zeros(len(x0), bool)
+    centroided[:nc] = True
+    ny, nx = data.shape
+    ix = np.clip(np.round(x).astype(int), 0, nx - 1)
+    iy = np.clip(np.round(y).astype(int), 0, ny - 1)
+    out = QTable({"x": x, "y": y, "snr": np.asarray(peaks["peak_value"], float)[order],
+                  "peak": work[iy, ix], "centroided": centroided})
+    return out
+
+
+def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15):
+    """Median FWHM of a few stars from closed-form Gaussian fits to their cores.
+
+    Parameters
+    ----------
+    data : ndarray, shape (ny, nx)
+        Calibrated frame.
+    x, y : array-like
+        Positions of bright, isolated, unsaturated stars (best first).
+    sky : float
+        Sky level to subtract.
+    fit_shape : int, optional
+        Odd size of the fitting box in pixels.
+    max_stars : int, optional
+        Use at most this many stars.
+
+    Returns
+    -------
+    fwhm : float
+        Median FWHM in pixels (NaN if no star could be fitted).
+
+    Notes
+    -----
+    ln I = ln A - ((x - x₀)² + (y - y₀)²) / (2σ²) is linear in (1, x, y, x² + y²); it is fitted by
+    least squares with weights I² over the pixels above 5 % of the peak (Caruana et al. 1986;
+    Guo 2011, IEEE Signal Processing Magazine 28, 134), and FWHM = 2 sqrt(2 ln 2) σ. The median
+    over stars is robust to a few poor fits (common practice).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> yy, xx = np.mgrid[:31, :31]
+    >>> img = 10.0 + 1000 * np.exp(-((xx - 15.2) ** 2 + (yy - 14.7) ** 2) / (2 * 1.2 ** 2))
+    >>> round(measure_fwhm(img, [15.2], [14.7], sky=10.0), 3)
+    2.826
+    """
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    half = int(fit_shape) // 2
+    ny, nx = data.shape
+    yy, xx = np.mgrid[-half:half + 1, -half:half + 1]
+    out = []
+    for xi, yi in zip(x, y, strict=True):
+        ix, iy = int(round(xi)), int(round(yi))
+        if ix < half or iy < half or ix >= nx - half or iy >= ny - half:
+            continue
+        stamp = data[iy - half:iy + half + 1, ix - half:ix + half + 1] - sky
+        peak = np.nanmax(stamp)
+        use = np.isfinite(stamp) & (stamp > 0.05 * peak)
+        if peak <= 0 or np.count_nonzero(use) < 6:
+            continue
+        v = stamp[use]
+        a = np.column_stack([np.ones(v.size), xx[use], yy[use], xx[use] ** 2 + yy[use] ** 2])
+        w = v  # weights I² on the squared residuals: scale rows by I
+        coef, *_ = np.linalg.lstsq(a * w[:, None], np.log(v) * w, rcond=None)
+        if coef[3] < 0:
+            out.append(2.0 * np.sqrt(2.0 * np.log(2.0)) * np.sqrt(-0.5 / coef[3]))
+        if len(out) >= max_stars:
+            break
+    out = np.asarray(out)
+    out = out[np.isfinite(out) & (out > 0.5) & (out < 4 * fit_shape)]
+    return float(np.median(out)) if out.size else float("nan")
