@@ -80,7 +80,8 @@ NUCLEUS_COLUMNS = (
     _c("nucleus_mag", unit=_MAG),
     _c("nucleus_mag_err", unit=_MAG),
     _c("nucleus_flux_e_s", unit=u.electron / u.s),
-    _c("coma_k"),
+    _c("coma_k", unit=u.electron / u.s,
+       description="K of the coma surface brightness K rho^-gamma, rho in pixels"),
     _c("coma_gamma"),
     _c("fwhm_arcsec", unit=u.arcsec),
     _c("nucleus_fraction"),
@@ -91,10 +92,16 @@ NUCLEUS_COLUMNS = (
 
 #: Per-frame zero point (one row per frame).
 ZERO_POINT_COLUMNS = (
-    _c("zp_mag", unit=_MAG),
+    _c("zp_mag", unit=_MAG, description="mag = zp_mag - 2.5 log10(flux in electron/s)"),
     _c("zp_err_mag", unit=_MAG),
-    _c("n_stars", "INTEGER"),
     _c("colour_term"),
+    _c("colour_term_err"),
+    _c("n_stars", "INTEGER", description="stars kept in the fit"),
+    _c("n_rejected", "INTEGER"),
+    _c("rms_mag", unit=_MAG),
+    _c("chi2_red"),
+    _c("band", "TEXT"),
+    _c("aperture_correction"),
     _c("fwhm_arcsec", unit=u.arcsec),
     _c("airmass"),
     _FLAGS,
@@ -102,16 +109,19 @@ ZERO_POINT_COLUMNS = (
 
 #: Field stars measured in a frame (one row per star).
 STAR_COLUMNS = (
+    _c("star_id", "TEXT", description="reference-catalogue identifier"),
     _c("ra_deg", unit=u.deg),
     _c("dec_deg", unit=u.deg),
     _c("x_pix", unit=u.pix),
     _c("y_pix", unit=u.pix),
     _c("flux_e_s", unit=u.electron / u.s),
     _c("flux_err_e_s", unit=u.electron / u.s),
-    _c("mag_ref", unit=_MAG, description="reference-catalogue magnitude"),
-    _c("colour_ref", unit=_MAG),
     _c("mag_inst", unit=_MAG, description="-2.5 log10(flux in electron/s)"),
-    _c("residual_mag", unit=_MAG, description="reference minus calibrated magnitude"),
+    _c("mag_inst_err", unit=_MAG),
+    _c("mag_ref", unit=_MAG, description="reference-catalogue magnitude"),
+    _c("mag_ref_err", unit=_MAG),
+    _c("colour_ref", unit=_MAG, description="reference-catalogue colour"),
+    _c("residual_mag", unit=_MAG, description="catalogue minus calibrated magnitude"),
     _c("used", "INTEGER", description="1 if the star entered the zero-point fit"),
 )
 

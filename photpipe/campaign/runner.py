@@ -149,14 +149,18 @@ class TaskRunner:
         return f"{self.workers} local worker process{'es' if self.workers != 1 else ''} (Dask)"
 
     def __enter__(self):
-        self.open()
+        # Processes start on the first batch that has tasks, so a run with nothing to do
+        # starts none.
         return self
 
     def __exit__(self, *exc):
         self.close()
 
     def open(self):
-        """Start the local cluster or connect to the scheduler (no-op for ``workers=0``)."""
+        """Start the local cluster or connect to the scheduler (no-op for ``workers=0``).
+
+        Called by the first :meth:`map` that has tasks; call it yourself to fail early.
+        """
         if self._client is not None or (self.scheduler is None and self.workers == 0):
             return
         import dask
@@ -227,6 +231,8 @@ class TaskRunner:
             bar.close()
 
     def _outcomes(self, func, items, shared):
+        if not items:
+            return
         if self._client is None and self.scheduler is None and self.workers == 0:
             for item in items:
                 yield item, _guarded(func, item, shared)

@@ -49,8 +49,9 @@ def _plain(value, unit, where):
         return None
     if isinstance(value, u.Quantity):
         if unit is None:
-            msg = f"{where}: got a Quantity ({value.unit}) for a column that has no unit"
-            raise ValueError(msg)
+            # Unitless columns: plain numbers, and time stamps given as MJD in days.
+            unit = (u.dimensionless_unscaled if value.unit.physical_type != "time"
+                    else u.day)
         try:
             value = value.to_value(unit)
         except u.UnitConversionError as exc:
@@ -67,8 +68,11 @@ def _plain(value, unit, where):
     if isinstance(value, (float, np.floating)):
         value = float(value)
         return None if math.isnan(value) else value
-    if isinstance(value, np.ndarray) and value.ndim == 0:
-        return _plain(value.item(), None, where)
+    if isinstance(value, np.ndarray):
+        if value.size != 1:
+            msg = f"{where}: expected one value, got an array of shape {value.shape}"
+            raise ValueError(msg)
+        return _plain(value.reshape(()).item(), None, where)
     return value if isinstance(value, str) else str(value)
 
 

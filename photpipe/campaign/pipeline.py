@@ -1,0 +1,420 @@
+"""The batch run: every night of a configuration, stage by stage, into the campaign store.
+
+For each ``[[night]]``: read the headers, plan and build the master calibrations, compute the
+observing geometry of all science frames at once, then hand one task per science frame to the
+:class:`~photpipe.campaign.TaskRunner` (calibrate, write the calibrated frame, photometry,
+nucleus fit) and store each frame's results in one transaction as soon as it comes back. Then the
+night's tables are exported, and once all nights are done the campaign lightcurve and the
+campaign-level stages (rotation, size, activity and report) run. Stages that are not installed
+are named in the summary and skipped; nothing is invented in their place.
+
+Only this module's caller (the CLI) reads the configuration file; the stages get plain values.
+"""
+
+import hashlib
+import logging
+import os
+import time
+import warnings
+from pathlib import Path
+
+from astropy.time import Time
+
+from photpipe._records import Skipped
+from photpipe.cli.config import ConfigError, night_folders
+
+from .hashing import config_hash, file_sha256
+from .runner import TaskError, TaskRunner
+from .settings import nucleus_options, photometry_options
+from .stages import FRAME_STAGES, STAGES, stage_function, stage_status
+from .store import CampaignStore, write_table_atomic
+from .summary import NightSummary, RunSummary
+from .tasks import process_frame
+
+__all__ = ["run_campaign", "night_name", "NIGHT_TABLES"]
+
+log = logging.getLogger("photpipe.campaign")
+
+#: Tables exported into each night's folder, with the stage that fills them.
+NIGHT_TABLES = {"frames": "calibration", "measurements": "photometry", "nucleus": "nucleus",
+                "stars": "photometry", "zero_points": "photometry", "skipped": "calibration"}
+
+#: ``[frames]`` keys that are calibration options rather than the frame-type mapping.
+_OPTION_KEYS = ("detect_cosmics", "cosmic_method", "max_saturated_fraction", "method", "sigma",
+                "maxiters", "require_dark")
+
+_FITS_ENDINGS = (".fz", ".gz", ".fits", ".fit", ".fts")
+
+
+def night_name(night):
+    """Return the name a ``[[night]]`` entry goes by: its ``name``, else its folder's name.
+
+    Examples
+    --------
+    >>> night_name({"path": "/data/raw/2026-12-01"})
+    '2026-12-01'
+    >>> night_name({"path": "/data/raw/2026-12-02/*.fits.fz"})
+    '2026-12-02'
+    >>> night_name({"path": "/x", "name": "first night"})
+    'first night'
+    """
+    if night.get("name"):
+        return str(night["name"])
+    path = os.path.normpath(night["path"])
+    parts = Path(path).parts
+    for i, part in enumerate(parts):
+        if any(ch in part for ch in "*?["):
+            return parts[i - 1] if i > 0 else path
+    return os.path.basename(path)
+
+
+def _frame_name(path):
+    base = os.path.basename(str(path))
+    for ext in _FITS_ENDINGS:
+        if base.lower().endswith(ext):
+            base = base[: -len(ext)]
+    return base
+
+
+def _frame_settings(config):
+    """Plain keyword values for the frame stages, from the configuration's sections."""
+    frames = stage_function("calibration", "kind_map_from_mapping")
+    section = {k: v for k, v in config.get("frames", {}).items() if k not in _OPTION_KEYS}
+    try:
+        kind_map = frames(section)
+    except (TypeError, ValueError) as exc:
+        msg = f"{config.get('_file', 'configuration')}: [frames]: {exc}"
+        raise ConfigError(msg) from exc
+    calib = config.get("frames", {})
+    calibration = {k: calib[k] for k in ("detect_cosmics", "cosmic_method",
+                                         "max_saturated_fraction") if k in calib}
+    masters = {k: calib[k] for k in ("method", "sigma", "maxiters") if k in calib}
+    phot = config.get("photometry", {})
+    return {"kind_map": kind_map, "calibration": calibration, "masters": masters,
+            "require_dark": bool(calib.get("require_dark", False)),
+            "reference_stars": phot.get("reference_stars")}
+
+
+def _night_geometry(config, night, infos):
+    """Geometry rows of the night's science frames, computed once in the parent process."""
+    if not infos:
+        return [], None, []
+    compute = stage_function("geometry", "geometry_for_times")
+    times = Time([info.time_mid for info in infos])
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            table = compute(config, night, times)
+        except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
+            return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
+    cautions = sorted({str(w.message) for w in caught
+                       if w.category.__name__ == "SolarElongationWarning"})
+    for w in caught:
+        if w.category.__name__ != "SolarElongationWarning":
+            log.warning("geometry: %s: %s", w.category.__name__, w.message)
+    return [table[i:i + 1] for i in range(len(infos))], None, cautions
+
+
+class _Run:
+    """State of one run: the store, the runner, the summary being filled."""
+
+    def __init__(self, config, store, runner, summary, *, rerun, echo):
+        self.config = config
+        self.store = store
+        self.runner = runner
+        self.summary = summary
+        self.rerun = rerun
+        self.echo = echo
+        self.results = Path(config["campaign"]["results"])
+        self.frame_hash = config_hash(config)
+        statuses = {name: stage_status(name) for name in STAGES}
+        self.statuses = statuses
+        self.frame_stages = tuple(s for s in FRAME_STAGES if statuses[s].available)
+        self.settings = _frame_settings(config) if statuses["calibration"].available else {}
+        for stage, builder in (("photometry", photometry_options),
+                               ("nucleus", nucleus_options)):
+            options, ignored = builder(config)
+            self.settings[stage] = options
+            if ignored:
+                log.warning("[%s] keys not used by this photpipe: %s", stage,
+                            ", ".join(ignored))
+
+    def skip(self, night, item, stage, reason):
+        record = Skipped(str(item), stage, str(reason))
+        night.skipped.append(record)
+        self.store.add_skipped(self.summary.run_id, night.name, _frame_name(item), stage, reason)
+        log.info("skipped %s/%s [%s]: %s", night.name, _frame_name(item), stage, reason)
+
+    # -- one night -------------------------------------------------------------------------
+
+    def night(self, entry):
+        name = night_name(entry)
+        night = NightSummary(name=name, folder=entry["path"])
+        self.summary.nights.append(night)
+        try:
+            files = night_folders(entry)
+        except ConfigError as exc:
+            self.skip(night, entry["path"], "ingest", str(exc))
+            self.echo(f"night {name}: {exc}; going on with the other nights")
+            return
+        if not self.statuses["calibration"].available:
+            self.skip(night, entry["path"], "calibration", self.statuses["calibration"].reason)
+            return
+        scan = stage_function("calibration", "scan_night")
+        inventory = scan(files, kind_map=self.settings["kind_map"])
+        night.counts = inventory.counts()
+        for s in inventory.skipped:
+            self.skip(night, s.item, s.stage, s.reason)
+        hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
+        self.store.add_frames(
+            {"night": name, "frame": info.name, "path": info.path,
+             "content_hash": hashes[info.path], "kind": info.kind,
+             "mjd_utc_mid": float(info.time_mid.utc.mjd), "filter": info.filter,
+             "exptime_s": info.exptime, "site": entry.get("site")}
+            for info in inventory.frames)
+        counts = ", ".join(f"{n} {k}" for k, n in night.counts.items() if n)
+        self.echo(f"night {name}: {len(inventory.frames)} frames read ({counts or 'none'}), "
+                  f"{len(inventory.skipped)} unreadable")
+
+        plan = stage_function("calibration", "plan_calibrations")(
+            inventory, require_dark=self.settings["require_dark"])
+        for s in plan.skipped:
+            self.skip(night, s.item, s.stage, s.reason)
+        todo = []
+        for info in plan.science:
+            if not self.rerun and self.store.is_measured(
+                    name, info.name, content_hash=hashes[info.path],
+                    config_hash=self.frame_hash, stages=self.frame_stages):
+                night.reused += 1
+            else:
+                todo.append(info)
+        if not plan.science:
+            self.echo(f"night {name}: no science frame has the calibrations it needs")
+        elif not todo:
+            self.echo(f"night {name}: all {night.reused} science frames already measured "
+                      "with this configuration (use --rerun to measure them again)")
+        if todo:
+            self._measure(entry, night, plan, todo, hashes)
+        self._export_night(night)
+
+    def _measure(self, entry, night, plan, todo, hashes):
+        folder = self.results / night.name
+        masters = stage_function("calibration", "build_masters")(
+            plan, folder / "masters", **self.settings["masters"])
+        for s in masters.skipped:
+            self.skip(night, s.item, s.stage, s.reason)
+        self.store.add_calibrations(
+            {"night": night.name, "kind": m.kind, "path": m.path, "n_inputs": m.n_frames,
+             "filter": str(m.key[3]) if m.kind == "flat" else None,
+             "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
+            for m in masters.masters)
+
+        geometry, problem = [None] * len(todo), None
+        if "geometry" in self.frame_stages:
+            geometry, problem, cautions = _night_geometry(self.config, entry, todo)
+            for text in cautions:
+                if text not in self.summary.cautions:
+                    self.summary.cautions.append(text)
+                    self.echo(f"CAUTION: {text}")
+            if problem:
+                self.echo(f"night {night.name}: no observing geometry ({problem}); "
+                          "frames are calibrated but not measured")
+        items = [{"night": night.name, "site": entry.get("site"), "info": info,
+                  "content_hash": hashes[info.path], "geometry": row,
+                  "geometry_problem": problem,
+                  "calibrated_path": str(folder / "calibrated" / f"{info.name}.fits")}
+                 for info, row in zip(todo, geometry)]
+        shared = {"masters": masters, "stages": self.frame_stages,
+                  "calibration": self.settings["calibration"],
+                  "photometry": self.settings["photometry"],
+                  "nucleus": self.settings["nucleus"],
+                  "reference_stars": self.settings["reference_stars"]}
+        for item, result in self.runner.map(process_frame, items, shared=shared,
+                                            desc=night.name,
+                                            label=lambda it: f"{it['night']}/{it['info'].name}"):
+            frame = item["info"].name
+            if isinstance(result, TaskError):
+                self.skip(night, frame, "worker", str(result))
+                continue
+            try:
+                self.store.write_frame(self.summary.run_id, result,
+                                       config_hash=self.frame_hash)
+            except (ValueError, TypeError) as exc:
+                # A result the store cannot take (a unit it does not know) is nothing stored.
+                self.skip(night, frame, "store", str(exc))
+                continue
+            for stage, reason in result.problems:
+                night.skipped.append(Skipped(frame, stage, reason))
+                log.info("%s/%s [%s]: %s", night.name, frame, stage, reason)
+            if not any(stage == "calibration" for stage, _ in result.problems):
+                night.measured += 1
+
+    def _export_night(self, night):
+        folder = self.results / night.name
+        for table, stage in NIGHT_TABLES.items():
+            if stage not in self.frame_stages:
+                continue
+            path = self.store.write_ecsv(table, folder / f"{table}.ecsv", night=night.name)
+            night.outputs.append(str(path))
+
+    # -- the campaign ----------------------------------------------------------------------
+
+    def campaign(self):
+        lightcurve = self.store.lightcurve()
+        if "photometry" in self.frame_stages:
+            path = write_table_atomic(lightcurve, self.results / "lightcurve.ecsv")
+            lightcurve.meta["path"] = str(path)
+            self.summary.outputs.append(str(path))
+        for stage, adapter in _CAMPAIGN_STAGES.items():
+            status = self.statuses[stage]
+            if not status.available:
+                continue
+            if stage != "report" and len(lightcurve) == 0:
+                reason = ("the lightcurve is empty: no nucleus or small-aperture magnitude "
+                          "was measured")
+                self.summary.skipped.append(Skipped(stage, stage, reason))
+                continue
+            try:
+                with warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always")
+                    written = adapter(self, lightcurve)
+                for w in caught:
+                    self.echo(f"{stage}: {w.category.__name__}: {w.message}")
+            except Exception as exc:  # noqa: BLE001 - a campaign stage failing keeps the rest
+                reason = f"{type(exc).__name__}: {exc}"
+                self.summary.skipped.append(Skipped(stage, stage, reason))
+                self.echo(f"{stage}: could not run: {reason}")
+                log.debug("%s stage traceback", stage, exc_info=True)
+                continue
+            if isinstance(written, dict) and written.get("summary"):
+                self.echo(str(written["summary"]))
+            for path in _paths(written):
+                self.summary.outputs.append(str(path))
+
+
+def _rotation_stage(run, lightcurve):
+    func = stage_function("rotation", "run_rotation_stage")
+    return func(run.config, lightcurve, run.results)
+
+
+def _size_stage(run, lightcurve):
+    func = stage_function("size", "run_size_stage")
+    return func(run.config, lightcurve, run.results)
+
+
+def _report_stage(run, lightcurve):
+    func = stage_function("report", "run_report_stage")
+    return func(run.config, run.store, run.results)
+
+
+#: Campaign-level stages in the order they run (size reads the rotation result).
+_CAMPAIGN_STAGES = {"rotation": _rotation_stage, "size": _size_stage, "report": _report_stage}
+
+
+def _paths(written):
+    if written is None:
+        return []
+    if isinstance(written, (str, os.PathLike)):
+        return [written] if os.path.isfile(written) else []
+    if isinstance(written, dict):
+        written = [v for k, v in written.items() if k != "summary"]
+    return [p for p in written if isinstance(p, (str, os.PathLike)) and os.path.isfile(p)]
+
+
+def _open_log(results, run_id):
+    folder = Path(results) / "logs"
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / f"run-{run_id:04d}.log"
+    handler = logging.FileHandler(path, encoding="utf-8")
+    handler.setFormatter(logging.Formatter("%(asctime)s %(levelname)-7s %(message)s",
+                                           "%Y-%m-%dT%H:%M:%S"))
+    handler.setLevel(logging.DEBUG)
+    return path, handler
+
+
+def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=True,
+                 echo=print):
+    """Reduce every night of a configuration into its campaign store.
+
+    Parameters
+    ----------
+    config : dict
+        As returned by :func:`photpipe.cli.config.load_config`.
+    workers : int, optional
+        Local worker processes (default ``[run] workers``, else 1; 0 runs in this process).
+    scheduler : str, optional
+        Address of an existing Dask scheduler (default ``[run] scheduler``).
+    rerun : bool, optional
+        Measure again frames already measured with the same file content and configuration.
+    progress : bool, optional
+        Show progress bars.
+    echo : callable, optional
+        Where progress lines go (also written to the run's log file).
+
+    Returns
+    -------
+    RunSummary
+
+    Raises
+    ------
+    ConfigError
+        If the configuration cannot be used (for example a bad ``[frames]`` mapping).
+    StoreError
+        If the campaign store is damaged.
+    """
+    started = time.perf_counter()
+    run_cfg = config.get("run", {})
+    if workers is None and scheduler is None:
+        scheduler = run_cfg.get("scheduler")
+    if workers is None:
+        workers = int(run_cfg.get("workers", 1))
+    names = [night_name(n) for n in config["night"]]
+    duplicated = sorted({n for n in names if names.count(n) > 1})
+    if duplicated:
+        msg = (f"{config.get('_file', 'configuration')}: two [[night]] entries share the name "
+               f"{duplicated[0]!r}; give one of them a 'name'")
+        raise ConfigError(msg)
+
+    results = Path(config["campaign"]["results"])
+    results.mkdir(parents=True, exist_ok=True)
+    store = CampaignStore(config["campaign"]["store"])
+    text = config.get("_text", "")
+    run_id = store.start_run(text, config_hash=hashlib.sha256(text.encode()).hexdigest())
+    log_path, handler = _open_log(results, run_id)
+    root = logging.getLogger("photpipe")
+    old_level = root.level
+    root.addHandler(handler)
+    root.setLevel(logging.DEBUG)
+
+    def say(line):
+        log.info("%s", line)
+        echo(line)
+
+    runner = TaskRunner(workers=workers, scheduler=scheduler, progress=progress)
+    summary = RunSummary(run_id=run_id, results=str(results), store=str(store.path),
+                         log=str(log_path), where=runner.description)
+    status = "failed"
+    try:
+        run = _Run(config, store, runner, summary, rerun=rerun, echo=say)
+        summary.stages = list(run.statuses.values())
+        for s in summary.stages:
+            log.info("stage %s", s)
+        say(f"run {run_id}: {len(config['night'])} night(s), tasks on {runner.description}")
+        with runner:
+            for entry in config["night"]:
+                run.night(entry)
+        run.campaign()
+        status = "completed"
+    except KeyboardInterrupt:
+        status = "interrupted"
+        raise
+    finally:
+        summary.status = status
+        summary.seconds = time.perf_counter() - started
+        store.end_run(run_id, status)
+        log.info("summary\n%s", summary.format())
+        store.close()
+        root.removeHandler(handler)
+        root.setLevel(old_level)
+        handler.close()
+    return summary

@@ -1,0 +1,219 @@
+"""The work done on one science frame, in a worker process.
+
+:func:`process_frame` is a picklable top-level function of plain data: a dict describing the frame
+and a dict of what every frame of the night shares (the master calibrations, stage options). It
+calls the stages' public functions only, catches each stage's failure, records it, and goes on
+with what can still be done. It never touches the campaign store: it returns a
+:class:`~photpipe.campaign.FrameRecord` for the parent process to store.
+"""
+
+import functools
+import hashlib
+import os
+import traceback
+
+import numpy as np
+from astropy import units as u
+
+from .records import FrameRecord
+from .stages import stage_function
+
+__all__ = ["process_frame", "FRAME_ERRORS"]
+
+#: Exceptions a stage raises for bad input; anything else is reported with its traceback's last
+#: line, since it points at a bug rather than at the data.
+FRAME_ERRORS = (ValueError, TypeError, KeyError, OSError, RuntimeError, ArithmeticError)
+
+#: Geometry columns of ``observing_geometry`` -> stored column.
+_GEOMETRY_MAP = {"r_h": "r_h_au", "delta": "delta_au", "phase": "phase_deg",
+                 "elong": "elong_deg", "ra": "ra_deg", "dec": "dec_deg",
+                 "light_time": "light_time_s"}
+
+
+def _reason(exc, info):
+    """One line for the skip list: the stage's own message, or the type and place of a bug.
+
+    A leading frame name or path is dropped: the skip list names the frame already, and equal
+    reasons can then be counted together.
+    """
+    text = getattr(exc, "problem", None) or str(exc) or type(exc).__name__
+    for prefix in (info.path, os.path.basename(info.path), info.name):
+        if text.startswith(f"{prefix}: "):
+            text = text[len(prefix) + 2:]
+            break
+    if isinstance(exc, FRAME_ERRORS):
+        return text
+    where = traceback.extract_tb(exc.__traceback__)[-1]
+    return f"{type(exc).__name__}: {text} (at {os.path.basename(where.filename)}:{where.lineno})"
+
+
+@functools.lru_cache(maxsize=4)
+def _reference_stars(path, mtime_ns, bands, colour):
+    read = stage_function("photometry", "read_reference_stars")
+    return read(path, bands=list(bands) if bands else None, colour=colour)
+
+
+def _calibrations_used(masters, info):
+    bias, dark, flat, _ = masters.choose(info)
+    used = []
+    for master in (bias, dark, flat):
+        if master is None:
+            continue
+        row = {"kind": master.kind, "path": master.path, "n_inputs": master.n_frames}
+        if master.kind == "dark":
+            row["exptime_s"] = master.key[3] / 1000.0
+        if master.kind == "flat":
+            row["filter"] = str(master.key[3])
+        used.append(row)
+    return tuple(used)
+
+
+def _geometry_dict(row):
+    if row is None:
+        return None
+    return {out: row[name][0] for name, out in _GEOMETRY_MAP.items() if name in row.colnames}
+
+
+def process_frame(item, shared):
+    """Calibrate and measure one science frame; return its `FrameRecord`.
+
+    Parameters
+    ----------
+    item : dict
+        ``night, site, info`` (`~photpipe.frames.FrameInfo`), ``content_hash``,
+        ``calibrated_path``, ``geometry`` (one-row QTable of ``observing_geometry`` or None).
+    shared : dict
+        ``masters`` (`~photpipe.frames.MasterSet`), ``stages`` (frame stages available, in
+        order), ``calibration`` / ``photometry`` / ``nucleus`` (keyword options of the stages'
+        functions) and ``reference_stars`` (path or None).
+
+    Returns
+    -------
+    FrameRecord
+        Results of each stage that succeeded, and ``problems`` naming each stage that did not
+        and why. A frame whose calibration fails carries only its problem.
+    """
+    info = item["info"]
+    stages = tuple(shared["stages"])
+    problems = []
+    base = dict(night=item["night"], frame=info.name, path=info.path,
+                content_hash=item["content_hash"], kind=info.kind,
+                mjd_utc_mid=float(info.time_mid.utc.mjd), filter=info.filter,
+                exptime_s=float(info.exptime.to_value(u.s)), site=item.get("site"),
+                stages=stages)
+    masters = shared["masters"]
+    try:
+        calibrations = _calibrations_used(masters, info)
+        frame = stage_function("calibration", "calibrate_frame")(
+            info, masters, **shared.get("calibration", {}))
+        calibrated_path = stage_function("calibration", "write_calibrated")(
+            frame, item["calibrated_path"])
+    except Exception as exc:  # noqa: BLE001 - one frame's failure is recorded, the night goes on
+        return FrameRecord(**base, problems=(("calibration", _reason(exc, info)),))
+
+    geometry_row = item.get("geometry")
+    record = dict(base, calibrations=calibrations, calibrated_path=str(calibrated_path),
+                  geometry=_geometry_dict(geometry_row))
+    if "geometry" in stages and geometry_row is None:
+        problems.append(("geometry", item.get("geometry_problem") or "no geometry row"))
+
+    photometry = None
+    if "photometry" in stages and geometry_row is not None:
+        try:
+            photometry = _run_photometry(frame, geometry_row, shared)
+        except Exception as exc:  # noqa: BLE001
+            problems.append(("photometry", _reason(exc, info)))
+        else:
+            record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
+                          zero_point=_zero_point_row(photometry))
+    if "nucleus" in stages and photometry is not None:
+        try:
+            record["nucleus"] = _run_nucleus(frame, photometry, item, shared)
+        except Exception as exc:  # noqa: BLE001
+            problems.append(("nucleus", _reason(exc, info)))
+    return FrameRecord(**record, problems=tuple(problems))
+
+
+def _run_photometry(frame, geometry_row, shared):
+    path = shared.get("reference_stars")
+    if path is None:
+        msg = "no reference-star file is configured ([photometry] reference_stars)"
+        raise ValueError(msg)
+    options = dict(shared.get("photometry", {}))
+    bands = (options.get("band", "R"),)
+    stars = _reference_stars(path, os.stat(path).st_mtime_ns, bands, options.get("colour"))
+    measure = stage_function("photometry", "measure_comet_frame")
+    return measure(frame, stars, geometry_row[0], **options)
+
+
+#: Field-star table of the photometry stage -> stored column.
+_STAR_MAP = {"id": "star_id", "ra": "ra_deg", "dec": "dec_deg", "x": "x_pix", "y": "y_pix",
+             "flux": "flux_e_s", "flux_err": "flux_err_e_s", "inst_mag": "mag_inst",
+             "inst_mag_err": "mag_inst_err", "cat_mag": "mag_ref", "cat_mag_err": "mag_ref_err",
+             "colour": "colour_ref", "residual": "residual_mag", "used": "used"}
+
+
+def _star_rows(stars):
+    if stars is None:
+        return None
+    names = [n for n in _STAR_MAP if n in stars.colnames]
+    return [{_STAR_MAP[n]: row[n] for n in names} for row in stars]
+
+
+def _zero_point_row(photometry):
+    zp = photometry.zero_point
+    row = {"zp_mag": zp.zp, "zp_err_mag": zp.zp_err, "colour_term": zp.colour_term,
+           "colour_term_err": zp.colour_term_err, "n_stars": zp.n_stars,
+           "n_rejected": zp.n_rejected, "rms_mag": zp.rms, "chi2_red": zp.chi2_red,
+           "band": zp.band, "aperture_correction": zp.aperture_correction,
+           "flags": ",".join(photometry.flags)}
+    fwhm_pix = photometry.details.get("fwhm_pix")
+    scale = _pixel_scale_arcsec(photometry.wcs)
+    if fwhm_pix is not None and scale is not None:
+        row["fwhm_arcsec"] = float(fwhm_pix) * scale
+    if len(photometry.comet) and "airmass" in photometry.comet.colnames:
+        row["airmass"] = photometry.comet["airmass"][0]
+    return row
+
+
+def _pixel_scale_arcsec(wcs):
+    if wcs is None:
+        return None
+    from astropy.wcs.utils import proj_plane_pixel_scales
+
+    return float(np.mean(proj_plane_pixel_scales(wcs.celestial)) * 3600.0)
+
+
+def _seed(text):
+    """A reproducible seed from a frame's content hash, so a re-run draws the same numbers."""
+    return int(hashlib.sha256(text.encode()).hexdigest()[:16], 16)
+
+
+def _run_nucleus(frame, photometry, item, shared):
+    options = dict(shared.get("nucleus", {}))
+    comet = photometry.comet
+    if len(comet) == 0:
+        msg = "the photometry stage gave no comet position"
+        raise ValueError(msg)
+    x0 = float(u.Quantity(comet["x_pix"][0]).value)
+    y0 = float(u.Quantity(comet["y_pix"][0]).value)
+    stars = photometry.stars
+    star_xy = np.column_stack([u.Quantity(stars["x"]).value, u.Quantity(stars["y"]).value]) \
+        if stars is not None and len(stars) else np.zeros((0, 2))
+    scale = _pixel_scale_arcsec(photometry.wcs or frame.wcs)
+    if scale is None:
+        msg = "no WCS to give the pixel scale"
+        raise ValueError(msg)
+    pixel_scale = scale * u.arcsec / u.pix
+    psf_options = options.pop("psf", {})
+    fwhm_pix = photometry.details.get("fwhm_pix")
+    if fwhm_pix is not None and np.isfinite(fwhm_pix):
+        psf_options.setdefault("fallback_fwhm", float(fwhm_pix))
+    psf = stage_function("nucleus", "measure_psf")(frame, star_xy, exclude_xy=(x0, y0),
+                                                    **psf_options)
+    zp = photometry.zero_point
+    fit = stage_function("nucleus", "fit_nucleus")(
+        frame, x0, y0, psf, pixel_scale=pixel_scale, zero_point=zp.zp,
+        zero_point_err=zp.zp_err, star_xy=star_xy,
+        rng=np.random.default_rng(_seed(item["content_hash"])), **options)
+    return fit.to_row()

@@ -1,0 +1,79 @@
+"""Small synthetic nights and configurations for the pipeline tests (photpipe.scenario).
+
+The nights follow the invented demo comet (orbit and site of ``configs/demo.toml``) on a small
+128x128 camera, so every stage that is installed has something real to measure.
+"""
+
+from pathlib import Path
+
+import numpy as np
+from astropy import units as u
+from astropy.coordinates import SkyCoord
+from astropy.time import Time
+
+from photpipe.cli.config import load_config
+from photpipe.scenario import Instrument, make_star_field, render_night
+from photpipe.scenario.demo import demo_exposures
+
+ROOT = Path(__file__).resolve().parents[2]
+DEMO = ROOT / "configs" / "demo.toml"
+
+SMALL = Instrument(shape=(128, 128), pixel_scale=1.5 * u.arcsec, pattern_seed=11,
+                   name="invented small test camera")
+
+
+def _geometry(times):
+    """Geometry of the demo comet at ``times`` (the project's own geometry stage if installed)."""
+    config = load_config(DEMO)
+    try:
+        from photpipe.cli._geometry_settings import geometry_for_times
+    except ImportError:
+        geometry_for_times = None
+    if geometry_for_times is not None:
+        return geometry_for_times(config, config["night"][0], times)
+    from astropy.table import QTable
+    n = len(times)
+    # A fixed track: only used while the geometry stage is not installed.
+    return QTable({"ra": np.linspace(51.0, 51.01, n) * u.deg,
+                   "dec": np.linspace(28.0, 28.005, n) * u.deg,
+                   "r_h": np.full(n, 1.35) * u.AU, "delta": np.full(n, 0.55) * u.AU,
+                   "phase": np.full(n, 40.0) * u.deg})
+
+
+def render_small_night(folder, *, start="2026-12-01T02:10:00", n_science=4, seed=1,
+                       calibrations=True, stars_path=None):
+    """Render a night of ``n_science`` 128x128 science frames (plus calibrations) to ``folder``.
+
+    Returns the NightTruth; writes the reference stars to ``stars_path`` when given.
+    """
+    rng = np.random.default_rng(seed)
+    times = Time(start, scale="utc") + np.arange(n_science) * 12 * u.min
+    geom = _geometry(times)
+    exposures = demo_exposures(times, geom, phase_function=lambda phase: 1.0, rng=rng)
+    center = SkyCoord(np.mean(geom["ra"]), np.mean(geom["dec"]))
+    stars = make_star_field(center, 6 * u.arcmin, n_stars=500, mag_range=(18.5, 14.0), rng=rng)
+    if stars_path is not None:
+        stars.write(stars_path, overwrite=True)
+    counts = dict(n_bias=3, n_dark=2, n_flat=2) if calibrations else dict(
+        n_bias=0, n_dark=0, n_flat=0)
+    return render_night(folder, SMALL, exposures, stars=stars, rng=rng, **counts)
+
+
+def write_config(folder, nights, *, stars_path=None, results="results", extra=""):
+    """Write a campaign TOML in ``folder`` naming ``nights`` (folders); return its path."""
+    demo = DEMO.read_text()
+    orbit = demo[demo.index("[target.orbit]"):demo.index("[geometry]")]
+    lines = ['[campaign]', 'name = "test campaign (invented)"', f'results = "{results}"', '']
+    for path in nights:
+        lines += ['[[night]]', f'path = "{path}"', 'site = "kettle_rock"', '']
+    lines += ['[sites.kettle_rock]', 'longitude_deg = -111.42', 'latitude_deg = 34.17',
+              'height_m = 1710.0', '', '[target]', 'name = "Vesperine"', '', orbit]
+    if stars_path is not None:
+        lines += ['[photometry]', f'reference_stars = "{stars_path}"',
+                  'apertures_km = [5000.0, 10000.0]', 'min_stars = 3', '',
+                  '[nucleus]', 'cutout_pix = 41', 'bootstrap = 5',
+                  'psf_methods = ["moffat"]', '']
+    lines.append(extra)
+    path = Path(folder) / "campaign.toml"
+    path.write_text("\n".join(lines))
+    return path
