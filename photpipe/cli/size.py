@@ -181,7 +181,7 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation_path=None):
         optional ``reduced_mag``, ``mjd_utc_mid``, ``light_time_s``, ``flags``).
     out_dir : str or path-like
         Results folder; ``size.json`` goes there and ``rotation.json`` is read from it when
-        present (a period makes H a phase-binned mean over the rotation).
+        present (a period makes H the mean of a Fourier fit over the rotation).
     rotation_path : str or path-like, optional
         A rotation result to use instead of ``<out_dir>/rotation.json``.
 
@@ -230,9 +230,10 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation_path=None):
         times = _plain(rows["mjd_utc_mid"])
         if "light_time_s" in rows.colnames:
             times = times - _plain(rows["light_time_s"]) / 86400.0
-        h = mean_absolute_magnitude(reduced, errors, method="phase-binned", times=times * u.day,
+        h = mean_absolute_magnitude(reduced, errors, method="harmonic", times=times * u.day,
                                     period=float(period_h) * u.h)
-        notes.append(f"H averaged over rotational phase bins at the period {float(period_h):g} h")
+        notes.append(f"H is the constant term of a 4-harmonic Fourier fit in flux at the "
+                     f"rotation period {float(period_h):g} h (light-time corrected times)")
     else:
         h = mean_absolute_magnitude(reduced, errors, method="flux-mean")
     if rotation is not None and rotation.get("amplitude_mag") is not None:

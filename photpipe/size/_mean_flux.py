@@ -5,7 +5,7 @@ import numpy as np
 __all__ = ["flux_mean"]
 
 
-def flux_mean(mag, err, *, times=None, period=None, n_bins=None):
+def flux_mean(mag, err, *, times=None, period=None, n_bins=None, n_harmonics=None):
     """Return ``(mean flux, its error, flags)`` with every point weighted equally.
 
     Fluxes are ``10^(-0.4 m)``. The error is the larger of the propagated measurement error

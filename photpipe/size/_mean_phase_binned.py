@@ -5,7 +5,7 @@ import numpy as np
 __all__ = ["phase_binned_mean"]
 
 
-def phase_binned_mean(mag, err, *, times=None, period=None, n_bins=8):
+def phase_binned_mean(mag, err, *, times=None, period=None, n_bins=8, n_harmonics=None):
     """Return ``(mean flux, its error, flags)`` giving each rotational phase bin equal weight.
 
     Points are folded at ``period`` (same unit as ``times``); each filled bin contributes its

@@ -9,12 +9,14 @@ from astropy import units as u
 from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.size._mean_flux import flux_mean
+from photpipe.size._mean_harmonic import harmonic_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
 
 __all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude"]
 
-#: Method name -> function(mag, err, *, times, period, n_bins) -> (flux, flux_err, flags).
-MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean}
+#: Method name -> function(mag, err, *, times, period, n_bins, n_harmonics) -> (flux, error, flags).
+MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean,
+                "harmonic": harmonic_mean}
 
 _LN10_04 = 0.4 * np.log(10.0)
 
@@ -67,7 +69,7 @@ class AbsoluteMagnitude:
     method : str
         Averaging method (a key of `MEAN_METHODS`).
     flags : tuple of str
-        ``single_point``, ``sparse_rotation_coverage`` or empty.
+        ``single_point``, ``sparse_rotation_coverage``, ``few_points_for_harmonics`` or empty.
     """
 
     H: float
@@ -83,23 +85,28 @@ class AbsoluteMagnitude:
 
 
 def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean", times=None,
-                            period=None, n_bins=8):
+                            period=None, n_bins=8, n_harmonics=4):
     """Average a reduced lightcurve over rotation into the absolute magnitude H.
 
     Parameters
     ----------
     reduced_mag, reduced_mag_err : array-like or `~astropy.units.Quantity` ['mag']
         Reduced magnitudes m(1, 1, 0) and their errors; non-finite rows are dropped.
-    method : {"flux-mean", "phase-binned"}, optional
-        ``"flux-mean"``: mean flux of all points. ``"phase-binned"``: fold at ``period`` and
-        give each of ``n_bins`` phase bins equal weight (uneven sampling of the rotation then
-        does not bias H).
+    method : {"flux-mean", "harmonic", "phase-binned"}, optional
+        ``"flux-mean"``: mean flux of all points. ``"harmonic"``: constant term of a Fourier
+        series in flux fitted at ``period`` (unbiased by uneven sampling of the rotation; the
+        choice when the period is known). ``"phase-binned"``: fold at ``period`` and give each
+        of ``n_bins`` phase bins equal weight (model-free, but biased when points crowd one
+        side of a bin).
     times : `~astropy.units.Quantity` ['time'] or `~astropy.time.Time`, optional
-        Observation times (light-time corrected), for ``"phase-binned"``.
+        Observation times (light-time corrected), for ``"harmonic"`` and ``"phase-binned"``.
     period : `~astropy.units.Quantity` ['time'], optional
-        Rotation period, for ``"phase-binned"``.
+        Rotation period, for ``"harmonic"`` and ``"phase-binned"``.
     n_bins : int, optional
-        Number of rotational phase bins.
+        Number of rotational phase bins (``"phase-binned"``).
+    n_harmonics : int, optional
+        Harmonics of the rotation frequency fitted (``"harmonic"``; 4 covers a double-peaked
+        lightcurve with unequal maxima).
 
     Returns
     -------
@@ -114,7 +121,8 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
     Warns
     -----
     PoorResultWarning
-        For a single point, or phase-binned coverage of less than half the bins.
+        For a single point, phase-binned coverage of less than half the bins, or too few points
+        for the harmonics asked.
 
     Notes
     -----
@@ -145,15 +153,15 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
         msg = "'reduced_mag_err' must be >= 0"
         raise ValueError(msg)
     t = p = None
-    if method == "phase-binned":
+    if method != "flux-mean":
         if times is None or period is None:
-            msg = "method 'phase-binned' needs both 'times' and 'period'"
+            msg = f"method {method!r} needs both 'times' and 'period'"
             raise ValueError(msg)
         t_all = times.mjd if hasattr(times, "mjd") else as_value(times, u.day, "times")
         t = np.atleast_1d(np.asarray(t_all, dtype=float))[good]
         p = as_positive_value(period, u.day, "period")
     flux, flux_err, flags = MEAN_METHODS[method](m[good], e[good], times=t, period=p,
-                                                 n_bins=int(n_bins))
+                                                 n_bins=int(n_bins), n_harmonics=int(n_harmonics))
     result = AbsoluteMagnitude(H=float(-2.5 * np.log10(flux)),
                                H_err=float(flux_err / flux / _LN10_04),
                                n_points=int(good.sum()), method=method, flags=tuple(flags))

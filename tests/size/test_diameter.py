@@ -63,7 +63,8 @@ def test_radius_is_half_diameter_and_quantity_H_accepted():
     pytest.param(1.5, id="above-one"), pytest.param(np.nan, id="nan"),
 ])
 def test_bad_albedo(albedo):
-    with pytest.raises(ValueError, match=re.escape("'albedo' must be a geometric albedo in (0, 1]")):
+    match = re.escape("'albedo' must be a geometric albedo in (0, 1]")
+    with pytest.raises(ValueError, match=match):
         diameter_from_H(15.0, albedo)
 
 

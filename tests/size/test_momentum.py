@@ -1,8 +1,7 @@
 import pytest
 from astropy import units as u
 
-from photpipe.size import (compare_with_bound, momentum_mass_bound, radius_from_H,
-                           radius_from_mass)
+from photpipe.size import compare_with_bound, momentum_mass_bound, radius_from_H, radius_from_mass
 
 G_CM3 = u.g / u.cm**3
 Q, V = 150 * u.kg / u.s, 440 * u.m / u.s
