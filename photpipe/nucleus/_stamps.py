@@ -54,7 +54,8 @@ def cut_star_stamps(frame, star_xy, *, size, min_snr=30.0, max_stars=25, isolati
         if ix - half < 0 or iy - half < 0 or ix + half >= nx or iy + half >= ny:
             dropped["edge"] += 1
             continue
-        if exclude_xy is not None and np.hypot(x - exclude_xy[0], y - exclude_xy[1]) < exclude_radius:
+        near = exclude_xy is not None and np.hypot(x - exclude_xy[0], y - exclude_xy[1])
+        if exclude_xy is not None and near < exclude_radius:
             dropped["excluded"] += 1
             continue
         d = np.hypot(xy[:, 0] - x, xy[:, 1] - y)
