@@ -6,9 +6,9 @@ quadrature) and the chance that any quiet night of the campaign would lie as hig
 how poorly a few nights pin the scatter down, is below ``max_false_alarm``. An outburst starts
 at a bright night whose previous night was not bright, provided the rise from that night is
 itself significant (``jump_sigma``), so that a slow drift away from a power law is not called
-an outburst. The event lasts while the nights stay above
-``quiet_sigma``; those nights are kept out of the trend fit, which is repeated until the set of
-outburst nights no longer changes.
+an outburst. The event lasts while the nights stay above ``quiet_sigma`` or keep a quarter of the
+onset's excess (in dex); those nights are kept out of the trend fit, which is repeated until the
+set of outburst nights no longer changes.
 """
 
 import warnings
@@ -25,6 +25,9 @@ from photpipe.activity._inputs import prepare
 from photpipe.activity.nights import bin_nights
 from photpipe.activity.powerlaw import brightening_mag
 from photpipe.activity.trend import ActivityTrend, _nights_table, fit_trend_to_nights
+
+#: An event goes on while a night keeps at least this fraction of the onset's excess (in dex).
+_TAIL_FRACTION = 0.25
 
 __all__ = ["ActivityAnalysis", "analyse_activity", "find_outbursts", "outbursts_in_nights"]
 
@@ -148,7 +151,10 @@ def outbursts_in_nights(nights, *, sigma=5.0, jump_sigma=3.0, quiet_sigma=2.0,
             continue
         event = [i]
         pos += 1
-        while pos < idx.size and z[idx[pos]] > quiet_sigma:
+        # The event lasts while the nights stay significantly high or keep a good part of the
+        # onset's excess (a decaying outburst left in the fit would inflate the scatter).
+        while pos < idx.size and (z[idx[pos]] > quiet_sigma
+                                  or r[idx[pos]] > _TAIL_FRACTION * r[i]):
             # A second sudden rise inside an event starts a new outburst.
             k_prev, k = idx[pos - 1], idx[pos]
             if bright[k] and jump_of(k, k_prev) > jump_sigma:

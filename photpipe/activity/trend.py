@@ -398,8 +398,8 @@ def fit_activity_trend(time, r_h, afrho, afrho_err, *, perihelion_time, rho=None
         Which aperture to fit; default the one with the most rows (ties: nearest 10 000 km).
     method : {'scatter', 'clip', 'robust'}
         ``scatter`` (default): weighted least squares with an intrinsic night-to-night scatter
-        (restricted likelihood, marginalised for the errors); ``clip``: weighted least squares with iterated
-        3σ clipping and Birge-ratio error scaling; ``robust``: Cauchy-loss fit.
+        (restricted likelihood, marginalised for the errors); ``clip``: weighted least squares
+        with iterated 3σ clipping and Birge-ratio error scaling; ``robust``: Cauchy-loss fit.
     exclude : ndarray of bool, shape (n,), optional
         Rows to leave out (e.g. nights in outburst).
     night_gap : `~astropy.units.Quantity` ['time'], optional
