@@ -41,11 +41,18 @@ class Prepared:
     """
 
     def __init__(self, bias, bias_var, dark_rate, dark_var, flat, flat_var, quality, *,
-                 exptime, gain, read_noise):
+                 exptime, gain, read_noise, dark_exptime=None):
         t, g = float(exptime), float(gain)
         if dark_rate is None:
             dark_rate = np.zeros_like(bias)
-            dark_var = np.zeros_like(bias)
+            offset_var = bias_var
+        else:
+            # offset = (1 - t/t_d) B + (t/t_d) mean(dark frames): the master bias enters twice,
+            # with opposite signs, so its noise is counted once with that weight. The dark
+            # master's variance includes the bias term var_B / t_d**2, taken out here.
+            t_d = float(dark_exptime)
+            own = np.maximum(dark_var - bias_var / t_d**2, 0.0)
+            offset_var = (1.0 - t / t_d) ** 2 * bias_var + t**2 * own
         dark_adu = dark_rate * t
         usable = np.isfinite(flat) & (flat > 0) & np.isfinite(bias) & np.isfinite(dark_adu)
         f = np.where(usable, flat, np.nan).astype(np.float32)
@@ -53,7 +60,7 @@ class Prepared:
         self.gain_over_flat = (g / f).astype(np.float32)
         self.poisson_factor = (g / f**2).astype(np.float32)
         const = (g * np.maximum(dark_adu, 0.0) + float(read_noise) ** 2
-                 + (g * DIGITISATION_SIGMA_ADU) ** 2 + g**2 * (bias_var + t**2 * dark_var))
+                 + (g * DIGITISATION_SIGMA_ADU) ** 2 + g**2 * offset_var)
         self.constant_var = (const / f**2).astype(np.float32)
         self.flat_relvar = (flat_var / f**2).astype(np.float32)
         q = np.asarray(quality, np.uint16).copy()
@@ -65,7 +72,7 @@ class Prepared:
 
 
 @functools.lru_cache(maxsize=4)
-def _prepared_cached(bias_path, dark_path, flat_path, exptime, gain, read_noise):
+def _prepared_cached(bias_path, dark_path, flat_path, exptime, gain, read_noise, dark_exptime):
     from .masters import load_master
 
     bias = load_master(bias_path)
@@ -76,7 +83,8 @@ def _prepared_cached(bias_path, dark_path, flat_path, exptime, gain, read_noise)
         quality = quality | dark.quality
     return Prepared(bias.value, bias.variance, None if dark is None else dark.value,
                     None if dark is None else dark.variance, flat.value, flat.variance,
-                    quality, exptime=exptime, gain=gain, read_noise=read_noise)
+                    quality, exptime=exptime, gain=gain, read_noise=read_noise,
+                    dark_exptime=dark_exptime)
 
 
 def prepare_calibration(bias, dark, flat, *, exptime, gain, read_noise):
@@ -85,7 +93,8 @@ def prepare_calibration(bias, dark, flat, *, exptime, gain, read_noise):
     Cached per process on the file names and the exposure and detector values.
     """
     return _prepared_cached(bias.path, None if dark is None else dark.path, flat.path,
-                            float(exptime), float(gain), float(read_noise))
+                            float(exptime), float(gain), float(read_noise),
+                            None if dark is None else dark.key[3] / 1000.0)
 
 
 def apply_calibration(raw, prepared, *, saturation):
@@ -115,13 +124,16 @@ def apply_calibration(raw, prepared, *, saturation):
 
         d = G x / F, \qquad
         \sigma_d^2 = \frac{G \max(x, 0) + G \max(R t, 0) + N_R^2 + G^2\sigma_f^2
-                     + G^2(\sigma_B^2 + t^2 \sigma_R^2)}{F^2}
-                     + d^2 \frac{\sigma_F^2}{F^2}
+                     + G^2 \sigma_o^2}{F^2} + d^2 \frac{\sigma_F^2}{F^2}
 
-    the Poisson noise of the collected source, sky and dark electrons, the read noise, the
-    digitisation noise (sigma_f = 1/sqrt(12) adu), and the noise of the masters, propagated
-    to first order; per pixel these are the terms of the CCD equation (Merline & Howell 1995).
-    The dark electrons' Poisson term uses the master's rate, not the noisy frame.
+    with, in order, the Poisson noise of the collected source, sky and dark electrons, the read
+    noise, the digitisation noise (sigma_f = 1/sqrt(12) adu) and the noise of the masters,
+    propagated to first order; per pixel these are the terms of the CCD equation (Merline &
+    Howell 1995). The dark electrons' Poisson term uses the master's rate, not the noisy frame.
+    :math:`\sigma_o^2 = (1 - t/t_d)^2 \sigma_B^2 + t^2 \sigma_{R,own}^2` is the variance of the
+    subtracted offset ``B + R t`` for a rate measured from darks of exposure ``t_d``: the master
+    bias enters the rate and the offset with opposite signs, so its noise is counted once with
+    that weight (``\sigma_{R,own}`` is the rate's variance without the bias's share).
     """
     data = np.subtract(raw, prepared.offset, dtype=np.float32)
     var = np.maximum(data, 0.0)
@@ -231,7 +243,8 @@ def calibrate_frame(frame, masters, *, detect_cosmics=True, cosmic_method="lacos
     history.append(f"saturated: {n_sat} pixels at or above {saturation:g} adu")
     if detect_cosmics:
         ignore = quality != 0
-        hits = find_cosmic_rays(data, var, ignore, read_noise=read_noise,
+        saturated = (quality & np.uint16(Quality.SATURATED)) > 0
+        hits = find_cosmic_rays(data, var, ignore, read_noise=read_noise, saturated=saturated,
                                 method=cosmic_method, **dict(cosmic_options or {}))
         quality[hits] |= np.uint16(Quality.COSMIC_RAY)
         history.append(f"cosmic rays: {int(hits.sum())} pixels flagged by {cosmic_method}"

@@ -5,13 +5,22 @@ mask of pixels to ignore, and returns a boolean mask of cosmic-ray hits.
 """
 
 import numpy as np
+from scipy import ndimage
 
 __all__ = ["lacosmic_mask", "COSMIC_METHODS", "find_cosmic_rays"]
 
 _LACOSMIC_DEFAULTS = {"sigclip": 4.5, "sigfrac": 0.3, "objlim": 5.0, "niter": 4}
+_EDGE_PAD = 8          # pixels of mirrored frame added on each side
+_SATURATED_GROW = 6    # pixels around saturated areas left out of the search
 
 
-def lacosmic_mask(data, variance, ignore, *, read_noise, **options):
+def _disk(radius):
+    y, x = np.mgrid[-radius:radius + 1, -radius:radius + 1]
+    return x**2 + y**2 <= radius**2
+
+
+def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ratio=0.2,
+                  **options):
     """Cosmic-ray hits by Laplacian edge detection (L.A.Cosmic, van Dokkum 2001).
 
     Parameters
@@ -24,6 +33,13 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, **options):
         Pixels to leave out (saturated, non-finite, bad).
     read_noise : float
         Read noise in electrons.
+    saturated : ndarray of bool, optional
+        Saturated pixels; the search also leaves out pixels within 6 of them.
+    star_ratio : float or None, optional
+        A flagged group is released when the median of its brightest pixel's 8 neighbours,
+        above the local background, is at least this fraction of that pixel's own excess: the
+        core of a star (a PSF of FWHM above about 1.5 pixels) rather than a hit, whose
+        neighbours are sky. None turns the check off.
     **options
         ``sigclip``, ``sigfrac``, ``objlim``, ``niter`` and the other options of
         ``astroscrappy.detect_cosmics``.
@@ -38,22 +54,60 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, **options):
     in the Laplacian of the sub-sampled image relative to the noise (``sigclip``), and in the
     ratio of the Laplacian to a fine-structure image (``objlim``), which spares stars. The
     implementation is astroscrappy's; it is given the variance plane, so the noise includes
-    the flat field and the masters' own noise.
+    the flat field and the masters' own noise. Two guards keep stars from being taken for hits:
+    the frame is mirrored 8 pixels past its edges (``edge_pad`` option) so a star cut by the
+    edge still has two flanks, and the steep wings around saturated cores are left out; then
+    flagged groups shaped like a star's core are released (``star_ratio``, an in-house rule:
+    L.A.Cosmic's growth step can spread from one sharp pixel over a bright star's core).
     """
     import astroscrappy
 
     opts = dict(_LACOSMIC_DEFAULTS)
     opts.update(options)
-    clean = np.where(ignore | ~np.isfinite(data), 0.0, data).astype(np.float32)
-    var = np.where(ignore | ~np.isfinite(variance), float(read_noise) ** 2,
-                   variance).astype(np.float32)
-    mask, _ = astroscrappy.detect_cosmics(clean, inmask=np.asarray(ignore, bool), invar=var,
+    pad = int(opts.pop("edge_pad", _EDGE_PAD))
+    ignore = np.asarray(ignore, bool)
+    if saturated is not None and np.any(saturated):
+        # the steep wings around a saturated core look sharp to the Laplacian: leave them out
+        ignore = ignore | ndimage.binary_dilation(saturated, structure=_disk(_SATURATED_GROW))
+    bad = ignore | ~np.isfinite(data) | ~np.isfinite(variance)
+    clean = np.where(bad, 0.0, data)
+    var = np.where(bad, float(read_noise) ** 2, variance)
+    # mirror the frame past its edges so a star cut by the edge keeps both of its flanks
+    clean = np.pad(clean, pad, mode="symmetric").astype(np.float32)
+    var = np.pad(var, pad, mode="symmetric").astype(np.float32)
+    padmask = np.pad(bad, pad, mode="symmetric")
+    mask, _ = astroscrappy.detect_cosmics(clean, inmask=padmask, invar=var,
                                           gain=1.0, readnoise=float(read_noise),
                                           satlevel=np.inf, verbose=False, **opts)
-    return np.asarray(mask, dtype=bool) & ~ignore
+    mask = np.asarray(mask, dtype=bool)[pad:-pad, pad:-pad] if pad else np.asarray(mask, bool)
+    mask &= ~bad
+    if star_ratio is not None and star_ratio > 0:
+        mask = _drop_star_like(mask, np.where(bad, np.nan, data), star_ratio)
+    return mask
 
 
-def _no_cosmics(data, variance, ignore, *, read_noise, **options):
+def _drop_star_like(mask, data, ratio):
+    """Unflag groups whose brightest pixel has bright neighbours, as a star's core has."""
+    labels, n = ndimage.label(mask, structure=np.ones((3, 3), bool))
+    if n == 0:
+        return mask
+    ny, nx = data.shape
+    peaks = ndimage.maximum_position(np.nan_to_num(data, nan=-np.inf), labels, range(1, n + 1))
+    keep = np.ones(n + 1, bool)
+    for k, (y, x) in enumerate(peaks, 1):
+        box = data[max(0, y - 4):y + 5, max(0, x - 4):x + 5]
+        ring = data[max(0, y - 1):y + 2, max(0, x - 1):x + 2].ravel().tolist()
+        ring.remove(data[y, x])
+        background = np.nanmedian(box)
+        excess = data[y, x] - background
+        neighbours = np.nanmedian(ring) - background if np.isfinite(ring).any() else 0.0
+        if excess > 0 and neighbours >= ratio * excess:
+            keep[k] = False
+    keep[0] = False
+    return keep[labels]
+
+
+def _no_cosmics(data, variance, ignore, *, read_noise, saturated=None, **options):
     return np.zeros(np.shape(data), dtype=bool)
 
 
@@ -61,7 +115,8 @@ def _no_cosmics(data, variance, ignore, *, read_noise, **options):
 COSMIC_METHODS = {"lacosmic": lacosmic_mask, "none": _no_cosmics}
 
 
-def find_cosmic_rays(data, variance, ignore, *, read_noise, method="lacosmic", **options):
+def find_cosmic_rays(data, variance, ignore, *, read_noise, saturated=None, method="lacosmic",
+                     **options):
     """Boolean mask of cosmic-ray hits, by the named method of `COSMIC_METHODS`.
 
     Examples
@@ -78,4 +133,5 @@ def find_cosmic_rays(data, variance, ignore, *, read_noise, method="lacosmic", *
     if method not in COSMIC_METHODS:
         msg = f"cosmic-ray method must be one of {sorted(COSMIC_METHODS)}, got {method!r}"
         raise ValueError(msg)
-    return COSMIC_METHODS[method](data, variance, ignore, read_noise=read_noise, **options)
+    return COSMIC_METHODS[method](data, variance, ignore, read_noise=read_noise,
+                                  saturated=saturated, **options)
