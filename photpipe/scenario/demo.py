@@ -20,7 +20,7 @@ __all__ = ["DEMO_INSTRUMENT", "DEMO_TRUTH", "demo_nucleus_mag", "demo_a0frho", "
 
 #: The invented camera: a 0.6 m f/4 reflector with a 400x400 crop of a 15 µm CCD (1.5"/pix).
 DEMO_INSTRUMENT = Instrument(
-    shape=(400, 400), pixel_scale=1.5 * u.arcsec, gain=1.6 * u.electron / u.adu,
+    shape=(400, 400), pixel_scale=1.5 * u.arcsec, gain=2.0 * u.electron / u.adu,
     read_noise=8.0 * u.electron, bias_level=1050 * u.adu, saturation=60000 * u.adu,
     dark_rate=0.03 * u.electron / u.s, pattern_seed=2026,
     name="invented 0.6 m f/4 reflector, CCD (demo)")
@@ -38,7 +38,7 @@ DEMO_TRUTH = {
     "zero_point_mag": 23.8,             # magnitude giving 1 electron/s
     "sky_mag_arcsec2": 20.6,
     "m_sun": -27.15,                    # Cousins R, Vega (Willmer 2018, ApJS 236, 47)
-    "exptime_s": 60.0,
+    "exptime_s": 40.0,
 }
 
 
@@ -109,7 +109,7 @@ def demo_exposures(times, geometry, *, phase_function, rng=None):
             time=time, exptime=t["exptime_s"] * u.s, pointing=pointing, comet=comet,
             filter=t["band"], fwhm=rng.uniform(2.3, 3.1) * u.arcsec,
             sky_rate=sky * u.electron / u.s, zero_point=t["zero_point_mag"],
-            wcs_offset_pix=tuple(rng.normal(0, 2.0, 2))))
+            wcs_offset_pix=tuple(rng.normal(0, 1.5, 2))))
     return out
 
 
