@@ -18,7 +18,7 @@ def _kernel():
 
 
 def de421_range_jd():
-    """First and last TDB Julian date covered by the DE421 package (1899-07-29 to 2053-10-09)."""
+    """First and last TDB Julian date the ``de421`` package covers (1899-12-04 to 2200-02-01)."""
     k = _kernel()
     return float(k.jalpha), float(k.jomega)
 
