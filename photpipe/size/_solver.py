@@ -18,7 +18,8 @@ def bracketed_root(func, lo, hi, *, xtol=1e-9, rtol=1e-12, maxiter=200):
         Brackets, broadcast to one shape; ``func(lo)`` and ``func(hi)`` must differ in sign
         (or be zero).
     xtol, rtol : float
-        Stop when the bracket is narrower than ``xtol + rtol |x|``.
+        Stop when the bracket is narrower than ``xtol + rtol |x|``, or a regula-falsi step
+        moved the estimate by less than that.
     maxiter : int
         Iteration cap (a bisection step is forced whenever regula falsi stalls).
 
@@ -70,8 +71,11 @@ def bracketed_root(func, lo, hi, *, xtol=1e-9, rtol=1e-12, maxiter=200):
         new_fa = np.where(flip, fbi, 0.5 * fai)
         a[idx], fa[idx], b[idx], fb[idx] = new_a, new_fa, c, fc
         x[idx] = c
-        width = np.abs(b[idx] - a[idx])
-        done[idx] = (fc == 0) | (width <= xtol + rtol * np.abs(c))
+        tol = xtol + rtol * np.abs(c)
+        # converged when the bracket is narrow, or a regula-falsi step moved less than tol
+        # (the Illinois halving keeps such steps from stalling on one side)
+        small_step = (np.abs(c - bi) <= tol) & (it % 3 != 2)
+        done[idx] = (fc == 0) | (np.abs(b[idx] - a[idx]) <= tol) | small_step
     if not np.all(done):
         msg = f"root not found to tolerance in {maxiter} iterations for {np.sum(~done)} element(s)"
         raise RuntimeError(msg)
