@@ -235,15 +235,25 @@ def _remove_filter_offsets(lc, flags):
     return y
 
 
+def _degenerate(fit, y):
+    """True when a fit's curve is far larger than the data allow (sampling degeneracy)."""
+    amp = fit.amplitude
+    return not np.isfinite(amp) or amp > 1.5 * float(np.ptp(y)) + 0.05
+
+
 def _odd_harmonics_p(t, y, dy, f_high, order_high, *, half_width):
-    """p-value that the curve at ``f_high/2`` differs from two identical halves."""
+    """p-value that the curve at ``f_high/2`` differs from two identical halves.
+
+    NaN when the sampling cannot constrain the curve at ``f_high/2`` (e.g. a period commensurate
+    with the day, where the harmonics are degenerate with the nightly gaps).
+    """
     fit_full = fit_fourier_series(t, y, dy, f_high, order_high, search_half_width=half_width)
     fit_half = fit_fourier_series(t, y, dy, f_high / 2, 2 * order_high,
                                   search_half_width=half_width / 2)
     n_extra = 2 * order_high
     dof = t.size - (4 * order_high + 2)
-    if dof <= 0:
-        return 1.0, fit_full, fit_half
+    if dof <= 0 or _degenerate(fit_half, y):
+        return float("nan"), fit_full, fit_half
     fstat = (max(fit_full.chi2 - fit_half.chi2, 0.0) / n_extra) / (fit_half.chi2 / dof)
     return float(stats.f.sf(fstat, n_extra, dof)), fit_full, fit_half
 
@@ -272,6 +282,10 @@ def _significant_maxima(fit):
     return max(count, 1)
 
 
+def _finite_or_none(x):
+    return float(x) if x is not None and np.isfinite(x) else None
+
+
 def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefer_double,
                   half_width):
     """Return (frequency, order, evidence) of the adopted single/double-peaked solution."""
@@ -282,33 +296,36 @@ def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefe
         if m < 2 or 2 * f > f_max * (1 + 1e-9):
             break
         p, _, _ = _odd_harmonics_p(t, y, dy, 2 * f, m // 2, half_width=half_width)
-        steps.append({"test": "odd harmonics at the start", "period_h": 24 / f, "p": p})
-        if p < significance:
+        steps.append({"test": "odd harmonics at the start", "period_h": 24 / f,
+                      "p": _finite_or_none(p)})
+        if not p >= significance:  # significant, or untestable: stay
             break
         f, m = 2 * f, max(1, m // 2)
     # Down: do the two halves of the doubled period differ significantly?
-    p_down = None
+    p_down, moved_down, p_moved = None, False, None
     for _ in range(3):
         if f / 2 < f_min * (1 - 1e-9):
             break
         p_down, _, fit_half = _odd_harmonics_p(t, y, dy, f, m, half_width=half_width)
         steps.append({"test": "odd harmonics at twice the period", "period_h": 48 / f,
-                      "p": p_down})
-        if p_down >= significance:
+                      "p": _finite_or_none(p_down)})
+        if not p_down < significance:  # not significant, or untestable
             break
-        f, m = fit_half.frequency, 2 * m
+        f, m, moved_down, p_moved = fit_half.frequency, 2 * m, True, p_down
     fit = fit_fourier_series(t, y, dy, f, m, search_half_width=half_width)
     n_max = _significant_maxima(fit)
+    double_testable = f / 2 >= f_min * (1 - 1e-9) and not (p_down is not None
+                                                            and np.isnan(p_down))
     evidence = {"tests": steps, "maxima_per_cycle_at_shortest_repeat": n_max,
                 "significance": significance}
-    if n_max >= 2:
+    if moved_down or n_max >= 2:
         choice = "double-peaked"
         reason = (f"the lightcurve at {24 / f:.4f} h shows {n_max} maxima per cycle"
-                  + (" and its two halves differ (odd harmonics significant)"
-                     if any(s["p"] < significance for s in steps
-                            if s["test"].startswith("odd harmonics at twice")) else ""))
+                  if not moved_down else
+                  f"the two halves of the {24 / f:.4f} h lightcurve differ (odd harmonics "
+                  f"significant, p = {p_moved:.2g})")
         adopted_f, adopted_m = f, m
-    elif prefer_double and f / 2 >= f_min * (1 - 1e-9):
+    elif prefer_double and double_testable:
         choice = "double-peaked (assumed)"
         p_txt = f"p = {p_down:.2g}" if p_down is not None else "untested"
         reason = (f"one maximum per {24 / f:.4f} h cycle and the two halves of "
@@ -318,9 +335,14 @@ def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefe
         adopted_f, adopted_m = f / 2, 2 * m
     else:
         choice = "single-peaked"
-        reason = (f"one maximum per {24 / f:.4f} h cycle; "
-                  + ("twice that period lies outside the search range"
-                     if prefer_double else "single-peaked interpretation requested"))
+        if not prefer_double:
+            why = "single-peaked interpretation requested"
+        elif f / 2 < f_min * (1 - 1e-9):
+            why = "twice that period lies outside the search range"
+        else:
+            why = ("the sampling cannot constrain the curve at twice that period (it is "
+                   "commensurate with the nightly gaps)")
+        reason = f"one maximum per {24 / f:.4f} h cycle; {why}"
         adopted_f, adopted_m = f, m
     evidence.update({"choice": choice, "reason": reason,
                      "single_peaked_period_h": 24 / f if n_max < 2 else 12 / f})
@@ -371,7 +393,7 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
                     oversample=10, max_order=4, order_criterion="bic", ls_nterms=2,
                     pdm_bins=10, pdm_covers=2, prefer_double_peaked=True, use_points="auto",
                     coma_fraction=None, amplitude_phase_slope=0.015 / u.deg,
-                    significance=0.01, alias_delta_chi2=10.0, n_candidates=5, min_points=12):
+                    significance=1e-3, alias_delta_chi2=10.0, n_candidates=5, min_points=12):
     """Search a reduced lightcurve for the nucleus rotation period.
 
     Parameters
