@@ -118,3 +118,36 @@ def test_h_without_lightcurve():
     empty = AbsoluteMagnitude(H=14.0, H_err=0.1, n_points=0, method="flux-mean")
     with pytest.raises(ValueError, match="H with no lightcurve behind it"):
         assess_nucleus(empty, band="V")
+
+
+def test_truth_recovery_from_demo_scenario_lightcurve():
+    # synthetic truth from the project's generator (photpipe.scenario.demo): H_R = 14.0, a
+    # double-peaked 0.30 mag lightcurve at 5.4 h, linear phase law 0.035 mag/deg
+    from astropy.time import Time
+    from scipy.special import i0
+
+    from photpipe.scenario.demo import DEMO_TRUTH, demo_nucleus_mag
+    from photpipe.size import mean_absolute_magnitude, reduce_magnitude
+
+    rng = np.random.default_rng(2026)
+    mjd = DEMO_TRUTH["rotation_epoch_mjd"] + np.sort(rng.uniform(0, 2.0, 90))
+    r_h = (1.31 + 0.01 * (mjd - mjd[0])) * u.au
+    delta = (0.62 + 0.015 * (mjd - mjd[0])) * u.au
+    phase = (48.0 - 0.4 * (mjd - mjd[0])) * u.deg
+    m = demo_nucleus_mag(Time(mjd, format="mjd"), r_h, delta, phase).to_value(u.mag)
+    m = m + rng.normal(0, 0.02, m.size)
+    reduced = reduce_magnitude(m, r_h, delta, phase,
+                               phase_coefficient=DEMO_TRUTH["nucleus_phase_coeff_mag_deg"]
+                               * u.mag / u.deg)
+    h = mean_absolute_magnitude(reduced, np.full(m.size, 0.02), method="harmonic",
+                                times=mjd * u.day, period=DEMO_TRUTH["rotation_period_h"] * u.h)
+    # rotation mean in flux of m = H + (A/2) cos 2φ: H - 2.5 log10 I0(0.4 ln10 A/2) (exact)
+    truth = DEMO_TRUTH["nucleus_H_mag"] - 2.5 * np.log10(
+        i0(0.4 * np.log(10) * DEMO_TRUTH["rotation_amplitude_mag"] / 2))
+    assert abs(h.H - truth) < 3 * h.H_err and h.H_err < 0.01
+    res = assess_nucleus(h, band=DEMO_TRUTH["band"], m_sun=DEMO_TRUTH["m_sun"], albedo=0.04,
+                         n_samples=20_000, rng=4)
+    r_true = 0.5 * diameter_from_H(truth, 0.04, m_sun=DEMO_TRUTH["m_sun"]).to_value(u.km)
+    assert res.radius_km == pytest.approx(r_true, rel=0.01)
+    half_width = 0.5 * (res.radius_hi_km - res.radius_lo_km)  # about 1 sigma
+    assert abs(res.radius_km - r_true) < 3 * half_width
