@@ -1,14 +1,14 @@
 """Finding stars in a calibrated frame: global sky level, peak detection, centroids and FWHM.
 
 Detection runs photutils' ``find_peaks`` on a signal-to-noise image made from the data and the
-variance plane, binned ``binning`` × ``binning`` first (sums of data and of variance) and
-band-pass filtered with a difference of Gaussians (σ and 4σ), the usual approximation of a
-Laplacian-of-Gaussian detector (Marr & Hildreth 1980, Proc. R. Soc. B 207, 187). The band pass
-removes smooth light, so the noise on a bright coma does not turn into thousands of false peaks;
-the whole thing is several times faster than a matched-filter finder on a full 2048 × 2048 frame
-and, for a PSF of FWHM ≳ 3 pixels, loses nothing that the zero point needs. Centroids are then
-measured on the full resolution frame with photutils' ``centroid_sources`` (one pass of a
-centre-of-mass box on the peak pixel). The FWHM comes from a closed-form fit of a circular
+variance plane, binned ``binning`` × ``binning`` first (sums of data and of variance; a 4 × 4
+block collects most of the light of a star of FWHM ≈ 3 pixels, close to a matched filter), with
+the mean of the surrounding ``background_box`` blocks subtracted. Subtracting the local mean
+removes smooth light, so the noise on a bright coma does not turn into thousands of false peaks.
+This is several times faster than a matched-filter finder on a full 2048 × 2048 frame and loses
+nothing the zero point needs. Centroids are then measured on the full-resolution frame with
+photutils' ``centroid_sources`` and ``centroid_quadratic`` (a quadratic fitted to the brightest
+pixels in a box around each peak). The FWHM comes from a closed-form fit of a circular
 Gaussian to the log of each star's core (Caruana's method with the weights of Guo 2011), checked
 in the tests against photutils' ``psf.fit_fwhm``, which is about a hundred times slower.
 """
@@ -18,10 +18,10 @@ import warnings
 import numpy as np
 from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
-from photutils.centroids import centroid_com, centroid_sources
+from photutils.centroids import centroid_quadratic, centroid_sources
 from photutils.detection import find_peaks
 from photutils.utils.exceptions import NoDetectionsWarning
-from scipy.ndimage import gaussian_filter
+from scipy.ndimage import uniform_filter
 
 __all__ = ["sky_statistics", "detect_sources", "measure_fwhm"]
 
@@ -68,23 +68,25 @@ def sky_statistics(data, good, *, step=4):
 
 
 def _bin(a, b):
+    """Sum ``b`` x ``b`` blocks (strided slices: much faster than a reshape-sum)."""
     ny, nx = (a.shape[0] // b) * b, (a.shape[1] // b) * b
-    return a[:ny, :nx].reshape(ny // b, b, nx // b, b).sum(axis=(1, 3))
+    out = None
+    for dy in range(b):
+        for dx in range(b):
+            part = a[dy:ny:b, dx:nx:b]
+            out = part.astype(np.float64) if out is None else out + part
+    return out
 
 
-def _band_pass_snr(signal, variance, sigma):
-    """Signal-to-noise of a difference-of-Gaussians (σ, 4σ) filtered image."""
-    dog = gaussian_filter(signal, sigma) - gaussian_filter(signal, 4.0 * sigma)
-    probe = np.zeros((int(16 * sigma) | 1,) * 2)
-    probe[probe.shape[0] // 2, probe.shape[1] // 2] = 1.0
-    kernel = gaussian_filter(probe, sigma) - gaussian_filter(probe, 4.0 * sigma)
-    local_var = gaussian_filter(variance, 4.0 * sigma) * np.sum(kernel**2)
+def _contrast_snr(signal, variance, size):
+    """Signal above the local mean (a ``size`` x ``size`` box), over its noise."""
+    local = uniform_filter(signal, size=size, mode="nearest")
     with np.errstate(invalid="ignore", divide="ignore"):
-        return dog / np.sqrt(np.where(local_var > 0, local_var, np.inf))
+        return (signal - local) / np.sqrt(np.where(variance > 0, variance, np.inf))
 
 
-def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=2, box_size=5,
-                   centroid_box=7, max_sources=3000, n_centroid=120, smooth=1.0):
+def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_size=3,
+                   centroid_box=9, max_sources=3000, n_centroid=150, background_box=5):
     """Detect point-like sources and measure their centroids.
 
     Parameters
@@ -105,8 +107,8 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=2, box_s
         Box (odd, full-resolution pixels) of the centre-of-mass centroid.
     max_sources : int, optional
         Keep at most this many sources, highest signal-to-noise first.
-    smooth : float, optional
-        σ in binned pixels of the inner Gaussian of the band-pass filter.
+    background_box : int, optional
+        Side, in binned pixels, of the box whose mean is the local background.
     n_centroid : int, optional
         Measure centroids for this many sources (highest signal-to-noise first); the others keep
         the position of their peak pixel, which is enough to mask them.
@@ -129,12 +131,12 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=2, box_s
     >>> len(src), abs(float(src["x"][0]) - 30.3) < 0.1, abs(float(src["y"][0]) - 20.6) < 0.1
     (1, True, True)
     """
-    work = np.where(good, data, sky) - sky
-    var = np.where(good, variance, np.nanmedian(variance[::8, ::8]))
+    work = np.where(good, data - np.float32(sky), np.float32(0.0))
+    var = np.where(good, variance, np.float32(0.0))
     b = max(int(binning), 1)
-    sig_b = _bin(work, b) if b > 1 else work
-    var_b = _bin(var, b) if b > 1 else var
-    snr = _band_pass_snr(sig_b, var_b, smooth)
+    sig_b = _bin(work, b) if b > 1 else work.astype(np.float64)
+    var_b = _bin(var, b) if b > 1 else var.astype(np.float64)
+    snr = _contrast_snr(sig_b, var_b, int(background_box))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NoDetectionsWarning)
         peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
@@ -148,14 +150,13 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=2, box_s
     x0 = b * xb + (b - 1) / 2.0
     y0 = b * yb + (b - 1) / 2.0
     box = int(centroid_box) | 1
-    positive = np.clip(work, 0.0, None)
     x, y = x0.copy(), y0.copy()
     nc = min(int(n_centroid), len(x0))
     if nc:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            xn, yn = centroid_sources(positive, x0[:nc], y0[:nc], box_size=box,
-                                      centroid_func=centroid_com)
+            xn, yn = centroid_sources(work, x0[:nc], y0[:nc], box_size=box,
+                                      centroid_func=centroid_quadratic)
         ok = np.isfinite(xn) & np.isfinite(yn) & (np.hypot(xn - x0[:nc], yn - y0[:nc]) <= box)
         x[:nc] = np.where(ok, xn, x0[:nc])
         y[:nc] = np.where(ok, yn, y0[:nc])

@@ -55,8 +55,15 @@ def refine_comet_centre(data, mask, x_pred, y_pred, *, sky, box, max_shift, iter
     (21.4, 19.2, 'ok')
     """
     radius = max(int(box) // 2, 2) + 0.5
-    work = np.where(mask | ~np.isfinite(data), 0.0, np.clip(data - sky, 0.0, None))
-    x, y = float(x_pred), float(y_pred)
+    # work on a cutout that holds every window the bounded iteration can reach
+    reach = int(np.ceil(max_shift + radius)) + 2
+    ny, nx = data.shape
+    x0, y0 = max(int(x_pred) - reach, 0), max(int(y_pred) - reach, 0)
+    x1, y1 = min(int(x_pred) + reach + 2, nx), min(int(y_pred) + reach + 2, ny)
+    cut = np.asarray(data[y0:y1, x0:x1], dtype=float)
+    work = np.where(mask[y0:y1, x0:x1] | ~np.isfinite(cut), 0.0, np.clip(cut - sky, 0.0, None))
+    x, y = float(x_pred) - x0, float(y_pred) - y0
+    xp, yp = x, y
     status = "ok"
     for _ in range(iterations):
         weights = CircularAperture((x, y), r=radius).to_mask(method="exact")
@@ -66,14 +73,14 @@ def refine_comet_centre(data, mask, x_pred, y_pred, *, sky, box, max_shift, iter
         w = weights.data * cut
         total = w.sum()
         if not total > 0:
-            return (x, y, status) if (x, y) != (x_pred, y_pred) else (x, y, "failed")
+            return x + x0, y + y0, (status if (x, y) != (xp, yp) else "failed")
         bb = weights.bbox
         yy, xx = np.mgrid[bb.iymin:bb.iymax, bb.ixmin:bb.ixmax]
         xn, yn = float((w * xx).sum() / total), float((w * yy).sum() / total)
-        if np.hypot(xn - x_pred, yn - y_pred) > max_shift:
-            return x, y, "at_limit"
+        if np.hypot(xn - xp, yn - yp) > max_shift:
+            return x + x0, y + y0, "at_limit"
         done = np.hypot(xn - x, yn - y) < 0.002
         x, y = xn, yn
         if done:
             break
-    return x, y, status
+    return x + x0, y + y0, status
