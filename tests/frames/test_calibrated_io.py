@@ -1,0 +1,71 @@
+import os
+import re
+
+import numpy as np
+import pytest
+from astropy import units as u
+from astropy.io import fits
+
+from photpipe.frames import FrameError, calibrate_frame, read_calibrated, write_calibrated
+from photpipe.frames.types import CalibratedFrame
+
+
+@pytest.fixture
+def frame(scenario_night):
+    info = scenario_night["plan"].science[3]
+    frame = calibrate_frame(info, scenario_night["masters"])
+    frame.history.append("note: " + "a long line that must survive the 72-character FITS "
+                         "card limit without being cut or split into two entries")
+    return frame
+
+
+def test_round_trip(frame, tmp_path):
+    path = write_calibrated(frame, tmp_path / "cal" / "sci.fits")
+    back = read_calibrated(path)
+    np.testing.assert_array_equal(back.data, frame.data)
+    np.testing.assert_array_equal(back.variance, frame.variance)
+    np.testing.assert_array_equal(back.quality, frame.quality)
+    assert back.info == frame.info
+    assert back.history == frame.history and back.flags == frame.flags == ("dark_scaled",)
+    assert back.name == frame.name == "sci_0004"
+    # the WCS maps pixels to the same sky positions
+    xy = np.array([[0.0, 0.0], [100.0, 50.0]])
+    np.testing.assert_allclose(back.wcs.all_pix2world(xy, 0), frame.wcs.all_pix2world(xy, 0),
+                               atol=1e-10)
+    with fits.open(path) as hdul:
+        assert [h.name for h in hdul] == ["PRIMARY", "DATA", "VARIANCE", "QUALITY"]
+        assert hdul["DATA"].header["BUNIT"] == "electron"
+        assert hdul["VARIANCE"].header["BUNIT"] == "electron2"
+        assert hdul["QUALITY"].header["QBIT3"] == "COSMIC_RAY"
+        assert hdul[0].header["PPRAW"] == frame.info.path
+        assert hdul[0].header["EXPTIME"] == frame.info.exptime.to_value(u.s)
+
+
+def test_failed_write_leaves_old_file_and_no_temporary(frame, tmp_path, monkeypatch):
+    path = tmp_path / "sci.fits"
+    path.write_bytes(b"previous result")
+
+    def broken(self, fileobj, **kw):
+        fileobj.write(b"half a file")
+        raise OSError("disk full")
+    monkeypatch.setattr(fits.HDUList, "writeto", broken)
+    with pytest.raises(OSError, match="disk full"):
+        write_calibrated(frame, path)
+    assert path.read_bytes() == b"previous result"
+    assert os.listdir(tmp_path) == ["sci.fits"]
+
+
+def test_read_raw_frame_is_refused(scenario_night):
+    raw = scenario_night["plan"].science[0].path
+    with pytest.raises(FrameError, match=re.escape("not a photpipe calibrated frame")):
+        read_calibrated(raw)
+
+
+def test_write_wrong_type(tmp_path):
+    with pytest.raises(TypeError, match="'frame' must be a CalibratedFrame, got dict"):
+        write_calibrated({}, tmp_path / "x.fits")
+
+
+def test_mismatched_planes_rejected(frame):
+    with pytest.raises(ValueError, match="data, variance and quality planes differ in shape"):
+        CalibratedFrame(frame.info, frame.data, frame.variance[:-1], frame.quality)

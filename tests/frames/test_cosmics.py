@@ -1,0 +1,53 @@
+import numpy as np
+import pytest
+
+from photpipe.frames import COSMIC_METHODS, find_cosmic_rays
+
+
+def _star_field(rng, shape=(80, 80), sky=800.0, fwhm=2.2, n_stars=12):
+    y, x = np.mgrid[0:shape[0], 0:shape[1]]
+    img = np.full(shape, sky)
+    alpha = fwhm / (2 * np.sqrt(2 ** (1 / 3) - 1))   # Moffat beta = 3 (Moffat 1969)
+    cores = []
+    for _ in range(n_stars):
+        x0, y0 = rng.uniform(-1, shape[1]), rng.uniform(-1, shape[0])
+        flux = 10 ** rng.uniform(4, 6)
+        prof = (1 + ((x - x0) ** 2 + (y - y0) ** 2) / alpha**2) ** -3.0
+        img += flux * prof / (np.pi * alpha**2 / 2)   # integral of the beta = 3 profile
+        cores.append((int(np.clip(round(y0), 0, shape[0] - 1)),
+                      int(np.clip(round(x0), 0, shape[1] - 1))))
+    return img, cores
+
+
+def test_hits_found_and_stars_spared():
+    rng = np.random.default_rng(21)
+    truth, cores = _star_field(rng)
+    data = rng.poisson(truth) + rng.normal(0, 6, truth.shape)
+    hits = np.zeros(truth.shape, bool)
+    for _ in range(15):
+        yy, xx = rng.integers(3, 77, 2)
+        data[yy, xx] += rng.uniform(1500, 8000)
+        hits[yy, xx] = True
+    variance = truth + 36.0
+    mask = find_cosmic_rays(data, variance, np.zeros(truth.shape, bool), read_noise=6.0)
+    assert (mask & hits).sum() / hits.sum() >= 0.9
+    assert not any(mask[c] and not hits[c] for c in cores)
+    assert (mask & ~hits).sum() <= 3
+
+
+def test_ignored_pixels_never_flagged():
+    rng = np.random.default_rng(2)
+    data = rng.normal(500.0, 23.0, (40, 40))
+    data[10, 10] += 5000.0
+    ignore = np.zeros(data.shape, bool)
+    ignore[10, 10] = True
+    mask = find_cosmic_rays(data, np.full(data.shape, 529.0), ignore, read_noise=5.0)
+    assert not mask[10, 10]
+
+
+def test_methods_table():
+    assert set(COSMIC_METHODS) == {"lacosmic", "none"}
+    data = np.ones((8, 8))
+    assert not find_cosmic_rays(data, data, data < 0, read_noise=1.0, method="none").any()
+    with pytest.raises(ValueError, match="cosmic-ray method must be one of"):
+        find_cosmic_rays(data, data, data < 0, read_noise=1.0, method="median")
