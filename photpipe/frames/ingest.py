@@ -175,6 +175,9 @@ def read_frame_info(path, *, kind_map=None, defaults=None):
         header = merged_header(hdul, index)
         shape = tuple(int(n) for n in hdul[index].shape[-2:])
 
+    if "PPKIND" in header or "PPMASTER" in header:
+        what = "master calibration" if "PPMASTER" in header else f"{header['PPKIND']} frame"
+        raise FrameError(path, f"is a photpipe {what}, not a raw frame")
     type_value = header.get(kind_map.keyword)
     if type_value is None:
         raise FrameError(path, f"header has no {kind_map.keyword} (the frame-type keyword)")

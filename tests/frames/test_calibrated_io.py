@@ -6,7 +6,13 @@ import pytest
 from astropy import units as u
 from astropy.io import fits
 
-from photpipe.frames import FrameError, calibrate_frame, read_calibrated, write_calibrated
+from photpipe.frames import (
+    FrameError,
+    calibrate_frame,
+    read_calibrated,
+    read_frame_info,
+    write_calibrated,
+)
 from photpipe.frames.types import CalibratedFrame
 
 
@@ -59,6 +65,15 @@ def test_read_raw_frame_is_refused(scenario_night):
     raw = scenario_night["plan"].science[0].path
     with pytest.raises(FrameError, match=re.escape("not a photpipe calibrated frame")):
         read_calibrated(raw)
+
+
+def test_products_are_not_taken_for_raw_frames(frame, scenario_night, tmp_path):
+    path = write_calibrated(frame, tmp_path / "sci_cal.fits")
+    with pytest.raises(FrameError, match=re.escape("is a photpipe calibrated frame, not a raw")):
+        read_frame_info(path)
+    (master, *_) = scenario_night["masters"].masters
+    with pytest.raises(FrameError, match=re.escape("is a photpipe master calibration, not")):
+        read_frame_info(master.path)
 
 
 def test_write_wrong_type(tmp_path):
