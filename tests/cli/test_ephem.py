@@ -1,0 +1,181 @@
+"""``photpipe ephem`` and the configuration-to-geometry settings."""
+
+import numpy as np
+import pytest
+from astropy import units as u
+from astropy.table import QTable, Table
+from astropy.time import Time
+
+from photpipe.cli._geometry_settings import (
+    caution_limit,
+    geometry_for_times,
+    location_for_night,
+    orbit_from_config,
+)
+from photpipe.cli.config import ConfigError, load_config
+from photpipe.cli.ephem import parse_step, time_grid
+from photpipe.cli.main import main
+from photpipe.geometry import Orbit, observing_geometry
+
+ORBIT = """[target.orbit]
+q_au = 1.31
+e = 2.85
+i_deg = 137.6
+node_deg = 57.4
+peri_deg = 2.6
+perihelion_time = "2026-11-20T09:30:00"
+"""
+
+
+def _config(tmp_path, *, orbit=ORBIT, site="latitude_deg = 34.17", geometry="",
+            target='name = "Vesperine"'):
+    text = f"""[campaign]
+name = "test"
+results = "results"
+
+[[night]]
+path = "night1"
+site = "kettle_rock"
+
+[sites.kettle_rock]
+longitude_deg = -111.42
+{site}
+height_m = 1710.0
+
+[target]
+{target}
+
+{orbit}
+[geometry]
+{geometry}
+"""
+    path = tmp_path / "campaign.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_ephem_prints_and_writes_ecsv(tmp_path, capsys):
+    cfg = _config(tmp_path)
+    out = tmp_path / "eph.ecsv"
+    code = main(["ephem", str(cfg), "--start", "2026-12-01T00:00", "--stop",
+                 "2026-12-01T06:00", "--step", "1h", "--output", str(out)])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert "Vesperine: geometry from orbit, observer kettle_rock, ephemeris builtin; 7 rows" in text
+    assert "SUN CAUTION" not in text
+    table = QTable.read(out, format="ascii.ecsv")
+    assert len(table) == 7 and table["delta"].unit == u.au
+    # the file holds what observing_geometry gives for the same site and times
+    cfg_dict = load_config(cfg)
+    ref = observing_geometry(orbit_from_config(cfg_dict), Time(table["time"]),
+                             location=location_for_night(cfg_dict, 0))
+    np.testing.assert_allclose(table["ra"].to_value(u.deg), ref["ra"].to_value(u.deg),
+                               rtol=0, atol=1e-9)
+    # one printed line per row, RA and Dec sexagesimal
+    rows = [line for line in text.splitlines() if line.startswith("2026-12-01 0")]
+    assert len(rows) == 7 and rows[0].split()[1] == "00:00"
+
+
+def test_ephem_shows_the_caution_when_close_to_the_sun(tmp_path, capsys):
+    # the limit is configurable; 179 deg makes every row "close" for this check
+    cfg = _config(tmp_path, geometry="caution_elongation_deg = 179.0")
+    code = main(["ephem", str(cfg), "--start", "2026-12-01T00:00", "--stop",
+                 "2026-12-01T02:00", "--step", "1h", "--site", "geocentre",
+                 "--output", str(tmp_path / "e.ecsv")])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert text.count("SUN CAUTION: the target comes within") == 2   # above and below
+    assert "experienced observers" in text
+    assert all(line.endswith("SUN") for line in text.splitlines() if line.startswith("2026"))
+    table = QTable.read(tmp_path / "e.ecsv", format="ascii.ecsv")
+    assert "SUN CAUTION" in table.meta["caution"]
+    assert set(table["flags"]) == {"near_sun"}
+    assert table.meta["observer"] == "geocentre"
+
+
+@pytest.mark.parametrize(("kw", "argv", "text"), [
+    pytest.param({"orbit": ORBIT.replace("e = 2.85", "e = -0.2")}, [],
+                 "[target.orbit] e must be >= 0, got -0.2", id="negative-e"),
+    pytest.param({"orbit": ORBIT.replace("q_au = 1.31", "q_au = 0.0")}, [],
+                 "[target.orbit] q_au must be > 0, got 0.0", id="zero-q"),
+    pytest.param({"orbit": ORBIT.replace("q_au = 1.31\n", "")}, [],
+                 "[target.orbit] is missing q_au", id="missing-q"),
+    pytest.param({"orbit": ORBIT.replace("i_deg = 137.6", 'i_deg = "steep"')}, [],
+                 "[target.orbit] i_deg must be a number, got 'steep'", id="text-value"),
+    pytest.param({"orbit": ORBIT.replace('"2026-11-20T09:30:00"', '"soon"')}, [],
+                 "[target.orbit] perihelion_time is not a readable time", id="bad-time"),
+    pytest.param({"orbit": ""}, [], "no [target.orbit] section", id="no-orbit"),
+    pytest.param({"site": "latitude_deg = 134.17"}, [],
+                 "[sites.kettle_rock]: site 'kettle_rock': latitude must be within -90 and 90 deg,"
+                 " got 134.17 deg", id="impossible-site"),
+    pytest.param({"geometry": 'ephemeris = "de999"'}, [],
+                 "[geometry] ephemeris must be one of ['builtin', 'de421'], got 'de999'",
+                 id="unknown-ephemeris"),
+    pytest.param({}, ["--site", "nowhere"], "no [sites.nowhere] section", id="unknown-site"),
+    pytest.param({}, ["--step", "fortnight"], "--step 'fortnight': give a number", id="step"),
+    pytest.param({}, ["--stop", "2026-11-30T00:00"], "is before --start", id="stop-first"),
+])
+def test_bad_settings_are_reported(tmp_path, capsys, kw, argv, text):
+    cfg = _config(tmp_path, **kw)
+    opts = {"--start": "2026-12-01T00:00", "--stop": "2026-12-01T02:00",
+            "--output": str(tmp_path / "e.ecsv")}
+    opts.update(dict(zip(argv[0::2], argv[1::2], strict=True)))
+    final = ["ephem", str(cfg)] + [x for kv in opts.items() for x in kv]
+    assert main(final) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("photpipe ephem: ")
+    assert text in err
+    assert not (tmp_path / "e.ecsv").exists()
+
+
+def test_mean_anomaly_elements_and_night_site(tmp_path):
+    orbit = """[target.orbit]
+a_au = 3.1
+e = 0.62
+i_deg = 11.0
+node_deg = 200.0
+peri_deg = 15.0
+mean_anomaly_deg = 350.0
+epoch = 2026-12-01T00:00:00
+"""  # a TOML date-time literal is accepted as well as a string
+    cfg = load_config(_config(tmp_path, orbit=orbit))
+    orb = orbit_from_config(cfg)
+    assert isinstance(orb, Orbit) and orb.q.to_value(u.au) == pytest.approx(3.1 * 0.38)
+    assert orb.name == "Vesperine"
+    loc = location_for_night(cfg, cfg["night"][0])
+    assert loc.lat.to_value(u.deg) == pytest.approx(34.17)
+    assert caution_limit(cfg) == 20 * u.deg
+    mixed = load_config(_config(tmp_path, orbit=orbit + "q_au = 1.0\n"))
+    with pytest.raises(ConfigError, match="mixes the two ways of giving an orbit"):
+        orbit_from_config(mixed)
+
+
+def test_geometry_from_a_configured_ephemeris_table(tmp_path, capsys):
+    # an ephemeris table made from the same orbit stands in for the orbit
+    cfg = load_config(_config(tmp_path))
+    times = Time("2026-12-01T00:00", scale="utc") + np.arange(13) * u.hour
+    geo = geometry_for_times(cfg, 0, times)
+    table = Table(geo["time", "ra", "dec", "r_h", "delta", "phase"])
+    table.write(tmp_path / "mine.ecsv", format="ascii.ecsv")
+    path = _config(tmp_path, target='name = "Vesperine"\nephemeris_table = "mine.ecsv"')
+    cfg2 = load_config(path)
+    frames = times[2:5] + 20 * u.min
+    got = geometry_for_times(cfg2, cfg2["night"][0], frames)
+    want = geometry_for_times(cfg, 0, frames)
+    np.testing.assert_allclose(got["ra"].to_value(u.deg), want["ra"].to_value(u.deg), atol=1e-8)
+    assert got.meta["source"].endswith("mine.ecsv")
+    code = main(["ephem", str(path), "--start", "2026-12-01T01:00", "--stop",
+                 "2026-12-01T03:00", "--output", str(tmp_path / "e.ecsv")])
+    assert code == 0
+    assert "mine.ecsv" in capsys.readouterr().out
+
+
+def test_step_and_grid():
+    assert parse_step("90s") == 90 * u.s
+    assert parse_step("0.5d") == 0.5 * u.day
+    grid = time_grid("2026-12-01T00:00", "2026-12-02T00:00", parse_step("6h"))
+    assert len(grid) == 5 and grid[-1].isot == "2026-12-02T00:00:00.000"
+    with pytest.raises(ValueError, match="more than 200000; use a longer step"):
+        time_grid("2026-01-01", "2027-01-01", parse_step("1min"))
+    with pytest.raises(ValueError, match="--step '-1h'"):
+        parse_step("-1h")
