@@ -41,8 +41,9 @@ def refine_comet_centre(data, mask, x_pred, y_pred, *, sky, box, max_shift, iter
     overlaps from photutils (``CircularAperture.to_mask(method="exact")``). Because the window is
     always centred on the current estimate, the fixed point of the iteration is the centre of any
     symmetric profile, even one with the heavy 1/ρ wings of a coma that bias a fixed box toward its
-    own centre. Stars are masked by the caller, and the bound keeps the position from walking to a
-    brighter neighbour (common practice).
+    own centre. A masked pixel's mirror image through the current centre is left out too, so the
+    window stays symmetric around masked stars and bad pixels. Stars are masked by the caller,
+    and the bound keeps the position from walking to a brighter neighbour (common practice).
 
     Examples
     --------
@@ -61,7 +62,9 @@ def refine_comet_centre(data, mask, x_pred, y_pred, *, sky, box, max_shift, iter
     x0, y0 = max(int(x_pred) - reach, 0), max(int(y_pred) - reach, 0)
     x1, y1 = min(int(x_pred) + reach + 2, nx), min(int(y_pred) + reach + 2, ny)
     cut = np.asarray(data[y0:y1, x0:x1], dtype=float)
-    work = np.where(mask[y0:y1, x0:x1] | ~np.isfinite(cut), 0.0, np.clip(cut - sky, 0.0, None))
+    hidden = mask[y0:y1, x0:x1] | ~np.isfinite(cut)
+    work = np.where(hidden, 0.0, np.clip(cut - sky, 0.0, None))
+    hny, hnx = hidden.shape
     x, y = float(x_pred) - x0, float(y_pred) - y0
     xp, yp = x, y
     status = "ok"
@@ -70,12 +73,19 @@ def refine_comet_centre(data, mask, x_pred, y_pred, *, sky, box, max_shift, iter
         cut = weights.cutout(work, fill_value=0.0)
         if cut is None:
             return float(x_pred), float(y_pred), "failed"
-        w = weights.data * cut
+        bb = weights.bbox
+        yy, xx = np.mgrid[bb.iymin:bb.iymax, bb.ixmin:bb.ixmax]
+        # drop each hidden pixel's mirror image through the current centre as well, so that a
+        # masked star or bad column does not pull the centre of light to the other side
+        xr = np.round(2 * x - xx).astype(int)
+        yr = np.round(2 * y - yy).astype(int)
+        inside = (xr >= 0) & (xr < hnx) & (yr >= 0) & (yr < hny)
+        mirror = np.ones(xx.shape, bool)
+        mirror[inside] = hidden[yr[inside], xr[inside]]
+        w = weights.data * cut * ~mirror
         total = w.sum()
         if not total > 0:
             return x + x0, y + y0, (status if (x, y) != (xp, yp) else "failed")
-        bb = weights.bbox
-        yy, xx = np.mgrid[bb.iymin:bb.iymax, bb.ixmin:bb.ixmax]
         xn, yn = float((w * xx).sum() / total), float((w * yy).sum() / total)
         if np.hypot(xn - xp, yn - yp) > max_shift:
             return x + x0, y + y0, "at_limit"
