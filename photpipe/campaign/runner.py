@@ -97,6 +97,24 @@ def _guarded(func, item, shared):
     return outcome
 
 
+def _remote(func, item_bytes, shared_bytes):
+    """`_guarded` for a worker: inputs and outcome travel as pickles.
+
+    Dask's own serialisers treat ndarray subclasses as plain arrays, so an astropy Quantity
+    inside a task's inputs would arrive without its unit; pickling everything ourselves keeps
+    every object exactly as it was.
+    """
+    item = pickle.loads(item_bytes)
+    shared = None if shared_bytes is None else pickle.loads(shared_bytes)
+    outcome = _guarded(func, item, shared)
+    try:
+        return pickle.dumps(outcome, protocol=pickle.HIGHEST_PROTOCOL)
+    except Exception as exc:  # noqa: BLE001 - a result that cannot travel is a failed task
+        return pickle.dumps(_Outcome(False, kind=type(exc).__name__,
+                                     message=f"the task's result cannot be sent back: {exc}",
+                                     warnings=outcome.warnings, pid=outcome.pid))
+
+
 class TaskRunner:
     """A connection to the processes that run tasks, kept open over several batches.
 
@@ -241,11 +259,12 @@ class TaskRunner:
         from distributed import as_completed
 
         client = self._client
-        shared_arg = None if shared is None else client.scatter(shared, broadcast=True,
-                                                                hash=False)
+        shared_arg = None if shared is None else client.scatter(
+            pickle.dumps(shared, protocol=pickle.HIGHEST_PROTOCOL), broadcast=True, hash=False)
         futures = {}
         for index, item in enumerate(items):
-            future = client.submit(_guarded, func, item, shared_arg, pure=False,
+            payload = pickle.dumps(item, protocol=pickle.HIGHEST_PROTOCOL)
+            future = client.submit(_remote, func, payload, shared_arg, pure=False,
                                    key=f"photpipe-task-{os.getpid()}-{id(items)}-{index}")
             futures[future.key] = (future, item)
         pending = as_completed([f for f, _ in futures.values()])
@@ -256,7 +275,7 @@ class TaskRunner:
                     exc = future.exception()
                     outcome = _Outcome(False, kind=type(exc).__name__, message=_dask_message(exc))
                 else:
-                    outcome = future.result()
+                    outcome = pickle.loads(future.result())
                 future.release()
                 yield item, outcome
         finally:

@@ -37,7 +37,7 @@ def _reason(exc, info):
     reasons can then be counted together.
     """
     text = getattr(exc, "problem", None) or str(exc) or type(exc).__name__
-    for prefix in (info.path, os.path.basename(info.path), info.name):
+    for prefix in (info.path, os.path.basename(info.path), info.name, f"frame {info.name!r}"):
         if text.startswith(f"{prefix}: "):
             text = text[len(prefix) + 2:]
             break
@@ -205,7 +205,7 @@ def _run_nucleus(frame, photometry, item, shared):
         msg = "no WCS to give the pixel scale"
         raise ValueError(msg)
     pixel_scale = scale * u.arcsec / u.pix
-    psf_options = options.pop("psf", {})
+    psf_options = dict(options.pop("psf", {}))  # a copy: shared options stay as given
     fwhm_pix = photometry.details.get("fwhm_pix")
     if fwhm_pix is not None and np.isfinite(fwhm_pix):
         psf_options.setdefault("fallback_fwhm", float(fwhm_pix))

@@ -1,7 +1,7 @@
 """Small synthetic nights and configurations for the pipeline tests (photpipe.scenario).
 
 The nights follow the invented demo comet (orbit and site of ``configs/demo.toml``) on a small
-128x128 camera, so every stage that is installed has something real to measure.
+160x160 camera, so every stage that is installed has something real to measure.
 """
 
 from pathlib import Path
@@ -9,6 +9,7 @@ from pathlib import Path
 import numpy as np
 from astropy import units as u
 from astropy.coordinates import SkyCoord
+from astropy.table import QTable, vstack
 from astropy.time import Time
 
 from photpipe.cli.config import load_config
@@ -18,7 +19,7 @@ from photpipe.scenario.demo import demo_exposures
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "configs" / "demo.toml"
 
-SMALL = Instrument(shape=(128, 128), pixel_scale=1.5 * u.arcsec, pattern_seed=11,
+SMALL = Instrument(shape=(160, 160), pixel_scale=1.5 * u.arcsec, pattern_seed=11,
                    name="invented small test camera")
 
 
@@ -31,7 +32,6 @@ def _geometry(times):
         geometry_for_times = None
     if geometry_for_times is not None:
         return geometry_for_times(config, config["night"][0], times)
-    from astropy.table import QTable
     n = len(times)
     # A fixed track: only used while the geometry stage is not installed.
     return QTable({"ra": np.linspace(51.0, 51.01, n) * u.deg,
@@ -42,7 +42,7 @@ def _geometry(times):
 
 def render_small_night(folder, *, start="2026-12-01T02:10:00", n_science=4, seed=1,
                        calibrations=True, stars_path=None):
-    """Render a night of ``n_science`` 128x128 science frames (plus calibrations) to ``folder``.
+    """Render a night of ``n_science`` 160x160 science frames (plus calibrations) to ``folder``.
 
     Returns the NightTruth; writes the reference stars to ``stars_path`` when given.
     """
@@ -51,8 +51,12 @@ def render_small_night(folder, *, start="2026-12-01T02:10:00", n_science=4, seed
     geom = _geometry(times)
     exposures = demo_exposures(times, geom, phase_function=lambda phase: 1.0, rng=rng)
     center = SkyCoord(np.mean(geom["ra"]), np.mean(geom["dec"]))
-    stars = make_star_field(center, 6 * u.arcmin, n_stars=500, mag_range=(18.5, 14.0), rng=rng)
+    stars = make_star_field(center, 6 * u.arcmin, n_stars=300, mag_range=(19.0, 15.0), rng=rng)
     if stars_path is not None:
+        # One reference file for the campaign: each night adds the stars of its field.
+        stars_path = Path(stars_path)
+        if stars_path.exists():
+            stars = vstack([QTable.read(stars_path), stars])
         stars.write(stars_path, overwrite=True)
     counts = dict(n_bias=3, n_dark=2, n_flat=2) if calibrations else dict(
         n_bias=0, n_dark=0, n_flat=0)
@@ -70,7 +74,8 @@ def write_config(folder, nights, *, stars_path=None, results="results", extra=""
               'height_m = 1710.0', '', '[target]', 'name = "Vesperine"', '', orbit]
     if stars_path is not None:
         lines += ['[photometry]', f'reference_stars = "{stars_path}"',
-                  'apertures_km = [5000.0, 10000.0]', 'min_stars = 3', '',
+                  'apertures_km = [2000.0, 4000.0]', 'apertures_arcsec = [4.0]',
+                  'min_stars = 3', '',
                   '[nucleus]', 'cutout_pix = 41', 'bootstrap = 5',
                   'psf_methods = ["moffat"]', '']
     lines.append(extra)

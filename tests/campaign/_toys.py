@@ -43,3 +43,8 @@ class Unpicklable(Exception):
 
 def raise_unpicklable(x):
     raise Unpicklable(lambda: x)
+
+
+def quantity_sum(x, shared):
+    # Inputs with units must reach the worker with their units.
+    return (x["length"] + shared["offset"]).to("km")

@@ -1,6 +1,7 @@
 import logging
 
 import pytest
+from astropy import units as u
 
 from photpipe.campaign import TaskError, TaskRunner, run_tasks
 
@@ -52,10 +53,13 @@ def test_local_cluster_streams_results_and_survives_a_dead_worker():
     with TaskRunner(workers=2, progress=False) as runner:
         out = dict(runner.map(_toys.die_on_two, items))
         again = dict(runner.map(_toys.add_shared, [1, 2], shared={"offset": 5}))
+        (_, total), = runner.map(_toys.quantity_sum, [{"length": 1 * u.km}],
+                                 shared={"offset": 500 * u.m})
     assert {k: v for k, v in out.items() if k != 2} == {0: 0, 1: 1, 3: 3, 4: 4, 5: 5}
     assert isinstance(out[2], TaskError) and out[2].kind == "KilledWorker"
     assert "worker process died" in out[2].message
     assert again == {1: 6, 2: 7}
+    assert total.unit == u.km and total.value == 1.5
     assert len(runner.peak_memory_mb) >= 1
 
 
