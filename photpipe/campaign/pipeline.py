@@ -304,7 +304,7 @@ def _size_stage(run, lightcurve):
 
 def _report_stage(run, lightcurve):
     func = stage_function("report", "run_report_stage")
-    return func(run.config, run.store, run.results)
+    return func(run.config, run.store, out_dir=run.results)
 
 
 #: Campaign-level stages in the order they run (size reads the rotation result).
