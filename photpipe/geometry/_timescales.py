@@ -4,6 +4,8 @@ import erfa
 import numpy as np
 from scipy.interpolate import CubicSpline
 
+from photpipe.geometry._offline import offline_earth_orientation
+
 __all__ = ["tdb_parts"]
 
 #: Grid step (days) for TDB - TT when many epochs are converted. Its largest term is the annual
@@ -28,9 +30,11 @@ def tdb_parts(times):
     if times.scale == "tdb":
         return np.atleast_1d(times.jd1).astype(float), np.atleast_1d(times.jd2).astype(float)
     if times.scale in ("tcb", "tcg"):
-        t = times.tdb
+        with offline_earth_orientation():
+            t = times.tdb
         return np.atleast_1d(t.jd1).astype(float), np.atleast_1d(t.jd2).astype(float)
-    tt = times.tt
+    with offline_earth_orientation():
+        tt = times.tt
     jd1 = np.atleast_1d(tt.jd1).astype(float)
     jd2 = np.atleast_1d(tt.jd2).astype(float)
     base = np.floor(jd1.min())
