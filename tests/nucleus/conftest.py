@@ -102,3 +102,23 @@ def make_frame():
 @pytest.fixture
 def oracle():
     return oracle_comet
+
+
+@pytest.fixture
+def scenario():
+    return scenario_comet_frame
+
+
+@pytest.fixture
+def k_for_fraction():
+    return coma_k_for_fraction
+
+
+@pytest.fixture(scope="session")
+def star_frame():
+    """A scenario frame of stars only (Moffat FWHM 4 px, β = 3), noise added, and its truth."""
+    truth = scenario_comet_frame(nucleus_flux_e=0.0, coma_k_e=0.0, n_stars=60, seed=4,
+                                 shape=(241, 241))
+    frame = frame_from_signal(truth.signal, np.random.default_rng(4))
+    xy = np.column_stack([truth.stars["x"], truth.stars["y"]])
+    return frame, xy, truth

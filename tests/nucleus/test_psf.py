@@ -1,0 +1,70 @@
+import numpy as np
+import pytest
+from astropy import units as u
+
+from photpipe._warnings import PoorResultWarning
+from photpipe.nucleus import PSFModel, measure_psf
+
+
+@pytest.mark.slow
+def test_moffat_psf_recovers_scenario_fwhm(star_frame):
+    frame, xy, truth = star_frame
+    psf = measure_psf(frame, xy)
+    assert psf.n_stars >= 5
+    assert psf.flags == ()
+    assert set(psf.scores) == {"moffat", "epsf"}
+    # truth: the generator's FWHM (4.0 px) and β = 3, round PSF
+    assert psf.fwhm_pix == pytest.approx(truth.fwhm_pix, rel=0.03)
+    assert psf.ellipticity < 0.05
+    if psf.method == "moffat":
+        assert psf.beta == pytest.approx(3.0, rel=0.15)
+
+
+@pytest.mark.slow
+def test_epsf_alone_gives_a_usable_psf(star_frame):
+    frame, xy, truth = star_frame
+    psf = measure_psf(frame, xy, methods=("epsf",))
+    assert psf.method == "epsf"
+    assert psf.fwhm_pix == pytest.approx(truth.fwhm_pix, rel=0.08)
+    k = psf.kernel(21)
+    assert k.sum() == pytest.approx(1.0, rel=1e-12)
+    assert psf.render((61, 61), 30.2, 29.7).sum() == pytest.approx(1.0, rel=1e-3)
+
+
+def test_too_few_stars_falls_back_and_flags(make_frame):
+    frame = make_frame(np.full((80, 80), 100.0), np.random.default_rng(1))
+    with pytest.warns(PoorResultWarning, match="only 0 usable PSF stars"):
+        psf = measure_psf(frame, [(40.0, 40.0)], fallback_fwhm=3.6 * u.arcsec,
+                          pixel_scale=1.2 * u.arcsec / u.pix)
+    assert psf.method == "fallback"
+    assert psf.flags == ("psf_fallback",)
+    assert psf.fwhm_pix == pytest.approx(3.0, rel=1e-12)
+
+
+def test_too_few_stars_without_fallback_raises(make_frame):
+    frame = make_frame(np.full((80, 80), 100.0), np.random.default_rng(1), name="sci_0003")
+    with pytest.raises(ValueError, match="frame 'sci_0003': cannot measure the PSF"):
+        measure_psf(frame, [])
+
+
+def test_bad_arguments(make_frame):
+    frame = make_frame(np.full((40, 40), 100.0), np.random.default_rng(1))
+    with pytest.raises(TypeError, match="'frame' must be a CalibratedFrame"):
+        measure_psf(np.zeros((4, 4)), [])
+    with pytest.raises(ValueError, match="unknown PSF method 'gauss'"):
+        measure_psf(frame, [], methods=("gauss",))
+    with pytest.raises(ValueError, match="'pixel_scale' is needed"):
+        measure_psf(frame, [], fallback_fwhm=3 * u.arcsec)
+
+
+def test_psf_model_render_and_kernel_agree():
+    psf = PSFModel.from_moffat(3.0, beta=2.5, ellipticity=0.2, angle_deg=30.0)
+    img = psf.render((71, 71), 35.0, 35.0)
+    k = psf.kernel(2 * psf.half_size + 1)
+    # both unit sum over the same square; the point-sampled kernel and pixel integrals differ by
+    # the pixel box only (≈ 1/24 ∇²PSF, a few per cent at the peak for FWHM 3 px)
+    h = psf.half_size
+    assert img.sum() == pytest.approx(1.0, rel=1e-9)
+    assert img[35 - h:36 + h, 35 - h:36 + h].max() == pytest.approx(k.max(), rel=0.05)
+    with pytest.raises(ValueError, match="PSF 'fwhm' must be finite and positive"):
+        PSFModel.from_moffat(-1.0)
