@@ -135,20 +135,28 @@ def apply_calibration(raw, prepared, *, saturation):
     bias enters the rate and the offset with opposite signs, so its noise is counted once with
     that weight (``\sigma_{R,own}`` is the rate's variance without the bias's share).
     """
+    data, var, quality, _ = _apply(raw, prepared, saturation)
+    return data, var, quality
+
+
+def _apply(raw, prepared, saturation):
     data = np.subtract(raw, prepared.offset, dtype=np.float32)
-    var = np.maximum(data, 0.0)
+    var = np.maximum(data, np.float32(0.0))
     data *= prepared.gain_over_flat
     var *= prepared.poisson_factor
     var += prepared.constant_var
     sq = np.square(data)
     sq *= prepared.flat_relvar
     var += sq
+    del sq
     quality = prepared.quality.copy()
     saturated = raw >= saturation
-    quality[saturated] |= np.uint16(Quality.SATURATED)
+    n_saturated = int(np.count_nonzero(saturated))
+    if n_saturated:
+        np.bitwise_or(quality, np.uint16(Quality.SATURATED), out=quality, where=saturated)
     if raw.dtype.kind == "f":
         quality[~np.isfinite(raw)] |= np.uint16(Quality.NONFINITE)
-    return data, var, quality
+    return data, var, quality, n_saturated
 
 
 def _read_wcs(header):
@@ -220,8 +228,7 @@ def calibrate_frame(frame, masters, *, detect_cosmics=True, cosmic_method="lacos
         raise FrameError(info.path, f"image shape {raw.shape} differs from the masters' "
                                     f"{prepared.offset.shape}")
     saturation = info.saturation.to_value(u.adu)
-    data, var, quality = apply_calibration(raw, prepared, saturation=saturation)
-    n_sat = int(np.count_nonzero(quality & Quality.SATURATED))
+    data, var, quality, n_sat = _apply(raw, prepared, saturation)
     frac = n_sat / raw.size
     if frac >= 1.0:
         raise FrameError(info.path, f"every pixel is saturated (raw >= {saturation:g} adu)")
