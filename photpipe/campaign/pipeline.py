@@ -287,7 +287,10 @@ class _Run:
                 log.debug("%s stage traceback", stage, exc_info=True)
                 continue
             if isinstance(written, dict) and written.get("summary"):
-                self.echo(str(written["summary"]))
+                # The stage's own account goes to the log whole; the screen gets its title.
+                text = str(written["summary"])
+                log.info("%s stage:\n%s", stage, text)
+                self.echo(f"{stage}: {text.splitlines()[0]} (full text in the log)")
             for path in _paths(written):
                 self.summary.outputs.append(str(path))
 

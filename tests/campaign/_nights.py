@@ -55,6 +55,7 @@ def render_small_night(folder, *, start="2026-12-01T02:10:00", n_science=4, seed
     if stars_path is not None:
         # One reference file for the campaign: each night adds the stars of its field.
         stars_path = Path(stars_path)
+        stars_path.parent.mkdir(parents=True, exist_ok=True)
         if stars_path.exists():
             stars = vstack([QTable.read(stars_path), stars])
         stars.write(stars_path, overwrite=True)
