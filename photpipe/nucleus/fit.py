@@ -179,7 +179,7 @@ def _aperture_weights(shape, x, y, radius):
 def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_err=None,
                 gamma="free", cutout=101, star_xy=None, bootstrap=50, rng=None, modulation=0,
                 max_shift=2.0, detection_sigma=3.0, fraction_radius=1.0, star_mask_radius=None,
-                profile=True):
+                profile=True, max_nfev=400):
     """Separate nucleus and coma in one frame by a PSF-convolved 2-D fit.
 
     Parameters
@@ -217,6 +217,8 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
         Radius of the star masks, pixels (default 3 FWHM).
     profile : bool, optional
         Also run the 1-D profile fit.
+    max_nfev : int, optional
+        Evaluation budget of the main fit; running out flags ``no_convergence``.
 
     Returns
     -------
@@ -322,7 +324,8 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     params.add("y0", value=yl, min=yl - max_shift, max=yl + max_shift)
     params.add("gamma", value=1.0 if free_gamma else float(gamma), min=GAMMA_BOUNDS[0],
                max=GAMMA_BOUNDS[1], vary=free_gamma)
-    res = fit_separable(d, s, basis_fn, params, renderer.names, steps=_STEPS)
+    res = fit_separable(d, s, basis_fn, params, renderer.names, steps=_STEPS,
+                       max_nfev=max_nfev)
     v = res.values
     nfev = res.nfev
     if not res.success:

@@ -128,9 +128,13 @@ class PSFModel:
             out[ya:yb, xa:xb] = moffat_pixel_image((yb - ya, xb - xa), x0 - xa, y0 - ya,
                                                    **self._moffat_args()) / self._moffat_norm
         else:
-            m, norm = self._image_psf
-            yy, xx = np.mgrid[ya:yb, xa:xb]
-            out[ya:yb, xa:xb] = m.evaluate(xx - x0, yy - y0, 1.0, 0.0, 0.0) / norm
+            m, _ = self._image_psf
+            # normalised over the full footprint at this sub-pixel position: interpolating an
+            # oversampled ePSF does not keep its sum fixed as the centre moves
+            yy, xx = np.mgrid[iy - h:iy + h + 1, ix - h:ix + h + 1]
+            stamp = m.evaluate(xx - x0, yy - y0, 1.0, 0.0, 0.0)
+            stamp /= stamp.sum()
+            out[ya:yb, xa:xb] = stamp[ya - (iy - h):yb - (iy - h), xa - (ix - h):xb - (ix - h)]
         return out
 
     def kernel(self, size, *, oversample=1):

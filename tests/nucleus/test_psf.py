@@ -62,9 +62,9 @@ def test_psf_model_render_and_kernel_agree():
     img = psf.render((71, 71), 35.0, 35.0)
     k = psf.kernel(2 * psf.half_size + 1)
     # both unit sum over the same square; the point-sampled kernel and pixel integrals differ by
-    # the pixel box only (≈ 1/24 ∇²PSF, a few per cent at the peak for FWHM 3 px)
+    # the pixel box only (≈ 1/24 ∇²PSF: it lowers the peak by several per cent at FWHM 2.4-3 px)
     h = psf.half_size
     assert img.sum() == pytest.approx(1.0, rel=1e-9)
-    assert img[35 - h:36 + h, 35 - h:36 + h].max() == pytest.approx(k.max(), rel=0.05)
+    assert 0.88 < img[35 - h:36 + h, 35 - h:36 + h].max() / k.max() < 1.0
     with pytest.raises(ValueError, match="PSF 'fwhm' must be finite and positive"):
         PSFModel.from_moffat(-1.0)
