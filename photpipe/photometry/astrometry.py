@@ -80,7 +80,7 @@ def vote_offset(det_xy, ref_xy, *, max_offset, cell=2.0):
     offset : ndarray, shape (2,) or None
         Mean offset of the pairs in the winning 3 × 3 cells, or None if no pair was found.
     votes : int
-        Number of pairs in the winning cell.
+        Number of pairs in the winning 3 × 3 cells.
 
     Examples
     --------
@@ -103,8 +103,12 @@ def vote_offset(det_xy, ref_xy, *, max_offset, cell=2.0):
     nbin = int(np.ceil(2 * max_offset / cell))
     edges = np.linspace(-max_offset, max_offset, nbin + 1)
     hist, _, _ = np.histogram2d(d[:, 0], d[:, 1], bins=[edges, edges])
-    ix, iy = np.unravel_index(np.argmax(hist), hist.shape)
-    votes = int(hist[ix, iy])
+    # votes of each cell and its eight neighbours, so that a cell edge cannot split a true offset
+    padded = np.pad(hist, 1)
+    near = sum(padded[1 + i:1 + i + nbin, 1 + j:1 + j + nbin]
+               for i in (-1, 0, 1) for j in (-1, 0, 1))
+    ix, iy = np.unravel_index(np.argmax(near), near.shape)
+    votes = int(near[ix, iy])
     lo_x, hi_x = edges[max(ix - 1, 0)], edges[min(ix + 2, nbin)]
     lo_y, hi_y = edges[max(iy - 1, 0)], edges[min(iy + 2, nbin)]
     sel = (d[:, 0] >= lo_x) & (d[:, 0] <= hi_x) & (d[:, 1] >= lo_y) & (d[:, 1] <= hi_y)

@@ -44,7 +44,7 @@ _FLAG_TEXT = {
     "colour_term_dropped": "too few stars to fit a colour term; constant zero point used",
     "wcs_refined_large": "header WCS was off by more than the refinement limit",
     "edge": "an aperture or the sky annulus runs off the frame",
-    "saturated": "saturated pixels near the comet's centre",
+    "saturated": "saturated comet pixels inside an aperture",
     "star_in_aperture": "a field star inside an aperture was masked and filled from the coma",
     "nan_pixels": "non-finite or bad pixels inside an aperture were filled from the coma",
     "centroid_at_limit": "comet centroid reached 'max_centroid_shift'; position is bounded",
@@ -421,8 +421,14 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     others = in_cut.copy()
     others[comet_det] = False
     peak_flux = np.asarray(sources["peak"], float) * 1.133 * fwhm**2
+    def capped(radius, x, y):
+        # a star's mask never reaches within 2 FWHM of the comet's predicted centre
+        room = np.hypot(x - x_pred, y - y_pred) - 2.0 * fwhm
+        return np.maximum(np.minimum(radius, room), 1.0 * fwhm)
+
     _paint_discs(star_mask, sx[others], sy[others],
-                 _star_mask_radius(peak_flux[others], fwhm, sigma0), x0c, y0c)
+                 capped(_star_mask_radius(peak_flux[others], fwhm, sigma0), sx[others],
+                        sy[others]), x0c, y0c)
     # catalogue stars near the comet that detection may have missed under the coma
     cx_ref, cy_ref = wcs.world_to_pixel_values(ref_ra, ref_dec)
     cx_ref, cy_ref = np.asarray(cx_ref, float), np.asarray(cy_ref, float)
@@ -432,7 +438,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     ref_flux = exptime * 10.0 ** (-0.4 * (ref_mag - zp.zp))
     bright = near & (ref_flux > 3.0 * sigma0 * fwhm)
     _paint_discs(star_mask, cx_ref[bright], cy_ref[bright],
-                 _star_mask_radius(ref_flux[bright], fwhm, sigma0), x0c, y0c)
+                 capped(_star_mask_radius(ref_flux[bright], fwhm, sigma0), cx_ref[bright],
+                        cy_ref[bright]), x0c, y0c)
     full_mask = bad.copy()
     full_mask[y0c:y1c, x0c:x1c] |= star_mask
     box = (int(round(pix(centroid_box, "centroid_box"))) if centroid_box is not None
@@ -554,9 +561,10 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         if np.any(star_mask & inside):
             _flag(fl, messages, "star_in_aperture", f"aperture {r:.1f} pix")
         qbits = quality[inside]
-        if np.any((qbits & Quality.SATURATED) != 0):
+        # saturation under a masked field star is that star's, reported as star_in_aperture
+        if np.any((quality[inside & ~star_mask] & np.uint16(Quality.SATURATED)) != 0):
             _flag(fl, messages, "saturated", f"aperture {r:.1f} pix")
-        if np.any((qbits & (Quality.NONFINITE | Quality.BAD)) != 0) or not np.all(
+        if np.any((qbits & np.uint16(Quality.NONFINITE | Quality.BAD)) != 0) or not np.all(
                 np.isfinite(cut[inside])):
             _flag(fl, messages, "nan_pixels", f"aperture {r:.1f} pix")
         if not flux[k] > 0:
