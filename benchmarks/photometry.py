@@ -84,7 +84,8 @@ def main():
             stage.append(time.perf_counter() - t0)
     f_med, s_med = statistics.median(floor), statistics.median(stage)
     print(f"frame {SHAPE[1]}x{SHAPE[0]}, {result.details['n_detected']} detections, "
-          f"{result.details['n_matched']} matched, {result.zero_point.n_stars} in the zero point")
+          f"{result.details['n_matched']} matched, {result.details['n_measured']} measured, "
+          f"{result.zero_point.n_stars} in the zero point")
     print(f"photometry (measure_comet_frame): median {s_med:.3f} s over {REPEATS} runs")
     print(f"floor (FITS read + numpy calibration): median {f_med:.3f} s")
     print(f"ratio photometry / floor: {s_med / f_med:.1f}")

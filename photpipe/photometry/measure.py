@@ -344,6 +344,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         raise ValueError(msg)
 
     # --- field stars: photometry, aperture correction, zero point ------------------------
+    n_matched_all = len(i_det)
     # the brightest matched stars are plenty for the zero point; cap the photometry cost
     keep_m = np.argsort(ref_mag[matched_ref], kind="stable")[:max_zp_stars]
     i_det, matched_ref = i_det[keep_m], matched_ref[keep_m]
@@ -615,7 +616,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     details["timings_s"] = {label: t - clock[i][1] for i, (label, t) in enumerate(clock[1:])}
     details.update({"flux_e": flux, "flux_err_e": flux_err, "radii_pix": radii,
                     "pixel_scale_arcsec": scale, "n_detected": len(sx),
-                    "n_matched": len(i_det)})
+                    "n_matched": n_matched_all, "n_measured": len(i_det)})
     if flags:
         warnings.warn(f"{name}: {'; '.join(messages)}", PhotometryWarning, stacklevel=2)
     return FramePhotometry(frame=name, comet=comet, stars=stars, zero_point=zp, profile=profile,
