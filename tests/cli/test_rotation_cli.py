@@ -1,0 +1,77 @@
+import json
+
+import numpy as np
+import pytest
+from astropy import units as u
+
+from photpipe.cli import rotation as cli
+from photpipe.rotation import synthetic_lightcurve
+
+
+def _config(tmp_path, extra=""):
+    (tmp_path / "nights").mkdir(exist_ok=True)
+    text = f"""
+[campaign]
+results = "results"
+[[night]]
+path = "nights"
+[rotation]
+min_period_h = 3.0
+max_period_h = 20.0
+n_bootstrap = 10
+{extra}
+"""
+    path = tmp_path / "campaign.toml"
+    path.write_text(text)
+    return path
+
+
+def test_command_writes_outputs(tmp_path, capsys):
+    table, truth = synthetic_lightcurve(period=6.7 * u.h, rng=np.random.default_rng(4))
+    (tmp_path / "results").mkdir()
+    table.write(tmp_path / "results" / "lightcurve.ecsv", format="ascii.ecsv")
+    args = type("A", (), {"config": str(_config(tmp_path)), "table": None})()
+    assert cli.execute(args) == 0
+    out = capsys.readouterr().out
+    assert "rotation period" in out
+    data = json.loads((tmp_path / "results" / "rotation.json").read_text())
+    for key in ("period_h", "period_err_h", "amplitude_mag", "amplitude_err_mag",
+                "axial_ratio_min", "n_points", "method"):
+        assert key in data
+    # truth of the synthetic campaign (project generator), within 3 σ
+    assert abs(data["period_h"] - 6.7) < 3 * data["period_err_h"]
+    for name in ("rotation_candidates.ecsv", "rotation_periodograms.png", "rotation_phased.png",
+                 "rotation_residuals.png"):
+        assert (tmp_path / "results" / name).stat().st_size > 0
+
+
+def test_unknown_key_is_reported(tmp_path, capsys):
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    path = tmp_path / "lc.ecsv"
+    table.write(path, format="ascii.ecsv")
+    args = type("A", (), {"config": str(_config(tmp_path, "periodd = 3")), "table": str(path)})()
+    assert cli.execute(args) == 1
+    assert "unknown [rotation] key(s) ['periodd']" in capsys.readouterr().err
+
+
+def test_too_few_points_message(tmp_path, capsys):
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    path = tmp_path / "lc.ecsv"
+    table[:5].write(path, format="ascii.ecsv")
+    args = type("A", (), {"config": str(_config(tmp_path)), "table": str(path)})()
+    assert cli.execute(args) == 1
+    assert "no rotation period" in capsys.readouterr().err
+
+
+def test_missing_table_message(tmp_path, capsys):
+    args = type("A", (), {"config": str(_config(tmp_path)), "table": None})()
+    assert cli.execute(args) == 2
+    assert "cannot read the lightcurve" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("bad", [pytest.param("nan", id="nan"), pytest.param("neg", id="neg")])
+def test_bad_errors_rejected_by_stage(tmp_path, bad):
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    table["nucleus_mag_err"][3] = np.nan if bad == "nan" else -0.02
+    with pytest.raises(ValueError, match="magnitude error"):
+        cli.run_rotation_stage({"rotation": {}}, table, tmp_path)
