@@ -414,6 +414,8 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
     finally:
         summary.status = status
         summary.seconds = time.perf_counter() - started
+        summary.task_seconds = list(runner.task_seconds)
+        summary.worker_peak_mb = dict(runner.peak_memory_mb)
         store.end_run(run_id, status)
         log.info("summary\n%s", summary.format())
         store.close()

@@ -58,6 +58,10 @@ class RunSummary:
         Lines to show prominently (the target near the Sun).
     seconds : float
     status : str
+    task_seconds : list of float
+        Wall time of each frame task, measured in the worker.
+    worker_peak_mb : dict
+        Peak resident memory of each worker process (pid -> MB).
     """
 
     run_id: int
@@ -72,6 +76,8 @@ class RunSummary:
     cautions: list = field(default_factory=list)
     seconds: float = 0.0
     status: str = "completed"
+    task_seconds: list = field(default_factory=list)
+    worker_peak_mb: dict = field(default_factory=dict)
 
     @property
     def measured(self):
