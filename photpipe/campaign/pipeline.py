@@ -320,7 +320,10 @@ def _paths(written):
     if isinstance(written, (str, os.PathLike)):
         return [written] if os.path.isfile(written) else []
     if isinstance(written, dict):
-        written = [v for k, v in written.items() if k != "summary"]
+        values = [v for k, v in written.items() if k != "summary"]
+        written = []
+        for v in values:
+            written.extend(v if isinstance(v, (list, tuple)) else [v])
     return [p for p in written if isinstance(p, (str, os.PathLike)) and os.path.isfile(p)]
 
 
