@@ -160,3 +160,17 @@ def test_table_and_figure(oracle, make_frame):
     buf = io.BytesIO()
     fig.savefig(buf, format="png")
     assert buf.getvalue()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_azimuthal_modulation_is_recovered(make_frame):
+    from photpipe.nucleus import nucleus_coma_image
+
+    # truth from the pure model function with a sunward-like dipole a1 = 0.3 (cos θ along +x)
+    sig = nucleus_coma_image((121, 121), 60.3, 59.8, nucleus_flux=3e4, coma_k=600.0, psf=PSF,
+                             sky=200.0, modulation=[(0.3, 0.0)])
+    frame = make_frame(sig, np.random.default_rng(12))
+    fit = fit_nucleus(frame, 60.0, 60.0, PSF, pixel_scale=SCALE, gamma=1.0, bootstrap=0,
+                      modulation=1)
+    assert fit.modulation["a1"] == pytest.approx(0.3, abs=0.03)
+    assert fit.modulation["b1"] == pytest.approx(0.0, abs=0.03)
+    assert fit.nucleus_flux_e == pytest.approx(3e4, abs=4 * fit.nucleus_flux_err_e)

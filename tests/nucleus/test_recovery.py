@@ -110,3 +110,18 @@ def test_scenario_end_to_end_with_measured_psf(scenario, make_frame, k_for_fract
     assert fit.nucleus_flux_e == pytest.approx(flux, abs=3 * fit.nucleus_flux_err_e)
     assert fit.coma_gamma == pytest.approx(1.0, abs=3 * fit.coma_gamma_err)
     assert "profile_disagrees" not in fit.flags
+
+
+@pytest.mark.slow
+def test_oracle_free_gamma_bias_and_scatter(oracle, make_frame, k_for_fraction):
+    fwhm, sky, flux = 3.0, 200.0, 1e5
+    psf = PSFModel.from_moffat(fwhm, beta=3.0)
+    k = k_for_fraction(0.5, flux, fwhm)
+    xy = (70.3, 69.8)
+    signal = oracle((141, 141), *xy, nucleus_flux=flux, coma_k=k, fwhm=fwhm, sky=sky, n=5)
+    bound = _crb(signal, xy, flux, k, sky, psf, free=FREE + ("gamma",))
+    bias, scatter = _run(signal, xy, flux, psf, make_frame, seeds=12, seed0=777, gamma="free")
+    print(f"free gamma f=0.5 S/N={flux / bound:.0f} bias={bias:+.4f} "
+          f"scatter/CRB={scatter / bound:.2f}")
+    assert abs(bias) < 0.02
+    assert scatter < 1.5 * bound
