@@ -170,7 +170,12 @@ def universal_propagate(r0, v0, dt, mu, *, chi_guess=None, return_chi=False):
             z = alpha * chi * chi
             c2, c3 = stumpff_c2c3(z)
             x2 = chi * chi
-            fval = sigma0 * x2 * c2 + one_m_ar * x2 * chi * c3 + r0n * chi - target
+            t1 = sigma0 * x2 * c2
+            t2 = one_m_ar * x2 * chi * c3
+            t3 = r0n * chi
+            fval = t1 + t2 + t3 - target
+            # rounding level of F: its terms can be much larger than F near the root
+            noise = 4.5e-16 * (np.abs(t1) + np.abs(t2) + np.abs(t3) + np.abs(target))
             dval = sigma0 * chi * (1.0 - z * c3) + one_m_ar * x2 * c2 + r0n
             ddval = sigma0 * (1.0 - z * c2) + one_m_ar * chi * (1.0 - z * c3)
             ok = np.isfinite(fval)
@@ -182,9 +187,9 @@ def universal_propagate(r0, v0, dt, mu, *, chi_guess=None, return_chi=False):
             new = chi - step
             bad = ~np.isfinite(new) | (new < lo) | (new > hi)
             new = np.where(bad, 0.5 * (lo + hi), new)
-        at_root = ok & (np.abs(fval) <= 2e-16 * scale)
+        at_root = ok & ((np.abs(fval) <= 2e-16 * scale) | (np.abs(fval) <= noise))
         new = np.where(at_root, chi, new)
-        converged = at_root | (np.abs(new - chi) <= 1e-15 * np.abs(chi))
+        converged = at_root | (np.abs(new - chi) <= 4e-15 * np.abs(chi))
         converged |= (hi - lo) <= 4e-16 * np.maximum(np.abs(lo), np.abs(hi))
         chi = np.where(done, chi, new)
         done = done | converged

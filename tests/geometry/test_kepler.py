@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 from astropy import units as u
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 from skyfield.keplerlib import propagate as skyfield_propagate
@@ -243,6 +243,9 @@ def test_energy_and_angular_momentum_are_conserved(params):
 
 @settings(max_examples=80, deadline=None)
 @given(_states)
+# found by hypothesis: the way back ends where F's terms are ~30x F, so the root is only
+# resolvable to rounding of the terms (the solver's stopping rule now allows for that)
+@example((1.0, 0.0, 1.75, 1.0, 505.0))
 def test_forward_then_back_returns_to_start(params):
     r0n, _, vfrac, gamma, dt = params
     if abs(np.cos(gamma)) < 1e-3:
