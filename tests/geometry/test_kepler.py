@@ -175,9 +175,9 @@ def test_agrees_with_skyfield_over_a_year(e, label):
                           for t in (past, future)], axis=1)
     dist = np.linalg.norm(ours - ref, axis=0)
     assert np.max(dist) < 1e-8, label
-    cosang = np.sum(ours * ref, axis=0) / np.linalg.norm(ours, axis=0) / np.linalg.norm(ref,
-                                                                                        axis=0)
-    angle = np.rad2deg(np.arccos(np.clip(cosang, -1, 1))) * 3600
+    # angle between the two directions as atan2(|a x b|, a.b), free of arccos round-off
+    cross = np.linalg.norm(np.cross(ours.T, ref.T), axis=1)
+    angle = np.rad2deg(np.arctan2(cross, np.sum(ours * ref, axis=0))) * 3600
     assert np.max(angle) < 0.1, label
 
 
