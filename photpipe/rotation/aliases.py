@@ -116,6 +116,8 @@ def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.1, max_peaks=6, oversa
     if daily.size:
         keep = np.union1d(keep, daily[np.argmax(power[daily])])
     idx = keep[np.argsort(power[keep])[::-1]][:max_peaks]
+    if daily.size and not np.isin(daily[np.argmax(power[daily])], idx):
+        idx = np.append(idx[:max_peaks - 1], daily[np.argmax(power[daily])])
     multi = sites is not None and len(set(np.asarray(sites, dtype=str))) > 1
     names = [_window_name(freq[i], baseline, multi) for i in idx]
     return QTable({"name": np.array(names, dtype=str),

@@ -1,0 +1,77 @@
+import numpy as np
+import pytest
+from astropy import constants as const
+from astropy import units as u
+from astropy.table import QTable
+
+from photpipe.rotation import LightcurveError, reduce_lightcurve
+
+
+def _rows(**over):
+    data = {"frame": ["a", "b", "c"], "mjd_utc_mid": [61000.0, 61000.1, 61001.0],
+            "nucleus_mag": [20.0, 20.1, 20.2], "nucleus_mag_err": [0.05, 0.05, 0.06],
+            "r_h_au": [2.0, 2.0, 2.1], "delta_au": [1.5, 1.5, 1.6], "phase_deg": [10.0, 10, 11],
+            "light_time_s": [748.0, 748.0, 798.0],
+            "source": ["nucleus_fit", "small_aperture", "nucleus_fit"]}
+    data.update(over)
+    return data
+
+
+def test_distance_and_linear_phase_reduction():
+    # m(1,1,0) = m - 5 log10(r_h Δ) - β α (e.g. Lamy et al. 2004, Comets II, eq. 1; from memory)
+    lc = reduce_lightcurve(_rows(), phase_coefficient=0.04 * u.mag / u.deg)
+    expected = 20.0 - 5 * np.log10(2.0 * 1.5) - 0.04 * 10.0
+    assert lc.mag[0] == pytest.approx(expected, abs=1e-12)
+
+
+def test_light_time_correction_given_and_from_delta():
+    lc = reduce_lightcurve(_rows())
+    assert lc.epoch_mjd[0] == pytest.approx(61000.0 - 748.0 / 86400, abs=1e-12)
+    data = _rows()
+    del data["light_time_s"]
+    lc2 = reduce_lightcurve(data)
+    # τ = Δ/c with 1 au / c = 499.004784 s (IAU 2012 au, CODATA c)
+    tau = 1.5 * (const.au / const.c).to_value(u.s)
+    assert tau == pytest.approx(748.507, abs=1e-3)
+    assert lc2.epoch_mjd[0] == pytest.approx(61000.0 - tau / 86400, abs=1e-12)
+
+
+def test_small_aperture_points_are_flagged():
+    lc = reduce_lightcurve(_rows())
+    assert list(lc.coma_contaminated) == [False, True, False]
+    assert lc.flags[1] == "coma_contaminated"
+    assert not lc.coma_free
+
+
+def test_hg_law_and_quantity_columns():
+    table = QTable(_rows())
+    table["r_h_au"] = table["r_h_au"] * u.au
+    table["phase_deg"] = (table["phase_deg"] * u.deg).to(u.rad)
+    lc = reduce_lightcurve(table, phase_law="hg", H_G_slope=0.15)
+    assert lc.phase_deg[0] == pytest.approx(10.0, rel=1e-12)
+    assert lc.phase_law == "hg"
+
+
+@pytest.mark.parametrize("column, value, text", [
+    pytest.param("nucleus_mag_err", [0.05, np.nan, 0.05], "NaN or infinite magnitude error",
+                 id="nan-error"),
+    pytest.param("nucleus_mag_err", [0.05, -0.01, 0.05], "zero or negative magnitude error",
+                 id="negative-error"),
+    pytest.param("delta_au", [1.5, 0.0, 1.5], "non-positive r_h_au or delta_au", id="delta"),
+    pytest.param("source", ["nucleus_fit", "psf", "nucleus_fit"], "unknown 'source'",
+                 id="source"),
+])
+def test_bad_rows_are_named(column, value, text):
+    with pytest.raises(LightcurveError, match=text) as info:
+        reduce_lightcurve(_rows(**{column: value}))
+    if column != "source":
+        assert ": b." in str(info.value)
+
+
+def test_missing_column_and_wrong_type():
+    data = _rows()
+    del data["phase_deg"]
+    with pytest.raises(LightcurveError, match="has no 'phase_deg' column"):
+        reduce_lightcurve(data)
+    with pytest.raises(TypeError, match="takes a Table, QTable or mapping"):
+        reduce_lightcurve([1, 2, 3])
