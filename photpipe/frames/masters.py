@@ -69,7 +69,7 @@ class MasterFrame:
                 f"({describe_key(self.key)}, {self.n_frames} frames)")
 
 
-@functools.lru_cache(maxsize=12)
+@functools.lru_cache(maxsize=6)
 def _load_cached(path, mtime_ns, size):
     with open_image(path) as (hdul, _):
         try:

@@ -210,3 +210,17 @@ def test_apply_calibration_exact_values():
     # (G x + RN^2 + G^2/12) / F^2 with x = 1000 adu (Merline & Howell 1995 terms)
     assert var[0, 0] == pytest.approx((2000 + 25 + 4 / 12) / 0.64, rel=1e-6)
     assert quality[0, 0] == Quality.SATURATED
+
+
+def test_rebuilt_master_is_read_again(tmp_path):
+    det = S.make_detector((40, 48))
+    S.write_night(tmp_path, det, n_science=1)
+    plan = plan_calibrations(scan_night(tmp_path))
+    masters = build_masters(plan, tmp_path / "m")
+    before = calibrate_frame(plan.science[0], masters, detect_cosmics=False)
+    (flat,) = masters.of_kind("flat").values()
+    with fits.open(flat.path) as hdul:
+        hdul["DATA"].data = hdul["DATA"].data * np.float32(2.0)
+        hdul.writeto(flat.path, overwrite=True)
+    after = calibrate_frame(plan.science[0], masters, detect_cosmics=False)
+    np.testing.assert_allclose(after.data, before.data / 2, rtol=1e-6)
