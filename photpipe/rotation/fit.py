@@ -72,10 +72,21 @@ class FourierFit:
         return np.mod((np.asarray(t, dtype=float) - self.t0) * self.frequency, 1.0)
 
 
+def _weighted_solve(a, y, w):
+    """Weighted least squares by the normal equations (lstsq when they are singular)."""
+    aw = a * w[:, None]
+    normal = a.T @ aw
+    rhs = aw.T @ y
+    try:
+        return np.linalg.solve(normal, rhs)
+    except np.linalg.LinAlgError:
+        sw = np.sqrt(w)
+        return np.linalg.lstsq(a * sw[:, None], y * sw, rcond=None)[0]
+
+
 def _linear_solve(t, y, w, frequency, order, t0):
     a = design_matrix(t, frequency, order, t0=t0)
-    sw = np.sqrt(w)
-    coef, *_ = np.linalg.lstsq(a * sw[:, None], y * sw, rcond=None)
+    coef = _weighted_solve(a, y, w)
     resid = y - a @ coef
     return coef, float(np.sum(w * resid**2))
 
@@ -86,8 +97,7 @@ def _gauss_newton(t, y, w, frequency, coef, t0, n_iter=8):
         a = design_matrix(t, frequency, len(coef) // 2, t0=t0)
         jac = np.column_stack([a, frequency_derivative(t, frequency, coef, t0=t0)])
         resid = y - a @ coef
-        sw = np.sqrt(w)
-        step, *_ = np.linalg.lstsq(jac * sw[:, None], resid * sw, rcond=None)
+        step = _weighted_solve(jac, resid, w)
         coef = coef + step[:-1]
         frequency = frequency + step[-1]
         if abs(step[-1]) < 1e-12 * max(abs(frequency), 1.0):
@@ -99,7 +109,7 @@ def _gauss_newton(t, y, w, frequency, coef, t0, n_iter=8):
     return frequency, coef, chi2, normal
 
 
-def fit_fourier_series(t, y, dy, frequency, order, *, search_half_width=None, n_search=41):
+def fit_fourier_series(t, y, dy, frequency, order, *, search_half_width=None, n_search=11):
     """Fit a Fourier series and its frequency near ``frequency`` by weighted least squares.
 
     Parameters
