@@ -191,9 +191,11 @@ class TaskRunner:
                 msg = f"cannot connect to the Dask scheduler at {self.scheduler!r}: {exc}"
                 raise ConnectionError(msg) from exc
             return
-        # A task that kills its worker process is retried once on a fresh process, then
-        # reported as failed instead of taking more workers down.
-        with dask.config.set({"distributed.scheduler.allowed-failures": 1}):
+        # A worker holds only the task it runs (saturation 1.0), so when a task kills its
+        # process no queued neighbour is blamed; the task is retried on fresh processes twice,
+        # then reported as failed instead of taking more workers down.
+        with dask.config.set({"distributed.scheduler.allowed-failures": 2,
+                              "distributed.scheduler.worker-saturation": 1.0}):
             self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1,
                                          processes=True, dashboard_address=None,
                                          silence_logs=logging.ERROR)
@@ -302,8 +304,8 @@ class TaskRunner:
 
 def _dask_message(exc):
     if type(exc).__name__ == "KilledWorker":
-        return ("the worker process died while running this task (it was tried again on a "
-                "fresh process and died again)")
+        return ("the worker process died while running this task (it was tried again on "
+                "fresh processes and died each time)")
     return str(exc)
 
 
