@@ -197,7 +197,7 @@ class TaskRunner:
         with dask.config.set({"distributed.scheduler.allowed-failures": 2,
                               "distributed.scheduler.worker-saturation": 1.0}):
             self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1,
-                                         processes=True, dashboard_address=None,
+                                         processes=True, dashboard_address=":0",
                                          silence_logs=logging.ERROR)
             self._client = Client(self._cluster)
 
