@@ -4,6 +4,7 @@ The nights follow the invented demo comet (orbit and site of ``configs/demo.toml
 160x160 camera, so every stage that is installed has something real to measure.
 """
 
+import os
 from pathlib import Path
 
 import numpy as np
@@ -12,6 +13,7 @@ from astropy.coordinates import SkyCoord
 from astropy.table import QTable, vstack
 from astropy.time import Time
 
+from photpipe.campaign import CampaignStore
 from photpipe.cli.config import load_config
 from photpipe.scenario import Instrument, make_star_field, render_night
 from photpipe.scenario.demo import demo_exposures
@@ -83,3 +85,50 @@ def write_config(folder, nights, *, stars_path=None, results="results", extra=""
     path = Path(folder) / "campaign.toml"
     path.write_text("\n".join(lines))
     return path
+
+
+#: Tables whose contents must not depend on how or how often the frames were processed.
+RESULT_TABLES = ("frames", "geometry", "zero_points", "stars", "measurements", "nucleus",
+                 "calibrations", "skipped")
+
+
+def _plain(col, value):
+    """One stored value as a plain comparable: file name for paths, float for numbers."""
+    if col == "path":
+        return os.path.basename(str(value))
+    if hasattr(value, "unit"):
+        return float(value.value)
+    if isinstance(value, (float, np.floating)):
+        return float(value)
+    return str(value)
+
+
+def contents(store_path):
+    """Every result table of the store at ``store_path`` as sorted rows.
+
+    Run ids are left out and paths cut to file names. Rows are sorted on their non-float
+    values, so the order does not hang on the last bits of a float.
+    """
+    out = {}
+    with CampaignStore(store_path) as store:
+        for name in RESULT_TABLES:
+            table = store.export_table(name)
+            rows = [tuple(_plain(col, row[col]) for col in table.colnames if col != "run")
+                    for row in table]
+            out[name] = sorted(rows, key=lambda r: [v for v in r if isinstance(v, str)])
+    return out
+
+
+def assert_same_contents(a, b):
+    """Equal tables; floats to 1e-9 relative (worker processes run BLAS on one thread, the
+    parent on several, so sums can differ in their last bits)."""
+    assert a.keys() == b.keys()
+    for name in a:
+        assert len(a[name]) == len(b[name]), name
+        for ra, rb in zip(a[name], b[name]):
+            assert len(ra) == len(rb)
+            for va, vb in zip(ra, rb):
+                if isinstance(va, float):
+                    assert np.isclose(va, vb, rtol=1e-9, atol=0, equal_nan=True), (name, ra, rb)
+                else:
+                    assert va == vb, (name, ra, rb)

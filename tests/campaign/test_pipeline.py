@@ -11,53 +11,7 @@ from photpipe.campaign.pipeline import night_name, run_campaign
 from photpipe.campaign.stages import stage_status
 from photpipe.cli.config import ConfigError, load_config
 
-from ._nights import render_small_night, write_config
-
-#: Tables whose contents must not depend on how or how often the frames were processed.
-RESULT_TABLES = ("frames", "geometry", "zero_points", "stars", "measurements", "nucleus",
-                 "calibrations", "skipped")
-
-
-def contents(store_path):
-    """Every result table as sorted rows, without run ids and with file names for paths."""
-    out = {}
-    with CampaignStore(store_path) as store:
-        for name in RESULT_TABLES:
-            table = store.export_table(name)
-            rows = []
-            for row in table:
-                values = []
-                for col in table.colnames:
-                    if col == "run":
-                        continue
-                    value = row[col]
-                    if col == "path":
-                        value = os.path.basename(str(value))
-                    elif hasattr(value, "unit"):
-                        value = float(value.value)
-                    elif isinstance(value, (float, np.floating)):
-                        value = float(value)
-                    else:
-                        value = str(value)
-                    values.append(value)
-                rows.append(tuple(values))
-            out[name] = sorted(rows, key=lambda r: [str(v) for v in r[:3]])
-    return out
-
-
-def assert_same_contents(a, b):
-    """Equal tables; floats to 1e-9 relative (worker processes run BLAS on one thread, the
-    parent on several, so sums can differ in their last bits)."""
-    assert a.keys() == b.keys()
-    for name in a:
-        assert len(a[name]) == len(b[name]), name
-        for ra, rb in zip(a[name], b[name]):
-            assert len(ra) == len(rb)
-            for va, vb in zip(ra, rb):
-                if isinstance(va, float):
-                    assert np.isclose(va, vb, rtol=1e-9, atol=0, equal_nan=True), (name, ra, rb)
-                else:
-                    assert va == vb, (name, ra, rb)
+from ._nights import assert_same_contents, contents, render_small_night, write_config
 
 
 @pytest.fixture(scope="module")

@@ -26,31 +26,6 @@ def _load(name):
 
 nights = _load("_nights")
 
-TABLES = ("frames", "geometry", "zero_points", "stars", "measurements", "nucleus",
-          "calibrations", "skipped")
-
-
-def contents(path):
-    """Result tables as sorted rows, without run ids, paths reduced to file names."""
-    out = {}
-    with CampaignStore(path) as store:
-        for name in TABLES:
-            table = store.export_table(name)
-            rows = []
-            for row in table:
-                values = []
-                for col in table.colnames:
-                    if col == "run":
-                        continue
-                    value = row[col]
-                    if col == "path":
-                        value = os.path.basename(str(value))
-                    values.append(str(value))
-                rows.append(tuple(values))
-            out[name] = sorted(rows)
-    return out
-
-
 def _measured(store):
     if not store.exists():
         return 0
@@ -125,9 +100,9 @@ def test_killed_run_resumes_to_the_same_store(tmp_path):
     straight = _photpipe(runs["straight"], "--workers", "0")
     assert straight.wait(timeout=600) == 0, straight.stderr.read()
 
-    killed = contents(killed_store)
-    clean = contents(tmp_path / "straight" / "results" / "campaign.sqlite")
-    assert killed == clean
+    killed = nights.contents(killed_store)
+    clean = nights.contents(tmp_path / "straight" / "results" / "campaign.sqlite")
+    nights.assert_same_contents(killed, clean)
     assert len(killed["frames"]) == 7 + n_science  # 3 bias, 2 dark, 2 flat + science
     with CampaignStore(killed_store) as store:
         runs_table = store.export_table("runs")
