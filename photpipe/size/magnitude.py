@@ -8,6 +8,7 @@ from astropy import units as u
 
 from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
+from photpipe.rotation import reduce_lightcurve
 from photpipe.size._mean_flux import flux_mean
 from photpipe.size._mean_harmonic import harmonic_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
@@ -24,14 +25,17 @@ _LN10_04 = 0.4 * np.log(10.0)
 def reduce_magnitude(mag, r_h, delta, phase, *, phase_coefficient=0.035 * u.mag / u.deg):
     """Return the reduced magnitude m(1, 1, 0) of an apparent nucleus magnitude.
 
+    The reduction is the rotation stage's (`photpipe.rotation.reduce_lightcurve`, linear phase
+    law), so a lightcurve reduced here and one reduced for the period search agree.
+
     Parameters
     ----------
     mag : float or array-like or `~astropy.units.Quantity` ['mag']
-        Apparent magnitude(s).
+        Apparent magnitude(s); non-finite ones give non-finite reduced magnitudes.
     r_h, delta : `~astropy.units.Quantity` ['length']
-        Heliocentric and geocentric distances.
+        Heliocentric and geocentric distances (broadcast against ``mag``).
     phase : `~astropy.units.Quantity` ['angle']
-        Phase angle α.
+        Phase angle α, 0 to 180°.
     phase_coefficient : `~astropy.units.Quantity`, optional
         Linear phase coefficient β (mag/deg); default 0.035, the mean of measured nuclei
         (Lamy et al. 2004, Comets II, from memory).
@@ -39,7 +43,12 @@ def reduce_magnitude(mag, r_h, delta, phase, *, phase_coefficient=0.035 * u.mag 
     Returns
     -------
     m110 : `~astropy.units.Quantity` ['mag']
-        ``m - 5 log10(r_h Δ) - β α`` with r_h and Δ in AU.
+        ``m - 5 log10(r_h Δ) - β α`` with r_h and Δ in AU, in the broadcast shape.
+
+    Raises
+    ------
+    ValueError
+        For a distance that is not positive or a phase angle outside 0-180°.
 
     Examples
     --------
@@ -48,12 +57,20 @@ def reduce_magnitude(mag, r_h, delta, phase, *, phase_coefficient=0.035 * u.mag 
     >>> print(f"{m.to_value('mag'):.4f}")
     18.1449
     """
-    m = np.asarray(as_value(mag, u.mag, "mag", allow_dimensionless=True))
+    m = np.asarray(as_value(mag, u.mag, "mag", allow_dimensionless=True), dtype=float)
     rh = as_positive_value(r_h, u.au, "r_h")
     dl = as_positive_value(delta, u.au, "delta")
     alpha = as_value(phase, u.deg, "phase")
-    beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
-    return (m - 5.0 * np.log10(np.asarray(rh) * np.asarray(dl)) - beta * np.asarray(alpha)) * u.mag
+    m, rh, dl, alpha = np.broadcast_arrays(m, rh, dl, alpha)
+    out = np.full(m.shape, np.nan)
+    ok = np.isfinite(m)
+    if np.any(ok):
+        rows = {"mjd_utc_mid": np.zeros(np.count_nonzero(ok)), "nucleus_mag": m[ok],
+                "nucleus_mag_err": np.ones(np.count_nonzero(ok)), "r_h_au": rh[ok],
+                "delta_au": dl[ok], "phase_deg": alpha[ok]}
+        out[ok] = reduce_lightcurve(rows, phase_law="linear",
+                                    phase_coefficient=phase_coefficient).mag
+    return out * u.mag
 
 
 @dataclass(frozen=True)
