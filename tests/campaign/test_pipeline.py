@@ -3,7 +3,6 @@ import os
 import re
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from photpipe.campaign import CampaignStore, StoreError
