@@ -7,15 +7,15 @@ close to the Sun in the sky are marked, and the Sun caution is printed above and
 import os
 import re
 import sys
-import tempfile
 import warnings
-from pathlib import Path
 
 import numpy as np
 from astropy import units as u
 from astropy.time import Time
 
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
+from photpipe.cli._errors import FAILED, OK, Failures, Problem, fail
+from photpipe.cli._files import write_atomic
 from photpipe.cli._geometry_settings import (
     GEOCENTRE,
     caution_limit,
@@ -168,23 +168,9 @@ def format_table(geometry, *, limit):
     return "\n".join(lines)
 
 
-def _write_ecsv(table, path):
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".part", dir=path.parent)
-    os.close(fd)
-    try:
-        table.write(tmp, format="ascii.ecsv", overwrite=True)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-    return path
-
-
 def execute(args):
-    """Run ``photpipe ephem``; return the exit code."""
-    try:
+    """Run ``photpipe ephem``; return the exit code (0 written, 1 any problem, named)."""
+    with Failures("ephem", Problem((ConfigError, ValueError, TypeError), FAILED)) as outcome:
         config = load_config(args.config)
         site = args.site
         if site is None:
@@ -197,9 +183,8 @@ def execute(args):
             warnings.simplefilter("always", PhotpipeWarning)
             geometry = geometry_at_location(config, location, times)
         output = args.output or os.path.join(config["campaign"]["results"], "ephemeris.ecsv")
-    except (ConfigError, ValueError, TypeError) as exc:
-        print(f"photpipe ephem: {exc}", file=sys.stderr)
-        return 1
+    if outcome.code is not None:
+        return outcome.code
 
     caution = solar_elongation_caution(geometry["elong"], limit=limit)
     target = config.get("target", {}).get("name", "target")
@@ -219,9 +204,9 @@ def execute(args):
         if not issubclass(w.category, SolarElongationWarning):
             print(f"note: {w.message}", file=sys.stderr)
     try:
-        path = _write_ecsv(geometry, output)
+        path = write_atomic(output, lambda tmp: geometry.write(tmp, format="ascii.ecsv",
+                                                                overwrite=True))
     except OSError as exc:
-        print(f"photpipe ephem: cannot write {output}: {exc}", file=sys.stderr)
-        return 1
+        return fail("ephem", f"cannot write {output}: {exc}", FAILED)
     print(f"written: {path}")
-    return 0
+    return OK

@@ -1,18 +1,16 @@
 """``photpipe rotation``: rotation period of the nucleus from the campaign lightcurve."""
 
 import json
-import os
-import sys
 import warnings
 from pathlib import Path
 
 import numpy as np
 from astropy import units as u
-from astropy.table import QTable
 
+from photpipe.cli._errors import CONFIG_PROBLEM, FAILED, OK, Failures, Problem
+from photpipe.cli._files import read_ecsv, write_atomic, write_text
 from photpipe.cli.config import ConfigError, load_config
 from photpipe.rotation import (
-    LightcurveError,
     RotationWarning,
     periodogram_figure,
     phased_figure,
@@ -46,12 +44,6 @@ ROTATION_KEYS = {
     "coma_fraction": None,
     "amplitude_phase_slope_per_deg": 0.015,
 }
-
-
-def _write_atomic(path, write):
-    tmp = path.with_name(path.name + ".part")
-    write(tmp)
-    os.replace(tmp, path)
 
 
 def run_rotation_stage(config, table, out_dir):
@@ -108,14 +100,13 @@ def run_rotation_stage(config, table, out_dir):
     files = {"json": out / "rotation.json", "candidates": out / "rotation_candidates.ecsv",
              "periodograms": out / "rotation_periodograms.png",
              "phased": out / "rotation_phased.png", "residuals": out / "rotation_residuals.png"}
-    _write_atomic(files["json"], lambda p: p.write_text(json.dumps(data, indent=2) + "\n",
-                                                        encoding="utf-8"))
-    _write_atomic(files["candidates"],
-                  lambda p: result.candidates.write(p, format="ascii.ecsv", overwrite=True))
+    write_text(files["json"], json.dumps(data, indent=2) + "\n")
+    write_atomic(files["candidates"],
+                 lambda p: result.candidates.write(p, format="ascii.ecsv", overwrite=True))
     for key, make in (("periodograms", periodogram_figure), ("phased", phased_figure),
                       ("residuals", residuals_figure)):
         fig = make(result)
-        _write_atomic(files[key], lambda p, fig=fig: fig.savefig(p, format="png", dpi=110))
+        write_atomic(files[key], lambda p, fig=fig: fig.savefig(p, format="png", dpi=110))
     data["summary"] = result.summary()
     data["files"] = {k: str(v) for k, v in files.items()}
     return data
@@ -129,26 +120,24 @@ def add_arguments(parser):
 
 
 def execute(args):
-    """Run the command; return the exit code."""
-    try:
+    """Run the command; return the exit code.
+
+    Returns 0 when a result was written, 2 for a configuration or lightcurve file that cannot be
+    read, 1 when the lightcurve cannot constrain a period or a ``[rotation]`` key is wrong.
+    """
+    with Failures("rotation", Problem(ValueError, CONFIG_PROBLEM)) as outcome:  # ConfigError too
         config = load_config(args.config)
-    except ConfigError as exc:
-        print(f"photpipe rotation: {exc}", file=sys.stderr)
-        return 2
-    results = Path(config["campaign"]["results"])
-    path = Path(args.table) if args.table else results / "lightcurve.ecsv"
-    try:
-        table = QTable.read(path, format="ascii.ecsv")
-    except (OSError, ValueError) as exc:
-        print(f"photpipe rotation: {path}: cannot read the lightcurve ({exc})", file=sys.stderr)
-        return 2
-    try:
+        results = Path(config["campaign"]["results"])
+        path = Path(args.table) if args.table else results / "lightcurve.ecsv"
+        table = read_ecsv(path, "lightcurve")
+    if outcome.code is not None:
+        return outcome.code
+    with Failures("rotation", Problem(ValueError, FAILED, str(path))) as outcome:
         data = run_rotation_stage(config, table, results)
-    except (LightcurveError, ConfigError, ValueError) as exc:
-        print(f"photpipe rotation: {path}: {exc}", file=sys.stderr)
-        return 1
+    if outcome.code is not None:
+        return outcome.code
     print(data["summary"])
     for text in data["warnings"]:
         print(f"caution: {text}")
     print(f"written: {data['files']['json']} and figures in {results}")
-    return 0
+    return OK

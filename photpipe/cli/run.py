@@ -1,13 +1,19 @@
 """``photpipe run CONFIG``: reduce every night of a campaign into its store and tables."""
 
-import sys
+from photpipe.cli._errors import (
+    CONFIG,
+    CONFIG_PROBLEM,
+    NO_DATA,
+    OK,
+    Failures,
+    Problem,
+    fail,
+    store_problem,
+)
 
 __all__ = ["HELP", "add_arguments", "execute"]
 
 HELP = "reduce every night a configuration names: calibrate, measure, store, summarise"
-
-#: Exit codes.
-OK, CONFIG_PROBLEM, STORE_PROBLEM, NOTHING_READ = 0, 2, 3, 4
 
 
 def add_arguments(parser):
@@ -33,32 +39,22 @@ def execute(args):
     cannot be used, 3 for a damaged campaign store, 4 when none of the nights could be read.
     """
     from photpipe.campaign.pipeline import run_campaign
-    from photpipe.campaign.store import StoreError
-    from photpipe.cli.config import ConfigError, load_config
+    from photpipe.cli.config import load_config
 
     if args.workers is not None and args.workers < 0:
-        print(f"photpipe run: --workers must be 0 or more, got {args.workers}", file=sys.stderr)
-        return CONFIG_PROBLEM
-    try:
+        return fail("run", f"--workers must be 0 or more, got {args.workers}", CONFIG_PROBLEM)
+    with Failures("run", CONFIG, store_problem(),
+                  Problem(ConnectionError, CONFIG_PROBLEM)) as outcome:
         config = load_config(args.config)
         summary = run_campaign(config, workers=args.workers, scheduler=args.scheduler,
                                rerun=args.rerun, progress=not args.no_progress,
                                echo=lambda line: print(line, flush=True))
-    except ConfigError as exc:
-        print(f"photpipe run: configuration problem: {exc}", file=sys.stderr)
-        return CONFIG_PROBLEM
-    except StoreError as exc:
-        print(f"photpipe run: campaign store problem: {exc}", file=sys.stderr)
-        return STORE_PROBLEM
-    except ConnectionError as exc:
-        print(f"photpipe run: {exc}", file=sys.stderr)
-        return CONFIG_PROBLEM
+    if outcome.code is not None:
+        return outcome.code
     print()
     print(summary.format())
     unread = [n for n in summary.nights if not n.counts]
     if summary.nights and len(unread) == len(summary.nights):
-        print("photpipe run: none of the nights could be read; check the [[night]] paths",
-              file=sys.stderr)
-        return NOTHING_READ
+        return fail("run", "none of the nights could be read; check the [[night]] paths", NO_DATA)
     print(f"\nresults are in {summary.results}")
     return OK

@@ -8,15 +8,14 @@ the same step for ``photpipe run``.
 import json
 import math
 import os
-import sys
-import tempfile
 import warnings
 from pathlib import Path
 
 import numpy as np
 from astropy import units as u
-from astropy.table import QTable
 
+from photpipe.cli._errors import FAILED, OK, Failures, Problem
+from photpipe.cli._files import read_ecsv, read_json, write_text
 from photpipe.cli.config import ConfigError, load_config
 from photpipe.size import assess_nucleus, mean_absolute_magnitude, reduce_magnitude
 
@@ -50,11 +49,7 @@ def read_lightcurve(path):
         msg = (f"{path}: no lightcurve there; an H needs a lightcurve behind it (run the rotation "
                "stage first, or pass --lightcurve)")
         raise ValueError(msg)
-    try:
-        table = QTable.read(path, format="ascii.ecsv")
-    except Exception as exc:  # astropy raises many kinds for a broken ECSV
-        msg = f"{path}: cannot read the lightcurve ({exc})"
-        raise ValueError(msg) from exc
+    table = read_ecsv(path, "lightcurve")
     table.meta["path"] = str(path)
     return table
 
@@ -141,31 +136,10 @@ def _plain(column, unit=None):
 
 def _read_rotation(out_dir, rotation_path):
     path = Path(rotation_path) if rotation_path else Path(out_dir) / "rotation.json"
-    if not path.is_file():
-        if rotation_path:
-            msg = f"{path}: no rotation result there"
-            raise ValueError(msg)
-        return None
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, json.JSONDecodeError) as exc:
-        msg = f"{path}: cannot read the rotation result ({exc})"
-        raise ValueError(msg) from exc
-
-
-def _write_json(path, data):
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=".size-", suffix=".json", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2, allow_nan=False)
-            fh.write("\n")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    if rotation_path and not path.is_file():
+        msg = f"{path}: no rotation result there"
+        raise ValueError(msg)
+    return read_json(path, "rotation result")
 
 
 def run_size_stage(config, lightcurve_table, out_dir, *, rotation_path=None):
@@ -272,14 +246,14 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation_path=None):
     out = result.to_dict()
     out["summary"] = result.summary()
     path = Path(out_dir) / "size.json"
-    _write_json(path, out)
+    write_text(path, json.dumps(out, indent=2, allow_nan=False) + "\n")
     out["path"] = str(path)
     return out
 
 
 def execute(args):
-    """Run ``photpipe size``; return the exit code."""
-    try:
+    """Run ``photpipe size``; return the exit code (0 written, 1 any problem, named)."""
+    with Failures("size", Problem((ConfigError, ValueError, TypeError), FAILED)) as outcome:
         config = load_config(args.config)
         out_dir = config["campaign"]["results"]
         lc_path = args.lightcurve or os.path.join(out_dir, "lightcurve.ecsv")
@@ -287,9 +261,8 @@ def execute(args):
         with warnings.catch_warnings():
             warnings.simplefilter("default")
             out = run_size_stage(config, table, out_dir, rotation_path=args.rotation)
-    except (ConfigError, ValueError, TypeError) as exc:
-        print(f"photpipe size: {exc}", file=sys.stderr)
-        return 1
+    if outcome.code is not None:
+        return outcome.code
     print(out["summary"])
     print(f"written: {out['path']}")
-    return 0
+    return OK
