@@ -13,9 +13,9 @@ import numpy as np
 from astropy import units as u
 from astropy.table import Table
 from astropy.time import Time
-from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter
 
+from photpipe._plotting import label_axes, new_figure
 from photpipe.activity._inputs import choose_aperture
 
 __all__ = ["PALETTE", "afrho_time_figure", "afrho_rh_figure", "nucleus_lightcurve_figure",
@@ -79,13 +79,13 @@ def _plain_log_ticks(axis):
     axis.set_minor_formatter(fmt)
 
 
+def _afrho_label(column):
+    return "A(0°)fρ (cm)" if column == "a0frho_cm" else "Afρ (cm)"
+
+
 def _new_figure(nrows=1, *, sharex=False):
-    fig = Figure(figsize=(8.0, 4.2 if nrows == 1 else 2.6 * nrows), layout="constrained")
-    axes = fig.subplots(nrows, 1, sharex=sharex, squeeze=False)[:, 0]
-    for ax in axes:
-        ax.grid(True, color="0.88", linewidth=0.6)
-        ax.set_axisbelow(True)
-    return fig, axes
+    return new_figure(nrows, figsize=(8.0, 4.2 if nrows == 1 else 2.6 * nrows), sharex=sharex,
+                      grid=True)
 
 
 def _mark_outbursts(ax, outbursts, perihelion_time, *, label=True):
@@ -168,10 +168,7 @@ def afrho_time_figure(measurements, *, trend=None, outbursts=None, aperture=None
     _mark_outbursts(ax, outbursts, perihelion_time)
     ax.set_yscale("log")
     _plain_log_ticks(ax.yaxis)
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("A(0°)fρ (cm)" if column == "a0frho_cm" else "Afρ (cm)")
-    ax.set_title("Dust activity against time")
-    ax.legend(fontsize=8, loc="best")
+    label_axes(ax, xlabel=xlabel, ylabel=_afrho_label(column), title="Dust activity against time")
     return fig
 
 
@@ -223,10 +220,8 @@ def afrho_rh_figure(measurements, *, trend, aperture=None, column="a0frho_cm"):
     ax.set_yscale("log")
     _plain_log_ticks(ax.xaxis)
     _plain_log_ticks(ax.yaxis)
-    ax.set_xlabel("heliocentric distance r_h (au)")
-    ax.set_ylabel("A(0°)fρ (cm)" if column == "a0frho_cm" else "Afρ (cm)")
-    ax.set_title(f"Afρ ∝ r_h^k, aperture ρ = {rho_km:g} km")
-    ax.legend(fontsize=8, loc="best")
+    label_axes(ax, xlabel="heliocentric distance r_h (au)", ylabel=_afrho_label(column),
+               title=f"Afρ ∝ r_h^k, aperture ρ = {rho_km:g} km")
     return fig
 
 
@@ -260,10 +255,8 @@ def nucleus_lightcurve_figure(nucleus, *, perihelion_time=None):
     ax.errorbar(x[good], m[good], yerr=me[good], fmt="D", ms=3, color=PALETTE["nucleus"],
                 elinewidth=0.6, label=f"nucleus, {np.count_nonzero(good)} frames")
     ax.invert_yaxis()
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("nucleus magnitude (mag)")
-    ax.set_title("Nucleus lightcurve (PSF-convolved nucleus + coma fit)")
-    ax.legend(fontsize=8, loc="best")
+    label_axes(ax, xlabel=xlabel, ylabel="nucleus magnitude (mag)",
+               title="Nucleus lightcurve (PSF-convolved nucleus + coma fit)")
     return fig
 
 
@@ -306,10 +299,8 @@ def coma_slope_figure(measurements, *, perihelion_time=None, steady_state=-1.0):
     ax.plot(x, slope, "o", ms=3, color=PALETTE["pre"], label="frames")
     ax.axhline(steady_state, color=PALETTE["reference"], lw=1.5, ls="--",
                label=f"steady-state coma ({steady_state:g})")
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("coma slope d ln Σ / d ln ρ")
-    ax.set_title("Coma surface-brightness profile slope")
-    ax.legend(fontsize=8, loc="best")
+    label_axes(ax, xlabel=xlabel, ylabel="coma slope d ln Σ / d ln ρ",
+               title="Coma surface-brightness profile slope")
     return fig
 
 
@@ -406,8 +397,6 @@ def outburst_figure(trend, outbursts=None, *, sigma=5.0):
     ax.axhline(0.0, color=PALETTE["trend"], lw=1.0)
     _mark_outbursts(ax, outbursts, trend.perihelion_time)
     ax.invert_yaxis()
-    ax.set_xlabel(xlabel)
-    ax.set_ylabel("Δm from trend (mag)")
-    ax.set_title("Departures from the activity trend (outbursts shaded)")
-    ax.legend(fontsize=8, loc="best")
+    label_axes(ax, xlabel=xlabel, ylabel="Δm from trend (mag)",
+               title="Departures from the activity trend (outbursts shaded)")
     return fig

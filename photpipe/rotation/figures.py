@@ -2,9 +2,18 @@
 
 import numpy as np
 from astropy import units as u
-from matplotlib.figure import Figure
+
+from photpipe._plotting import label_axes, new_figure
 
 __all__ = ["periodogram_figure", "phased_figure", "residuals_figure"]
+
+
+def _points_by_site(ax, sites, x, y, yerr, **style):
+    """Draw the points with error bars, one colour and legend entry per observing site."""
+    for site in sorted(set(sites)):
+        sel = sites == site
+        ax.errorbar(x[sel], y[sel], yerr[sel], fmt=".", ms=3, lw=0.5, label=site or "points",
+                    **style)
 
 
 def periodogram_figure(result):
@@ -30,8 +39,7 @@ def periodogram_figure(result):
     3
     """
     pgs = result.periodograms
-    fig = Figure(figsize=(8, 2.2 * len(pgs) + 0.6), layout="constrained")
-    axes = fig.subplots(len(pgs), 1, sharex=True, squeeze=False)[:, 0]
+    fig, axes = new_figure(len(pgs), figsize=(8, 2.2 * len(pgs) + 0.6), sharex=True)
     f_adopt = result.fit.frequency
     for ax, (name, pg) in zip(axes, pgs.items()):
         ax.plot(pg.frequency, pg.statistic, lw=0.7, color="0.2")
@@ -66,22 +74,18 @@ def phased_figure(result):
     """
     lc, fit = result.lightcurve, result.fit
     phase = fit.phase(lc.epoch_mjd)
-    fig = Figure(figsize=(7, 4), layout="constrained")
-    ax = fig.add_subplot()
-    for site in sorted(set(lc.site)):
-        sel = lc.site == site
-        ax.errorbar(np.concatenate([phase[sel], phase[sel] + 1]),
-                    np.tile(result.magnitudes[sel], 2), np.tile(lc.mag_err[sel], 2), fmt=".",
-                    ms=3, lw=0.5, alpha=0.7, label=site or "points")
+    fig, (ax,) = new_figure(figsize=(7, 4))
+    _points_by_site(ax, np.tile(lc.site, 2), np.concatenate([phase, phase + 1]),
+                    np.tile(result.magnitudes, 2), np.tile(lc.mag_err, 2), alpha=0.7)
     grid = np.linspace(0, 2, 800)
     ax.plot(grid, fit.predict(fit.t0 + grid / fit.frequency), color="k", lw=1.2,
             label=f"Fourier order {fit.order}")
     ax.invert_yaxis()
-    ax.set_xlabel(f"rotational phase (P = {result.period.to_value(u.h):.4f} h)")
-    ax.set_ylabel("reduced magnitude m(1,1,0)")
-    ax.set_title(f"{result.shape['choice']}, amplitude "
-                 f"{result.amplitude.to_value(u.mag):.3f} mag", fontsize=9)
-    ax.legend(fontsize=7)
+    label_axes(ax, xlabel=f"rotational phase (P = {result.period.to_value(u.h):.4f} h)",
+               ylabel="reduced magnitude m(1,1,0)",
+               title=f"{result.shape['choice']}, amplitude "
+                     f"{result.amplitude.to_value(u.mag):.3f} mag",
+               title_size=9, legend_size=7)
     return fig
 
 
@@ -99,15 +103,10 @@ def residuals_figure(result):
     lc, fit = result.lightcurve, result.fit
     resid = result.magnitudes - fit.predict(lc.epoch_mjd)
     t0 = np.floor(lc.epoch_mjd.min())
-    fig = Figure(figsize=(8, 3), layout="constrained")
-    ax = fig.add_subplot()
-    for site in sorted(set(lc.site)):
-        sel = lc.site == site
-        ax.errorbar(lc.epoch_mjd[sel] - t0, resid[sel], lc.mag_err[sel], fmt=".", ms=3, lw=0.5,
-                    label=site or "points")
+    fig, (ax,) = new_figure(figsize=(8, 3))
+    _points_by_site(ax, lc.site, lc.epoch_mjd - t0, resid, lc.mag_err)
     ax.axhline(0, color="k", lw=0.8)
-    ax.set_xlabel(f"days since MJD {t0:.0f} (emission time)")
-    ax.set_ylabel("observed - model (mag)")
-    ax.set_title(f"χ²/dof = {fit.chi2_reduced:.2f}", fontsize=9)
-    ax.legend(fontsize=7)
+    label_axes(ax, xlabel=f"days since MJD {t0:.0f} (emission time)",
+               ylabel="observed - model (mag)", title=f"χ²/dof = {fit.chi2_reduced:.2f}",
+               title_size=9, legend_size=7)
     return fig
