@@ -9,7 +9,11 @@ from scipy import ndimage
 
 __all__ = ["lacosmic_mask", "COSMIC_METHODS", "find_cosmic_rays"]
 
-_LACOSMIC_DEFAULTS = {"sigclip": 4.5, "sigfrac": 0.3, "objlim": 5.0, "niter": 4}
+# Two passes, not astroscrappy's four: measured on a 1024x1024 scenario frame (644 injected hit
+# pixels, 600 stars), the 2nd pass picks up the hits' neighbours and passes 3-4 add no hit and
+# only false flags (hit groups found 98.8 % either way, hit pixels 98.0 %; false flags 265 with
+# 2 passes, 291 with 4) while each pass costs ~0.2 s. See benchmarks/calibration.py.
+_LACOSMIC_DEFAULTS = {"sigclip": 4.5, "sigfrac": 0.3, "objlim": 5.0, "niter": 2}
 _EDGE_PAD = 8          # pixels of mirrored frame added on each side
 _SATURATED_GROW = 6    # pixels around saturated areas left out of the search
 

@@ -9,6 +9,8 @@ FWHM_a = 2 α_a sqrt(2^(1/β) - 1) along the major axis (Trujillo et al. 2001, M
 eq. 3 and 5).
 """
 
+from functools import lru_cache
+
 import numpy as np
 from numpy.polynomial.legendre import leggauss
 
@@ -80,6 +82,19 @@ def moffat_surface(x, y, *, fwhm, beta, ellipticity=0.0, angle=0.0):
     return (beta - 1.0) / (np.pi * aa * ab) * (1.0 + u_**2 + v_**2) ** (-beta)
 
 
+@lru_cache(maxsize=8)
+def _pixel_nodes(nodes):
+    """Gauss-Legendre nodes and weights on [-1/2, 1/2], computed once per order.
+
+    The PSF fits call `moffat_pixel_image` thousands of times per frame.
+    """
+    t, w = leggauss(nodes)
+    t, w = 0.5 * t, 0.5 * w
+    t.flags.writeable = False
+    w.flags.writeable = False
+    return t, w
+
+
 def moffat_pixel_image(shape, x0, y0, *, fwhm, beta, ellipticity=0.0, angle=0.0, nodes=4):
     """Moffat integrated over each pixel of an image: a unit-flux point source at (x0, y0).
 
@@ -111,9 +126,7 @@ def moffat_pixel_image(shape, x0, y0, *, fwhm, beta, ellipticity=0.0, angle=0.0,
     1.0
     """
     ny, nx = shape
-    t, w = leggauss(nodes)
-    t = 0.5 * t
-    w = 0.5 * w
+    t, w = _pixel_nodes(int(nodes))
     xs = (np.arange(nx)[:, None] + t[None, :]).ravel() - x0
     ys = (np.arange(ny)[:, None] + t[None, :]).ravel() - y0
     img = moffat_surface(xs[None, :], ys[:, None], fwhm=fwhm, beta=beta,

@@ -3,13 +3,14 @@ import pytest
 from astropy import units as u
 
 from photpipe._warnings import PoorResultWarning
-from photpipe.nucleus import PSFModel, measure_psf
+from photpipe.nucleus import PSFModel, fits_to_the_noise, measure_psf
+from photpipe.nucleus.moffat import moffat_pixel_image
 
 
 @pytest.mark.slow
 def test_moffat_psf_recovers_scenario_fwhm(star_frame):
     frame, xy, truth = star_frame
-    psf = measure_psf(frame, xy)
+    psf = measure_psf(frame, xy, epsf="always")
     assert psf.n_stars >= 5
     assert psf.flags == ()
     assert set(psf.scores) == {"moffat", "epsf"}
@@ -18,6 +19,41 @@ def test_moffat_psf_recovers_scenario_fwhm(star_frame):
     assert psf.ellipticity < 0.05
     if psf.method == "moffat":
         assert psf.beta == pytest.approx(3.0, rel=0.15)
+
+
+def _grid_frame(make_frame, halo, seed, flux=3e4):
+    """Stars on a grid: a Moffat (FWHM 3 px, β = 3), plus a broad halo of that share of the flux."""
+    rng = np.random.default_rng(seed)
+    signal = np.full((200, 200), 200.0)
+    xy = [(x + rng.uniform(-0.5, 0.5), y + rng.uniform(-0.5, 0.5))
+          for x in range(20, 190, 30) for y in range(20, 190, 30)]
+    for x, y in xy:
+        signal += flux * ((1.0 - halo) * moffat_pixel_image(signal.shape, x, y, fwhm=3.0, beta=3.0)
+                         + halo * moffat_pixel_image(signal.shape, x, y, fwhm=9.0, beta=2.0))
+    return make_frame(signal, rng), xy
+
+
+def test_epsf_not_built_when_the_moffat_fits_to_the_noise(make_frame):
+    frame, xy = _grid_frame(make_frame, 0.0, 8)
+    both = measure_psf(frame, xy, epsf="always")
+    psf = measure_psf(frame, xy)
+    # the stars are Moffats, so the Moffat fits them to the noise and only it is scored
+    assert set(both.scores) == {"moffat", "epsf"} and both.method == "moffat"
+    assert set(psf.scores) == {"moffat"} and psf.method == "moffat"
+    assert psf.scores["moffat"] == both.scores["moffat"]
+    assert (psf.fwhm_pix, psf.beta) == (both.fwhm_pix, both.beta)
+    # truth: the rendered FWHM 3 px
+    assert psf.fwhm_pix == pytest.approx(3.0, rel=0.02)
+
+
+def test_epsf_built_when_the_moffat_misfits(make_frame):
+    # a core plus a broad halo (the sum of two Moffats) is no single Moffat
+    frame, xy = _grid_frame(make_frame, 0.3, 8, flux=3e5)
+    psf = measure_psf(frame, xy)
+    assert set(psf.scores) == {"moffat", "epsf"}
+    assert not fits_to_the_noise(psf.scores["moffat"], len(xy) * 25 * 25 // 2)
+    with pytest.raises(ValueError, match="'epsf' must be one of"):
+        measure_psf(frame, xy, epsf="sometimes")
 
 
 @pytest.mark.slow
