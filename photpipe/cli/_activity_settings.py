@@ -8,13 +8,11 @@ Keys (all optional): ``outburst_sigma`` (5.0), ``jump_sigma`` (3.0), ``quiet_sig
 limit is ``[geometry] caution_elongation_deg`` (20), read as the ephemeris command reads it.
 """
 
-import math
-
 from astropy import units as u
 from astropy.time import Time
 
 from photpipe.cli._geometry_settings import caution_limit
-from photpipe.cli.config import ConfigError
+from photpipe.cli.config import ConfigError, number_setting
 
 __all__ = ["activity_settings"]
 
@@ -24,20 +22,8 @@ _DEFAULT_EXCLUDE = ("upper_limit", "saturated")
 
 
 def _number(section, key, default, where, *, low=None, high=None):
-    value = section.get(key, default)
-    if value is None:
-        return None
-    try:
-        value = float(value)
-    except (TypeError, ValueError) as exc:
-        msg = f"{where}: [activity] {key} must be a number, got {value!r}"
-        raise ConfigError(msg) from exc
-    if not math.isfinite(value) or (low is not None and value <= low) or (
-            high is not None and value > high):
-        bounds = f"above {low}" + (f" and at most {high}" if high is not None else "")
-        msg = f"{where}: [activity] {key} must be {bounds}, got {value}"
-        raise ConfigError(msg)
-    return value
+    return number_setting(section, key, f"{where}: [activity]", default=default, low=low,
+                          high=high)
 
 
 def activity_settings(config):

@@ -5,14 +5,13 @@ with the configuration file's name and the offending key.
 """
 
 import datetime as _dt
-import math
 from pathlib import Path
 
 from astropy import units as u
 from astropy.table import Table
 from astropy.time import Time
 
-from photpipe.cli.config import ConfigError
+from photpipe.cli.config import ConfigError, number_setting
 from photpipe.geometry import (
     DEFAULT_CAUTION_ELONGATION,
     EPHEMERIDES,
@@ -41,15 +40,7 @@ def _file(config):
 
 
 def _number(section, key, where, config):
-    value = section[key]
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        msg = f"{_file(config)}: {where} {key} must be a number, got {value!r}"
-        raise ConfigError(msg)
-    value = float(value)
-    if not math.isfinite(value):
-        msg = f"{_file(config)}: {where} {key} must be finite, got {value}"
-        raise ConfigError(msg)
-    return value
+    return number_setting(section, key, f"{_file(config)}: {where}")
 
 
 def _tdb_time(section, key, where, config):

@@ -6,11 +6,12 @@ sections every run needs, and reports problems with the file name and the key.
 """
 
 import glob
+import math
 import os
 import tomllib
 from pathlib import Path
 
-__all__ = ["ConfigError", "load_config", "night_folders", "PATH_KEYS"]
+__all__ = ["ConfigError", "load_config", "night_folders", "number_setting", "PATH_KEYS"]
 
 #: Keys (section path, key) whose values are file paths, resolved against the config's folder.
 PATH_KEYS = {
@@ -39,6 +40,56 @@ _DEFAULTS = {
 
 class ConfigError(ValueError):
     """A configuration file that cannot be used; the message names the file and the key."""
+
+
+def number_setting(section, key, where, *, default=None, low=None, high=None):
+    """Return ``section[key]`` (or ``default``) as a checked float; None when neither is set.
+
+    Parameters
+    ----------
+    section : dict
+        One section of a loaded configuration.
+    key : str
+        The key.
+    where : str
+        The file and section for the message, e.g. ``"demo.toml: [size]"``.
+    default : float, optional
+        The value when the key is absent.
+    low, high : float, optional
+        The value must be above ``low`` and at most ``high``.
+
+    Raises
+    ------
+    ConfigError
+        ``"<where> <key> must be a number / finite / positive / above L and at most H, got
+        <value>"``; a TOML boolean or string is not a number.
+
+    Examples
+    --------
+    >>> number_setting({"albedo": 0.04}, "albedo", "c.toml: [size]", low=0.0)
+    0.04
+    >>> number_setting({}, "albedo", "c.toml: [size]", low=0.0) is None
+    True
+    """
+    value = section.get(key, default)
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        msg = f"{where} {key} must be a number, got {value!r}"
+        raise ConfigError(msg)
+    value = float(value)
+    if not math.isfinite(value):
+        msg = f"{where} {key} must be finite, got {value}"
+        raise ConfigError(msg)
+    if (low is not None and value <= low) or (high is not None and value > high):
+        if low == 0 and high is None:
+            bounds = "positive"
+        else:
+            bounds = " and ".join(([f"above {low}"] if low is not None else [])
+                                  + ([f"at most {high}"] if high is not None else []))
+        msg = f"{where} {key} must be {bounds}, got {value}"
+        raise ConfigError(msg)
+    return value
 
 
 def load_config(path):

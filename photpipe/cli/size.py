@@ -16,7 +16,7 @@ from astropy import units as u
 
 from photpipe.cli._errors import FAILED, OK, Failures, Problem
 from photpipe.cli._files import read_ecsv, read_json, write_text
-from photpipe.cli.config import ConfigError, load_config
+from photpipe.cli.config import ConfigError, load_config, number_setting
 from photpipe.size import assess_nucleus, mean_absolute_magnitude, reduce_magnitude
 
 __all__ = ["HELP", "add_arguments", "execute", "run_size_stage", "read_lightcurve"]
@@ -54,19 +54,9 @@ def read_lightcurve(path):
     return table
 
 
-def _section_value(size, key, name_of_file, *, kind=float, positive=False, default=None):
-    value = size.get(key, default)
-    if value is None:
-        return None
-    try:
-        value = kind(value)
-    except (TypeError, ValueError) as exc:
-        msg = f"{name_of_file}: [size] {key} must be a {kind.__name__}, got {value!r}"
-        raise ConfigError(msg) from exc
-    if positive and not (math.isfinite(value) and value > 0):
-        msg = f"{name_of_file}: [size] {key} must be positive, got {value}"
-        raise ConfigError(msg)
-    return value
+def _section_value(size, key, name_of_file, *, positive=False, default=None):
+    return number_setting(size, key, f"{name_of_file}: [size]", default=default,
+                          low=0.0 if positive else None)
 
 
 def _pair(size, key, name_of_file, default=None):

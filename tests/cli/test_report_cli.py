@@ -73,7 +73,7 @@ def test_no_measurements(tmp_path, capsys):
 @pytest.mark.parametrize(
     ("activity", "match"),
     [
-        pytest.param("outburst_sigma = -1\n", "[activity] outburst_sigma must be above 0.0",
+        pytest.param("outburst_sigma = -1\n", "[activity] outburst_sigma must be positive",
                      id="negative-sigma"),
         pytest.param('fit_method = "magic"\n', "[activity] fit_method must be one of",
                      id="bad-method"),

@@ -131,7 +131,7 @@ def test_upper_limits_are_left_out(tmp_path):
     pytest.param("mass_loss_kg_s = 150.0\noutflow_speed_m_s = 440.0\n"
                  "nongrav_accel_limit_m_day2 = -15.0", "[size] nongrav_accel_limit_m_day2 "
                  "must be positive", id="accel-negative"),
-    pytest.param("albedo = \"dark\"", "[size] albedo must be a float", id="albedo-text"),
+    pytest.param("albedo = \"dark\"", "[size] albedo must be a number", id="albedo-text"),
 ])
 def test_bad_config_values(tmp_path, capsys, line, message):
     cfg = write_config(tmp_path, line)
