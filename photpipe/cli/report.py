@@ -138,8 +138,8 @@ def execute(args):
         results = config["campaign"]["results"]
         return fail("report", f"no measurements under {results} (no measurements.ecsv and no "
                     "campaign store); run 'photpipe run' first", NO_DATA)
-    with Failures("report", Problem(OSError, CONFIG_PROBLEM, "cannot write the report")) \
-            as outcome:
+    cannot_write = Problem(OSError, CONFIG_PROBLEM, "cannot write the report")
+    with Failures("report", cannot_write) as outcome:
         path = run_report_stage(config, measurements, nucleus, extra, report_path=args.output)
     if outcome.code is not None:
         return outcome.code
