@@ -1,7 +1,14 @@
 """The synthetic comet: a point-source nucleus plus a K/ρ coma, seen through the PSF.
 
-The coma is integrated exactly over each pixel (:func:`photpipe.nucleus.coma.coma_image`), then
+The coma is integrated exactly over each pixel (:func:`photpipe.nucleus.coma.coma_image`) on a
+frame padded by the PSF half-width (so light from coma beyond the frame edge spreads in), then
 convolved with the pixel-sampled PSF; the nucleus is a PSF stamp at the sub-pixel position.
+
+Convolving pixel sums with a pixel-sampled kernel blurs the pixel twice, which leaves the steep
+1/ρ core a few per cent low in the central pixels (-1 % in the peak pixel and up to 4 % within
+3 pixels for FWHM 2.5 px). Given a finely sampled kernel, :func:`render_comet` redoes a box of
+±3 FWHM around the nucleus on a grid ``core_oversample`` times finer and sums it back into
+pixels, which brings the core to within about 0.1 % of a plain 7x oversampled rendering.
 """
 
 from dataclasses import dataclass
@@ -88,7 +95,8 @@ def coma_k_from_afrho(afrho, *, r_h, delta, pixel_scale, zero_point, m_sun):
     return k * u.electron / u.s
 
 
-def render_comet(shape, x0, y0, *, nucleus_flux, coma_k, psf_kernel, stamp_of):
+def render_comet(shape, x0, y0, *, nucleus_flux, coma_k, psf_kernel, stamp_of,
+                 fine_kernel_of=None, core_oversample=7):
     """Noise-free comet image in electrons (or whatever unit the fluxes are in).
 
     Parameters
@@ -105,6 +113,12 @@ def render_comet(shape, x0, y0, *, nucleus_flux, coma_k, psf_kernel, stamp_of):
         Centred, unit-sum PSF kernel for the coma convolution.
     stamp_of : callable
         ``stamp_of(dx, dy) -> ndarray`` gives a unit-sum PSF stamp offset by (dx, dy).
+    fine_kernel_of : callable, optional
+        ``fine_kernel_of(n) -> ndarray``: the same PSF, centred, unit sum, sampled on a grid
+        ``n`` times finer, of side ``n`` times that of ``psf_kernel``. When given, the coma core
+        is rendered on that finer grid (see the module notes).
+    core_oversample : int, optional
+        Odd refinement factor for the core.
 
     Returns
     -------
@@ -112,10 +126,52 @@ def render_comet(shape, x0, y0, *, nucleus_flux, coma_k, psf_kernel, stamp_of):
     """
     image = np.zeros(shape)
     if coma_k > 0:
-        image += fftconvolve(coma_image(shape, x0, y0, coma_k), psf_kernel, mode="same")
+        image += _coma_through_psf(shape, x0, y0, coma_k, psf_kernel)
+        if fine_kernel_of is not None:
+            _refine_core(image, x0, y0, coma_k, psf_kernel.shape[0] // 2, fine_kernel_of,
+                         core_oversample)
     if nucleus_flux > 0:
         add_stamp(image, x0, y0, nucleus_flux, stamp_of)
     return image
+
+
+def _coma_through_psf(shape, x0, y0, k, kernel):
+    """Pixel-integrated coma on the frame padded by the kernel half-width, convolved, cropped."""
+    pad = kernel.shape[0] // 2
+    ny, nx = shape
+    big = coma_image((ny + 2 * pad, nx + 2 * pad), x0 + pad, y0 + pad, k)
+    return fftconvolve(big, kernel, mode="same")[pad:pad + ny, pad:pad + nx]
+
+
+def _refine_core(image, x0, y0, k, pad, fine_kernel_of, n):
+    """Replace the core box of ``image`` by the coma rendered on an ``n`` times finer grid."""
+    if n < 1 or n % 2 != 1:
+        msg = f"'core_oversample' must be a positive odd integer, got {n}"
+        raise ValueError(msg)
+    kernel = fine_kernel_of(n)
+    if kernel.shape != ((2 * pad + 1) * n,) * 2:
+        msg = (f"fine kernel must be {(2 * pad + 1) * n} pixels square for n = {n}, "
+               f"got {kernel.shape}")
+        raise ValueError(msg)
+    # Box of ±half coarse pixels around the nucleus; the fine grid adds the PSF reach on all sides.
+    half = int(np.ceil(pad / 2))  # the stamp reaches 6 FWHM, so this is about 3 FWHM
+    ix, iy = int(np.round(x0)), int(np.round(y0))
+    side = 2 * (half + pad) + 1
+    lo_x, lo_y = ix - half - pad, iy - half - pad
+    # Coarse pixel i covers fine pixels i n ... i n + n - 1; its centre is at i n + (n - 1) / 2.
+    fx = (x0 - lo_x + 0.5) * n - 0.5
+    fy = (y0 - lo_y + 0.5) * n - 0.5
+    fine = coma_image((side * n, side * n), fx, fy, k / n)  # K/ρ: ρ_fine = n ρ, area 1/n²
+    fine = fftconvolve(fine, kernel, mode="same")
+    core = fine.reshape(side, n, side, n).sum(axis=(1, 3))[pad:pad + 2 * half + 1,
+                                                           pad:pad + 2 * half + 1]
+    ny, nx = image.shape
+    y_a, y_b = max(iy - half, 0), min(iy + half + 1, ny)
+    x_a, x_b = max(ix - half, 0), min(ix + half + 1, nx)
+    if y_b <= y_a or x_b <= x_a:
+        return
+    by, bx = y_a - (iy - half), x_a - (ix - half)
+    image[y_a:y_b, x_a:x_b] = core[by:by + y_b - y_a, bx:bx + x_b - x_a]
 
 
 def add_stamp(image, x, y, flux, stamp_of):

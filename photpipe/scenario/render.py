@@ -266,9 +266,14 @@ def render_frame(kind, instrument, *, time, exptime, filter="R", pointing=None, 
                 coma_k_e = k.to_value(u.electron / u.s) * t_exp
             elif comet.coma_k is not None:
                 coma_k_e = comet.coma_k.to_value(u.electron / u.s) * t_exp
+            def fine_kernel_of(n):
+                return moffat_stamp(size * n, 0.0, 0.0, fwhm_pix * n, moffat_beta,
+                                    ellipticity=ellipticity, oversample=1)
+
             kernel = stamp_of(0.0, 0.0)
             signal += render_comet(shape, cx, cy, nucleus_flux=nucleus_e, coma_k=coma_k_e,
-                                   psf_kernel=kernel, stamp_of=stamp_of)
+                                   psf_kernel=kernel, stamp_of=stamp_of,
+                                   fine_kernel_of=fine_kernel_of)
     elif kind == "flat":
         signal += as_positive_value(flat_level, u.electron, "flat_level")
 
