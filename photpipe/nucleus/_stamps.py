@@ -97,7 +97,8 @@ def fit_linear(basis, data, sigma):
 def fit_profile_to_stamp(stamp, render):
     """Fit flux, sky and position of one star with a fixed PSF shape.
 
-    ``render(shape, x, y)`` gives the unit-flux PSF image. Returns (chi2, dof, x, y, flux).
+    ``render(shape, x, y)`` gives the unit-flux PSF image. Returns (chi2, dof, x, y, flux,
+    residual), ``residual`` being (data - model) / sigma on the stamp, NaN on unusable pixels.
     """
     g = stamp.good
     d = stamp.data[g]
@@ -116,4 +117,6 @@ def fit_profile_to_stamp(stamp, render):
     img = render(shape, *res.x)[g]
     coef = fit_linear(np.vstack([img, ones]), d, s)
     chi2 = float(np.sum(res.fun**2))
-    return chi2, d.size - 4, res.x[0], res.x[1], coef[0]
+    residual = np.full(shape, np.nan)
+    residual[g] = (d - coef @ np.vstack([img, ones])) / s
+    return chi2, d.size - 4, res.x[0], res.x[1], coef[0], residual
