@@ -14,7 +14,8 @@ from astropy.io import fits
 
 from .errors import FrameError
 
-__all__ = ["open_image", "read_image", "RowReader", "write_atomic", "merged_header"]
+__all__ = ["open_image", "read_image", "stored_image", "RowReader", "write_atomic",
+           "merged_header"]
 
 # keywords that describe one HDU's layout and must not be copied from the primary header
 _STRUCTURAL = {"SIMPLE", "EXTEND", "BITPIX", "NAXIS", "NAXIS1", "NAXIS2", "NAXIS3", "PCOUNT",
@@ -55,8 +56,10 @@ def _check_size(path, hdul, index):
 
 
 @contextlib.contextmanager
-def open_image(path, *, memmap=False):
+def open_image(path, *, memmap=False, scale=True):
     """Open a FITS file and yield ``(hdul, index)`` of its first image HDU with data.
+
+    With ``scale=False`` the data come as stored (BZERO/BSCALE not applied).
 
     Raises
     ------
@@ -71,7 +74,8 @@ def open_image(path, *, memmap=False):
             # astropy warns about truncation and fixable header cards; truncation is checked
             # below from the file size, header fixes are harmless for reading
             warnings.simplefilter("ignore")
-            hdul = fits.open(path, memmap=memmap, lazy_load_hdus=False)
+            hdul = fits.open(path, memmap=memmap, lazy_load_hdus=False,
+                             do_not_scale_image_data=not scale)
     except (OSError, ValueError, TypeError, IndexError, KeyError) as exc:
         raise FrameError(path, f"not a readable FITS file ({exc})") from exc
     try:
@@ -115,6 +119,37 @@ def read_image(path, *, dtype=np.float32):
             raise FrameError(path, f"image data cannot be read, file damaged or truncated "
                                    f"({exc})") from exc
         return _as_2d(data, path).astype(dtype, copy=False)
+
+
+@contextlib.contextmanager
+def stored_image(path):
+    """Yield ``(array, bscale, bzero)``: the first image as stored, read without a copy.
+
+    An uncompressed image is memory-mapped and left as the file's integers (big-endian), so the
+    caller converts it once, block by block, as it computes; physical values are
+    ``array * bscale + bzero``. A compressed image is decoded to float32 (scale 1, zero 0). The
+    array is valid only inside the ``with`` block.
+    """
+    path = os.fspath(path)
+    with open_image(path, memmap=True, scale=False) as (hdul, index):
+        hdu = hdul[index]
+        header = hdu.header
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                if isinstance(hdu, fits.CompImageHDU) or "BLANK" in header:
+                    data, bscale, bzero = None, 1.0, 0.0
+                else:
+                    data = hdu.data
+                    bscale = float(header.get("BSCALE", 1.0))
+                    bzero = float(header.get("BZERO", 0.0))
+        except (OSError, ValueError, TypeError, EOFError) as exc:
+            raise FrameError(path, f"image data cannot be read, file damaged or truncated "
+                                   f"({exc})") from exc
+        if data is not None:
+            yield _as_2d(data, path), bscale, bzero
+            return
+    yield read_image(path), 1.0, 0.0
 
 
 class RowReader:
