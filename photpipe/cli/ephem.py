@@ -14,7 +14,7 @@ from astropy import units as u
 from astropy.time import Time
 
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
-from photpipe.cli._errors import FAILED, OK, Failures, Problem, fail
+from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
 from photpipe.cli._files import write_atomic
 from photpipe.cli._geometry_settings import (
     GEOCENTRE,
@@ -22,7 +22,7 @@ from photpipe.cli._geometry_settings import (
     geometry_at_location,
     location_for_site,
 )
-from photpipe.cli.config import ConfigError, load_config
+from photpipe.cli.config import load_config
 from photpipe.geometry import solar_elongation_caution
 
 __all__ = ["HELP", "add_arguments", "execute", "parse_step", "time_grid", "format_table",
@@ -169,8 +169,11 @@ def format_table(geometry, *, limit):
 
 
 def execute(args):
-    """Run ``photpipe ephem``; return the exit code (0 written, 1 any problem, named)."""
-    with Failures("ephem", Problem((ConfigError, ValueError, TypeError), FAILED)) as outcome:
+    """Run ``photpipe ephem``.
+
+    Returns the exit code: 0 written, 2 a configuration problem, 1 any other problem (named).
+    """
+    with Failures("ephem", CONFIG, Problem((ValueError, TypeError), FAILED)) as outcome:
         config = load_config(args.config)
         site = args.site
         if site is None:

@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 from astropy import units as u
 
-from photpipe.cli._errors import FAILED, OK, Failures, Problem
+from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem
 from photpipe.cli._files import read_ecsv, read_json, write_text
 from photpipe.cli.config import ConfigError, load_config, number_setting
 from photpipe.size import assess_nucleus, mean_absolute_magnitude, reduce_magnitude
@@ -242,8 +242,11 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation_path=None):
 
 
 def execute(args):
-    """Run ``photpipe size``; return the exit code (0 written, 1 any problem, named)."""
-    with Failures("size", Problem((ConfigError, ValueError, TypeError), FAILED)) as outcome:
+    """Run ``photpipe size``.
+
+    Returns the exit code: 0 written, 2 a configuration problem, 1 any other problem (named).
+    """
+    with Failures("size", CONFIG, Problem((ValueError, TypeError), FAILED)) as outcome:
         config = load_config(args.config)
         out_dir = config["campaign"]["results"]
         lc_path = args.lightcurve or os.path.join(out_dir, "lightcurve.ecsv")

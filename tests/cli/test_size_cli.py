@@ -136,7 +136,7 @@ def test_upper_limits_are_left_out(tmp_path):
 def test_bad_config_values(tmp_path, capsys, line, message):
     cfg = write_config(tmp_path, line)
     make_lightcurve().write(tmp_path / "results" / "lightcurve.ecsv")
-    assert run_cli([str(cfg)]) == 1
+    assert run_cli([str(cfg)]) == 2  # a configuration problem, as for every command
     assert message in capsys.readouterr().err
 
 
