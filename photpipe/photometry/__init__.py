@@ -1,13 +1,18 @@
 """Photometry: reference stars, WCS refinement, zero point, comet apertures in km, profiles, Afρ.
 
 The stage's entry point is :func:`measure_comet_frame`; the pure pieces (Afρ, solar magnitudes,
-dust phase functions, profile slope, sky estimators) are importable on their own.
+dust phase functions, profile slope, sky estimators, airmass, the coma aperture
+correction) are importable on their own.
 """
 
 from .afrho import *  # noqa: F401,F403
 from .afrho import __all__ as _afrho_all
+from .airmass import *  # noqa: F401,F403
+from .airmass import __all__ as _airmass_all
 from .astrometry import *  # noqa: F401,F403
 from .astrometry import __all__ as _astrometry_all
+from .coma_apcorr import *  # noqa: F401,F403
+from .coma_apcorr import __all__ as _coma_apcorr_all
 from .cometphot import *  # noqa: F401,F403
 from .cometphot import __all__ as _cometphot_all
 from .detection import *  # noqa: F401,F403
@@ -49,7 +54,9 @@ from .zeropoint import __all__ as _zeropoint_all
 
 __all__ = (
     _afrho_all +
+    _airmass_all +
     _astrometry_all +
+    _coma_apcorr_all +
     _cometphot_all +
     _detection_all +
     _dust_phase_all +

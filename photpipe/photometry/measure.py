@@ -15,7 +15,9 @@ from photpipe.frames.types import CalibratedFrame, Quality
 from ._inputs import angle_or_pixels, geometry_values
 from .afrho import afrho as afrho_of
 from .afrho import afrho_uncertainty
+from .airmass import frame_airmass, header_airmass
 from .astrometry import apply_to_wcs, match_stars
+from .coma_apcorr import MoffatGrowth, coma_aperture_correction, fit_moffat_growth
 from .cometphot import comet_aperture_fluxes, fill_from_rings
 from .detection import detect_sources, measure_fwhm, sky_statistics
 from .dust_phase import dust_phase
@@ -53,6 +55,8 @@ _FLAG_TEXT = {
     "profile_short": "too few profile annuli in the slope range",
     "no_sun_pa": "no pa_sun in the geometry row; sector profiles not made",
     "no_solar_magnitude": "no solar magnitude for the band; Afρ not computed",
+    "psf_fallback": ("too few field stars for a curve-of-growth PSF; the coma aperture correction "
+                     "assumes a Moffat beta = 3 of the measured FWHM"),
     "low_elongation": ("small solar elongation: pointing optics near the Sun can blind and damage "
                        "them; follow local rules and experienced practice"),
 }
@@ -134,7 +138,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
                         sector_half_width=45 * u.deg, min_stars=5, centroid_box=None,
                         max_centroid_shift=5 * u.arcsec, max_wcs_offset=30 * u.arcsec,
                         wcs_shift_limit=3 * u.pix, detect_threshold=5.0, detect_binning=2,
-                        star_aperture_fwhm=1.5, max_zp_stars=150, min_elongation=45 * u.deg):
+                        star_aperture_fwhm=1.5, max_zp_stars=150, min_elongation=45 * u.deg,
+                        coma_correction=True, site=None, airmass_formula="kasten-young"):
     """Measure the comet in one calibrated frame against the field stars.
 
     Parameters
@@ -201,6 +206,13 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         includes saturated ones that are then rejected).
     min_elongation : `~astropy.units.Quantity` ['angle'], optional
         Below this solar elongation the rows carry ``low_elongation`` and a caution.
+    coma_correction : bool, optional
+        Correct the comet's aperture sums for the coma light the PSF spreads out of them
+        (column ``coma_apcorr_mag``; see :mod:`photpipe.photometry.coma_apcorr`).
+    site : `~astropy.coordinates.EarthLocation`, optional
+        The observing site; used to compute the airmass when the header has no AIRMASS.
+    airmass_formula : str, optional
+        Key of `~photpipe.photometry.airmass.AIRMASS_FORMULAS` for a computed airmass.
 
     Returns
     -------
@@ -226,7 +238,11 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     al. (1984, AJ 89, 579) with the solar magnitude of Willmer (2018, ApJS 236, 47); A(0°)fρ =
     Afρ / Φ(α) with the chosen dust phase function. The comet flux error is the CCD equation with
     the variance plane plus the sky error; the magnitude error adds the zero-point error in
-    quadrature. Airmass is the header's AIRMASS when present, NaN otherwise.
+    quadrature. The comet's aperture sums are multiplied by the aperture correction of a 1/ρ coma
+    seen through the PSF fitted to the stars' curve of growth (`coma_aperture_correction`), so
+    that Afρ does not fall in small apertures. Airmass is the header's AIRMASS when present;
+    otherwise, given ``site``, it is computed from the mid-exposure time and the comet's position
+    (`frame_airmass`) and the rows carry ``airmass_computed``; otherwise NaN.
 
     Examples
     --------
@@ -375,6 +391,20 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     if not np.isfinite(apcorr):
         apcorr = 1.0
     details["aperture_correction_scatter"] = apcorr_scatter
+    star_annulus = (5.0 * fwhm, 8.0 * fwhm)
+    psf_model = None
+    if coma_correction:
+        growth = np.column_stack([np.asarray(phot[f"flux_{k}"], float)
+                                  for k in range(len(star_radii))])[usable]
+        snr = f_small[usable] / f_small_err[usable]
+        best = np.argsort(-snr)[:30]
+        psf_model = fit_moffat_growth(star_radii, growth[best], annulus=star_annulus,
+                                      fwhm_guess=fwhm)
+        if psf_model is None:
+            _flag(flags, messages, "psf_fallback")
+            psf_model = MoffatGrowth(fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / 3.0) - 1.0)), 3.0)
+        details["psf_moffat"] = {"alpha_pix": psf_model.alpha, "beta": psf_model.beta,
+                                 "fwhm_pix": psf_model.fwhm}
     flux_s = f_small * apcorr / exptime
     flux_s_err = f_small_err * apcorr / exptime
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -473,6 +503,13 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
                                          mask_all | ~inner, rho)
     flux, flux_err = comet_aperture_fluxes(filled, filled_var, xc - x0c, yc - y0c, radii,
                                            sky_error=sky.error)
+    details["flux_uncorrected_e"] = flux
+    if psf_model is not None:
+        coma_factor = coma_aperture_correction(radii, psf_model, reference_radius=star_radii[-1],
+                                               annulus=star_annulus)
+        flux, flux_err = flux * coma_factor, flux_err * coma_factor
+    else:
+        coma_factor = np.ones(len(radii))
     quality = frame.quality[y0c:y1c, x0c:x1c]
 
     lap("comet_apertures")
@@ -578,11 +615,14 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
 
     ra_c, dec_c = (float(v) for v in wcs.pixel_to_world_values(xc, yc))
     n = len(radii)
-    airmass = frame.info.header.get("AIRMASS", np.nan) if frame.info.header is not None else np.nan
-    try:
-        airmass = float(airmass)
-    except (TypeError, ValueError):
-        airmass = float("nan")
+    airmass = header_airmass(frame.info.header)
+    if not np.isfinite(airmass) and site is not None:
+        airmass, altitude = frame_airmass(frame.info.time_mid, site, ra_c * u.deg, dec_c * u.deg,
+                                          formula=airmass_formula)
+        details["altitude_deg"] = float(altitude.to_value(u.deg))
+        # a fact about the row, not a problem: recorded in the rows' flags without a warning
+        row_flags = [",".join([f for f in fl.split(",") if f] + ["airmass_computed"])
+                     for fl in row_flags]
     comet = QTable({
         "frame": [name] * n,
         "mjd_utc_mid": np.full(n, frame.info.time_mid.utc.mjd) * u.d,
@@ -609,6 +649,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         "a0frho_cm": np.asarray(a0) * u.cm,
         "a0frho_err_cm": np.asarray(a0_err) * u.cm,
         "coma_slope": np.full(n, slope),
+        "coma_apcorr_mag": 2.5 * np.log10(coma_factor) * u.mag,
         "flags": row_flags,
     })
     comet = comet[list(MEASUREMENT_COLUMNS)]

@@ -14,7 +14,7 @@ MEASUREMENT_COLUMNS = (
     "frame", "mjd_utc_mid", "filter", "exptime_s", "airmass", "zp_mag", "zp_err_mag", "n_stars",
     "x_pix", "y_pix", "ra_deg", "dec_deg", "r_h_au", "delta_au", "phase_deg", "elong_deg",
     "rho_km", "rho_arcsec", "mag", "mag_err", "afrho_cm", "afrho_err_cm", "a0frho_cm",
-    "a0frho_err_cm", "coma_slope", "flags",
+    "a0frho_err_cm", "coma_slope", "coma_apcorr_mag", "flags",
 )
 
 
