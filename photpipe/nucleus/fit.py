@@ -15,7 +15,7 @@ from photpipe.frames.types import CalibratedFrame
 
 from ._cutout import cut_comet_box
 from ._render import ComponentRenderer
-from ._separable import fit_separable
+from ._separable import fit_separable, weighted_jacobian
 from .profile import fit_radial_profile
 from .psf import PSFModel
 
@@ -160,13 +160,27 @@ class NucleusFit:
 
 
 def _bootstrap(data, sigma, model, basis_fn, params, names, n, rng):
-    """Residual bootstrap: refit model + resampled normalised residuals ``n`` times."""
+    """Residual bootstrap: refit model + resampled normalised residuals ``n`` times.
+
+    Each refit is a full non-linear fit; it starts from the best fit moved by one Gauss-Newton
+    step for the resampled data, taken with the Jacobian at the best fit (computed once), so that
+    it starts close to its own minimum.
+    """
     r = (data - model) / sigma
+    varying = [k for k, p in params.items() if p.vary]
+    theta = params.valuesdict()
+    coef = np.linalg.lstsq((basis_fn(theta) / sigma).T, model / sigma, rcond=None)[0]
+    jac = weighted_jacobian(basis_fn, theta, coef, sigma, {k: _STEPS[k] for k in varying})
+    solve = np.linalg.pinv(jac)[len(names):]
     out = []
     for _ in range(n):
-        fake = model + sigma * rng.choice(r, size=r.size, replace=True)
-        res = fit_separable(fake, sigma, basis_fn, params, names, steps=_STEPS, max_nfev=80,
-                            xtol=1e-4, covariance=False)
+        noise = sigma * rng.choice(r, size=r.size, replace=True)
+        start = params.copy()
+        for k, step in zip(varying, solve @ (noise / sigma)):
+            p = start[k]
+            p.value = float(np.clip(p.value + step, p.min, p.max))
+        res = fit_separable(model + noise, sigma, basis_fn, start, names, steps=_STEPS,
+                            max_nfev=80, xtol=1e-4, covariance=False)
         out.append([res.values["nucleus_flux"], res.values["coma_k"], res.values["gamma"]])
     return np.array(out)
 
