@@ -61,6 +61,8 @@ def config_hash(config, *, sections=FRAME_SECTIONS):
     files = {}
     for section, key in _FILE_KEYS:
         value = config.get(section, {}).get(key) if section in sections else None
+        if key == "reference_store" and config.get(section, {}).get("reference_stars"):
+            continue  # built from the catalogue, whose hash is taken: the same content twice
         if isinstance(value, str) and Path(value).is_file():
             files[f"{section}.{key}"] = file_sha256(value)
     text = json.dumps({"config": part, "files": files}, sort_keys=True, default=str)

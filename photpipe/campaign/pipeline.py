@@ -24,6 +24,7 @@ from photpipe._records import Skipped
 from photpipe.cli.config import ConfigError, night_folders
 
 from .hashing import config_hash, file_sha256
+from .refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from .runner import TaskError, TaskRunner
 from .settings import nucleus_options, photometry_options
 from .stages import FRAME_STAGES, STAGES, stage_function, stage_status
@@ -89,10 +90,8 @@ def _frame_settings(config):
     calibration = {k: calib[k] for k in ("detect_cosmics", "cosmic_method",
                                          "max_saturated_fraction") if k in calib}
     masters = {k: calib[k] for k in ("method", "sigma", "maxiters") if k in calib}
-    phot = config.get("photometry", {})
     return {"kind_map": kind_map, "calibration": calibration, "masters": masters,
-            "require_dark": bool(calib.get("require_dark", False)),
-            "reference_stars": phot.get("reference_stars")}
+            "require_dark": bool(calib.get("require_dark", False))}
 
 
 def _night_geometry(config, night, infos):
@@ -127,6 +126,7 @@ class _Run:
         self.echo = echo
         self.results = Path(config["campaign"]["results"])
         self.frame_hash = config_hash(config)
+        self._reference = None
         statuses = {name: stage_status(name) for name in STAGES}
         self.statuses = statuses
         self.frame_stages = tuple(s for s in FRAME_STAGES if statuses[s].available)
@@ -138,6 +138,24 @@ class _Run:
             if ignored:
                 log.warning("[%s] keys not used by this photpipe: %s", stage,
                             ", ".join(ignored))
+
+    def reference(self):
+        """The campaign's reference-star store, opened (built when needed) on first use."""
+        if self._reference is None:
+            phot = self.config.get("photometry", {})
+            options = self.settings.get("photometry", {})
+            store_path = phot.get("reference_store") or self.results / DEFAULT_STORE_NAME
+            self._reference = campaign_reference_store(
+                phot.get("reference_stars"), store_path, band=options.get("band", "R"),
+                colour=options.get("colour"))
+            ref = self._reference
+            if ref.problem:
+                self.echo(f"reference stars: {ref.problem}; frames are calibrated but not "
+                          "measured")
+            elif ref.built:
+                self.echo(f"reference stars: {ref.n_stars} indexed once for the campaign in "
+                          f"{ref.store_path}")
+        return self._reference
 
     def skip(self, night, item, stage, reason):
         record = Skipped(str(item), stage, str(reason))
@@ -227,8 +245,11 @@ class _Run:
         shared = {"masters": masters, "stages": self.frame_stages,
                   "calibration": self.settings["calibration"],
                   "photometry": self.settings["photometry"],
-                  "nucleus": self.settings["nucleus"],
-                  "reference_stars": self.settings["reference_stars"]}
+                  "nucleus": self.settings["nucleus"]}
+        if "photometry" in self.frame_stages:
+            reference = self.reference()
+            shared.update(reference_store=reference.store_path,
+                          reference_problem=reference.problem)
         for item, result in self.runner.map(process_frame, items, shared=shared,
                                             desc=night.name,
                                             label=lambda it: f"{it['night']}/{it['info'].name}"):

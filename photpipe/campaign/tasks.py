@@ -18,7 +18,7 @@ from astropy import units as u
 from .records import FrameRecord
 from .stages import stage_function
 
-__all__ = ["process_frame", "FRAME_ERRORS"]
+__all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
 
 #: Exceptions a stage raises for bad input; anything else is reported with its traceback's last
 #: line, since it points at a bug rather than at the data.
@@ -47,10 +47,37 @@ def _reason(exc, info):
     return f"{type(exc).__name__}: {text} (at {os.path.basename(where.filename)}:{where.lineno})"
 
 
-@functools.lru_cache(maxsize=4)
-def _reference_stars(path, mtime_ns, bands, colour):
-    read = stage_function("photometry", "read_reference_stars")
-    return read(path, bands=list(bands) if bands else None, colour=colour)
+@functools.lru_cache(maxsize=2)
+def _reference_store(path, mtime_ns):
+    """The campaign's reference-star store, opened once per worker process (and file version)."""
+    return stage_function("photometry", "ReferenceStarStore")(path)
+
+
+#: Room around a frame's corners when asking the store for its stars: twice the largest header
+#: WCS error the photometry stage searches (its ``max_wcs_offset``, 30 arcsec by default).
+_FOOTPRINT_MARGIN = 60 * u.arcsec
+
+
+def frame_reference_stars(frame, path, *, margin=_FOOTPRINT_MARGIN):
+    """Reference stars of one calibrated frame's footprint, from the store at ``path``.
+
+    Raises
+    ------
+    ValueError
+        ``"no matching stars: ..."`` when the frame lies outside the catalogue's coverage, or
+        when the frame has no celestial WCS.
+    """
+    store = _reference_store(path, os.stat(path).st_mtime_ns)
+    stars = store.for_frame(frame.wcs, frame.data.shape, margin=margin)
+    if len(stars) == 0:
+        center, radius = stage_function("photometry", "frame_cone")(frame.wcs, frame.data.shape,
+                                                                    margin=margin)
+        msg = (f"no matching stars: the reference-star catalogue has no star within "
+               f"{radius.to_value(u.deg):.3f} deg of the frame centre (RA "
+               f"{center.ra.deg:.4f}, Dec {center.dec.deg:.4f} deg); the frame lies outside "
+               "its coverage")
+        raise ValueError(msg)
+    return stars
 
 
 def _calibrations_used(masters, info):
@@ -85,7 +112,9 @@ def process_frame(item, shared):
     shared : dict
         ``masters`` (`~photpipe.frames.MasterSet`), ``stages`` (frame stages available, in
         order), ``calibration`` / ``photometry`` / ``nucleus`` (keyword options of the stages'
-        functions) and ``reference_stars`` (path or None).
+        functions), ``reference_store`` (path of the campaign's
+        `~photpipe.photometry.ReferenceStarStore`, or None) and ``reference_problem`` (why
+        there is none).
 
     Returns
     -------
@@ -135,13 +164,13 @@ def process_frame(item, shared):
 
 
 def _run_photometry(frame, geometry_row, shared):
-    path = shared.get("reference_stars")
+    path = shared.get("reference_store")
     if path is None:
-        msg = "no reference-star file is configured ([photometry] reference_stars)"
+        msg = (shared.get("reference_problem")
+               or "no reference-star file is configured ([photometry] reference_stars)")
         raise ValueError(msg)
     options = dict(shared.get("photometry", {}))
-    bands = (options.get("band", "R"),)
-    stars = _reference_stars(path, os.stat(path).st_mtime_ns, bands, options.get("colour"))
+    stars = frame_reference_stars(frame, path)
     measure = stage_function("photometry", "measure_comet_frame")
     return measure(frame, stars, geometry_row[0], **options)
 

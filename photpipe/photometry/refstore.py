@@ -2,10 +2,15 @@
 
 The store is one ``.npz`` file: every column as a plain array, rows sorted by their nested HEALPix
 pixel at a fixed ``nside``, plus an offset index ``start[p]:start[p + 1]`` giving the rows of pixel
-``p``. A cone query asks astropy-healpix which pixels overlap the cone, gathers their rows and keeps
-those within the radius. This module is the only part of the photometry stage that touches files.
+``p``, each row's place in the source table, and a small JSON ``meta`` record (what it was built
+from). A cone query asks astropy-healpix which pixels overlap the cone, gathers their rows, keeps
+those within the radius and returns them in the source table's order, so a query gives the same
+rows in the same order as a cut of the whole table. :meth:`ReferenceStarStore.for_frame` asks for
+the cone around a frame's footprint. This module is the only part of the photometry stage that
+touches files.
 """
 
+import json
 import os
 import tempfile
 
@@ -15,11 +20,11 @@ from astropy.coordinates import ICRS, SkyCoord
 from astropy.table import QTable
 from astropy_healpix import HEALPix
 
-from photpipe._quantity import as_positive_value
+from photpipe._quantity import as_positive_value, as_value
 
 from .refstars import check_reference_columns
 
-__all__ = ["ReferenceStarStore"]
+__all__ = ["ReferenceStarStore", "frame_cone"]
 
 _FORMAT_TAG = "photpipe-reference-store-1"
 
@@ -75,6 +80,8 @@ class ReferenceStarStore:
             raise ValueError(msg)
         self.nside = int(arrays.pop("_nside"))
         self._start = arrays.pop("_start")
+        self._source_row = arrays.pop("_source_row", None)
+        self.meta = json.loads(str(arrays.pop("_meta", "{}")))
         names = [str(n) for n in arrays.pop("_names")]
         units = [str(s) for s in arrays.pop("_units")]
         arrays.pop("_format")
@@ -91,7 +98,7 @@ class ReferenceStarStore:
         return list(self._columns)
 
     @classmethod
-    def build(cls, table, path, *, nside=64):
+    def build(cls, table, path, *, nside=64, meta=None):
         """Write a store from a reference-star table and open it.
 
         Parameters
@@ -102,6 +109,9 @@ class ReferenceStarStore:
             Output file (written to a temporary name, then renamed).
         nside : int, optional
             HEALPix resolution, a power of 2 (64 gives pixels of about 0.9°).
+        meta : dict, optional
+            JSON-serialisable facts kept with the store (for example the source file's hash),
+            returned as the ``meta`` attribute of the opened store.
 
         Returns
         -------
@@ -123,7 +133,8 @@ class ReferenceStarStore:
         order = np.argsort(pix, kind="stable")
         start = np.searchsorted(pix[order], np.arange(hp.npix + 1)).astype(np.int64)
         arrays = {"_format": np.array(_FORMAT_TAG), "_nside": np.array(nside),
-                  "_start": start}
+                  "_start": start, "_source_row": order.astype(np.int64),
+                  "_meta": np.array(json.dumps(meta or {}, sort_keys=True))}
         names, units = [], []
         for i, name in enumerate(table.colnames):
             col = table[name]
@@ -180,11 +191,91 @@ class ReferenceStarStore:
         sep = SkyCoord(ra * u.deg, dec * u.deg, frame="icrs").separation(c).deg if rows.size \
             else np.zeros(0)
         rows = rows[sep <= r_deg]
+        if self._source_row is not None:
+            rows = rows[np.argsort(self._source_row[rows], kind="stable")]
         out = QTable()
         for name, values in self._columns.items():
             unit = self._units[name]
             out[name] = values[rows] * u.Unit(unit) if unit else values[rows]
         return out
+
+    def for_frame(self, wcs, shape, *, margin=60 * u.arcsec):
+        """Reference stars on and around a frame: the cone that holds its footprint.
+
+        Parameters
+        ----------
+        wcs : `~astropy.wcs.WCS`
+            The frame's celestial WCS.
+        shape : tuple of int
+            ``(ny, nx)`` of the frame.
+        margin : `~astropy.units.Quantity` ['angle'], optional
+            Added to the radius of the circle through the frame's corners (room for a WCS
+            that is off by up to about this much).
+
+        Returns
+        -------
+        stars : `~astropy.table.QTable`
+            As :meth:`cone`; empty when the frame lies outside the catalogue's coverage.
+
+        Raises
+        ------
+        ValueError
+            If ``wcs`` has no celestial part.
+        """
+        center, radius = frame_cone(wcs, shape, margin=margin)
+        return self.cone(center, radius)
+
+
+def frame_cone(wcs, shape, *, margin=0 * u.arcsec):
+    """Centre and radius of the smallest cone about a frame's centre holding all its corners.
+
+    Parameters
+    ----------
+    wcs : `~astropy.wcs.WCS`
+        The frame's WCS (its celestial part is used).
+    shape : tuple of int
+        ``(ny, nx)``.
+    margin : `~astropy.units.Quantity` ['angle'], optional
+        Added to the radius.
+
+    Returns
+    -------
+    center : `~astropy.coordinates.SkyCoord`
+    radius : `~astropy.units.Quantity` ['angle'] (deg)
+
+    Raises
+    ------
+    ValueError
+        If ``wcs`` is None or has no celestial part.
+
+    Examples
+    --------
+    >>> from astropy.wcs import WCS
+    >>> w = WCS(naxis=2)
+    >>> w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
+    >>> w.wcs.crval = [10.0, 20.0]
+    >>> w.wcs.crpix = [50.5, 50.5]
+    >>> w.wcs.cdelt = [-1 / 3600, 1 / 3600]
+    >>> c, r = frame_cone(w, (100, 100))
+    >>> round(float(c.ra.deg), 4), round(float(r.to_value(u.arcsec)), 1)   # 50 sqrt(2)
+    (10.0, 70.7)
+    """
+    if wcs is None or not wcs.has_celestial:
+        msg = "frame has no celestial WCS, so its place on the sky is unknown"
+        raise ValueError(msg)
+    ny, nx = shape
+    cel = wcs.celestial
+    x = np.array([(nx - 1) / 2.0, -0.5, nx - 0.5, nx - 0.5, -0.5])
+    y = np.array([(ny - 1) / 2.0, -0.5, -0.5, ny - 0.5, ny - 0.5])
+    ra, dec = cel.pixel_to_world_values(x, y)
+    points = SkyCoord(np.asarray(ra) * u.deg, np.asarray(dec) * u.deg, frame="icrs")
+    center = points[0]
+    pad = as_value(margin, u.deg, "margin")
+    if not pad >= 0.0:
+        msg = f"'margin' must be an angle >= 0, got {margin}"
+        raise ValueError(msg)
+    radius = float(np.max(points[1:].separation(center).deg)) + pad
+    return center, radius * u.deg
 
 
 def _degrees(col, name, path):
