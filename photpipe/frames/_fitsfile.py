@@ -125,29 +125,25 @@ def read_image(path, *, dtype=np.float32):
 def stored_image(path):
     """Yield ``(array, bscale, bzero)``: the first image as stored, read without a copy.
 
-    An uncompressed image is memory-mapped and left as the file's integers (big-endian), so the
-    caller converts it once, block by block, as it computes; physical values are
-    ``array * bscale + bzero``. A compressed image is decoded to float32 (scale 1, zero 0). The
-    array is valid only inside the ``with`` block.
+    An uncompressed image is memory-mapped and left as the file's values (big-endian integers,
+    usually), and a tile-compressed one is decoded but not scaled, so the caller converts the
+    data once, block by block, as it computes; physical values are ``array * bscale + bzero``.
+    An integer image with BLANK pixels is read scaled, as float32 with NaN there (scale 1,
+    zero 0). The array is valid only inside the ``with`` block.
     """
     path = os.fspath(path)
     with open_image(path, memmap=True, scale=False) as (hdul, index):
-        hdu = hdul[index]
-        header = hdu.header
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                if isinstance(hdu, fits.CompImageHDU) or "BLANK" in header:
-                    data, bscale, bzero = None, 1.0, 0.0
-                else:
-                    data = hdu.data
-                    bscale = float(header.get("BSCALE", 1.0))
-                    bzero = float(header.get("BZERO", 0.0))
-        except (OSError, ValueError, TypeError, EOFError) as exc:
-            raise FrameError(path, f"image data cannot be read, file damaged or truncated "
-                                   f"({exc})") from exc
-        if data is not None:
-            yield _as_2d(data, path), bscale, bzero
+        header = hdul[index].header
+        if "BLANK" not in header:
+            try:
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    data = hdul[index].data
+            except (OSError, ValueError, TypeError, EOFError) as exc:
+                raise FrameError(path, f"image data cannot be read, file damaged or truncated "
+                                       f"({exc})") from exc
+            yield (_as_2d(data, path), float(header.get("BSCALE", 1.0)),
+                   float(header.get("BZERO", 0.0)))
             return
     yield read_image(path), 1.0, 0.0
 

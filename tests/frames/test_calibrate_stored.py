@@ -91,10 +91,25 @@ def test_stored_image_is_a_memory_map_of_the_stored_integers(scenario_night, tmp
         np.testing.assert_array_equal(raw * bscale + bzero, scaled)
 
 
-def test_compressed_image_is_decoded_to_float(scenario_night):
+def test_compressed_image_is_decoded_but_not_scaled(scenario_night):
     info = scenario_night["plan"].science[0]     # the scenario writes tile-compressed files
     with stored_image(info.path) as (raw, bscale, bzero):
-        assert raw.dtype == np.float32 and (bscale, bzero) == (1.0, 0.0)
+        assert raw.dtype.kind == "i" and (bscale, bzero) == (1.0, 32768.0)
+        stored = raw * bscale + bzero
+    with fits.open(info.path) as hdul:
+        np.testing.assert_array_equal(stored, hdul[1].data)
+
+
+def test_blank_pixels_are_read_as_nan(scenario_night, tmp_path):
+    def with_blank(raw):
+        data = np.round(raw).astype(np.int32)
+        data[3, 4] = -999
+        return data, {"BLANK": -999}
+    info, raw = _rewrite(scenario_night["plan"].science[0], tmp_path, "blank.fits", with_blank)
+    with stored_image(info.path) as (data, bscale, bzero):
+        assert np.isnan(data[3, 4]) and (bscale, bzero) == (1.0, 0.0)
+    frame = calibrate_frame(info, scenario_night["masters"], detect_cosmics=False)
+    assert frame.quality[3, 4] & Quality.NONFINITE
 
 
 def test_wcs_from_the_wcs_keywords_equals_the_whole_header(scenario_night):
