@@ -250,6 +250,8 @@ class _Run:
             reference = self.reference()
             shared.update(reference_store=reference.store_path,
                           reference_problem=reference.problem)
+        self.runner.open()
+        started = time.perf_counter()
         for item, result in self.runner.map(process_frame, items, shared=shared,
                                             desc=night.name,
                                             label=lambda it: f"{it['night']}/{it['info'].name}"):
@@ -269,6 +271,8 @@ class _Run:
                 log.info("%s/%s [%s]: %s", night.name, frame, stage, reason)
             if not any(stage == "calibration" for stage, _ in result.problems):
                 night.measured += 1
+        phases = self.summary.phase_seconds
+        phases["frames"] = phases.get("frames", 0.0) + time.perf_counter() - started
 
     def _export_night(self, night):
         folder = self.results / night.name
@@ -439,6 +443,10 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
         summary.status = status
         summary.seconds = time.perf_counter() - started
         summary.task_seconds = list(runner.task_seconds)
+        summary.task_cpu_seconds = list(runner.task_cpu_seconds)
+        summary.phase_seconds["workers start"] = runner.start_seconds
+        summary.bytes_to_workers = runner.bytes_sent
+        summary.bytes_from_workers = runner.bytes_received
         summary.worker_peak_mb = dict(runner.peak_memory_mb)
         store.end_run(run_id, status)
         log.info("summary\n%s", summary.format())

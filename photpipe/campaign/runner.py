@@ -27,6 +27,11 @@ __all__ = ["TaskRunner", "TaskError", "run_tasks"]
 
 log = logging.getLogger("photpipe.campaign")
 
+#: Thread counts of the numerical libraries in a local worker process: one each.
+_ONE_THREAD = {name: 1 for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS",
+                                    "MKL_NUM_THREADS", "VECLIB_MAXIMUM_THREADS",
+                                    "NUMEXPR_NUM_THREADS")}
+
 
 class TaskError(Exception):
     """A task that failed in a worker, carried back to the caller as a value.
@@ -61,6 +66,7 @@ class _Outcome:
     original: object = None
     warnings: list = field(default_factory=list)
     seconds: float = 0.0
+    cpu_seconds: float = 0.0
     pid: int = 0
     peak_rss_mb: float = 0.0
 
@@ -77,6 +83,7 @@ def _peak_rss_mb():
 def _guarded(func, item, shared):
     """Run ``func`` on ``item`` and return an `_Outcome`; never raises (a top-level function)."""
     start = time.perf_counter()
+    cpu_start = time.process_time()
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -92,6 +99,7 @@ def _guarded(func, item, shared):
                                details=traceback.format_exc(), original=original)
     outcome.warnings = [f"{w.category.__name__}: {w.message}" for w in caught]
     outcome.seconds = time.perf_counter() - start
+    outcome.cpu_seconds = time.process_time() - cpu_start
     outcome.pid = os.getpid()
     outcome.peak_rss_mb = _peak_rss_mb()
     return outcome
@@ -136,6 +144,13 @@ class TaskRunner:
         Peak resident memory reported by each worker process (pid -> MB) over the tasks run.
     task_seconds : list of float
         Wall time of each finished task, in the worker.
+    task_cpu_seconds : list of float
+        CPU time of each finished task, in the worker (all its threads).
+    start_seconds : float
+        Wall time spent starting the local cluster or connecting to the scheduler.
+    bytes_sent, bytes_received : int
+        Pickled task inputs sent and results received over all tasks run on Dask (the shared
+        object counted once per batch); 0 for ``workers=0``.
 
     Examples
     --------
@@ -154,6 +169,10 @@ class TaskRunner:
         self.connect_timeout = float(connect_timeout)
         self.peak_memory_mb = {}
         self.task_seconds = []
+        self.task_cpu_seconds = []
+        self.start_seconds = 0.0
+        self.bytes_sent = 0
+        self.bytes_received = 0
         self._client = None
         self._cluster = None
 
@@ -181,6 +200,13 @@ class TaskRunner:
         """
         if self._client is not None or (self.scheduler is None and self.workers == 0):
             return
+        started = time.perf_counter()
+        try:
+            self._connect()
+        finally:
+            self.start_seconds += time.perf_counter() - started
+
+    def _connect(self):
         import dask
         from distributed import Client, LocalCluster
 
@@ -193,9 +219,14 @@ class TaskRunner:
             return
         # A worker holds only the task it runs (saturation 1.0), so when a task kills its
         # process no queued neighbour is blamed; the task is retried on fresh processes twice,
-        # then reported as failed instead of taking more workers down.
+        # then reported as failed instead of taking more workers down. Each worker process is
+        # one core's worth of work: its numerical libraries get one thread each (set before the
+        # process starts, when they read it), or two workers would fight over the cores.
+        environ = dict(dask.config.get("distributed.nanny.pre-spawn-environ", {}))
+        environ.update(_ONE_THREAD)
         with dask.config.set({"distributed.scheduler.allowed-failures": 2,
-                              "distributed.scheduler.worker-saturation": 1.0}):
+                              "distributed.scheduler.worker-saturation": 1.0,
+                              "distributed.nanny.pre-spawn-environ": environ}):
             self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1,
                                          processes=True, dashboard_address=":0",
                                          silence_logs=logging.ERROR)
@@ -261,11 +292,15 @@ class TaskRunner:
         from distributed import as_completed
 
         client = self._client
-        shared_arg = None if shared is None else client.scatter(
-            pickle.dumps(shared, protocol=pickle.HIGHEST_PROTOCOL), broadcast=True, hash=False)
+        shared_arg = None
+        if shared is not None:
+            shared_bytes = pickle.dumps(shared, protocol=pickle.HIGHEST_PROTOCOL)
+            self.bytes_sent += len(shared_bytes)
+            shared_arg = client.scatter(shared_bytes, broadcast=True, hash=False)
         futures = {}
         for index, item in enumerate(items):
             payload = pickle.dumps(item, protocol=pickle.HIGHEST_PROTOCOL)
+            self.bytes_sent += len(payload)
             future = client.submit(_remote, func, payload, shared_arg, pure=False,
                                    key=f"photpipe-task-{os.getpid()}-{id(items)}-{index}")
             futures[future.key] = (future, item)
@@ -277,7 +312,9 @@ class TaskRunner:
                     exc = future.exception()
                     outcome = _Outcome(False, kind=type(exc).__name__, message=_dask_message(exc))
                 else:
-                    outcome = pickle.loads(future.result())
+                    result = future.result()
+                    self.bytes_received += len(result)
+                    outcome = pickle.loads(result)
                 future.release()
                 yield item, outcome
         finally:
@@ -292,6 +329,7 @@ class TaskRunner:
             self.peak_memory_mb[outcome.pid] = max(self.peak_memory_mb.get(outcome.pid, 0.0),
                                                    outcome.peak_rss_mb)
             self.task_seconds.append(outcome.seconds)
+            self.task_cpu_seconds.append(outcome.cpu_seconds)
         if outcome.ok:
             return outcome.value
         error = TaskError(outcome.kind, outcome.message, details=outcome.details,

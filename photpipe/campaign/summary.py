@@ -60,8 +60,18 @@ class RunSummary:
     status : str
     task_seconds : list of float
         Wall time of each frame task, measured in the worker.
+    task_cpu_seconds : list of float
+        CPU time of each frame task in its worker process; well below ``task_seconds`` means
+        the task waited for a core other work held.
     worker_peak_mb : dict
         Peak resident memory of each worker process (pid -> MB).
+    phase_seconds : dict
+        Wall time of the parts of the run: ``workers start`` (starting the processes),
+        ``frames`` (from the first frame task handed out to the last stored, over all nights),
+        the rest being the parent's own serial work (headers, masters, geometry, exports and
+        the campaign stages).
+    bytes_to_workers, bytes_from_workers : int
+        Pickled task inputs sent and results received (see `~photpipe.campaign.TaskRunner`).
     """
 
     run_id: int
@@ -77,7 +87,11 @@ class RunSummary:
     seconds: float = 0.0
     status: str = "completed"
     task_seconds: list = field(default_factory=list)
+    task_cpu_seconds: list = field(default_factory=list)
     worker_peak_mb: dict = field(default_factory=dict)
+    phase_seconds: dict = field(default_factory=dict)
+    bytes_to_workers: int = 0
+    bytes_from_workers: int = 0
 
     @property
     def measured(self):
