@@ -150,13 +150,16 @@ def refraction(true_altitude, *, pressure=1010 * u.hPa, temperature=10 * u.deg_C
 
 
 def header_airmass(header):
-    """The header's AIRMASS as a float (NaN when it is missing or not a number ≥ 1)."""
+    """The header's AIRMASS as a float (NaN when it is missing or not a number ≥ 0.99).
+
+    Values a little below 1 come from rounding near the zenith and are kept (common practice).
+    """
     value = header.get("AIRMASS") if header is not None else None
     try:
         x = float(value)
     except (TypeError, ValueError):
         return float("nan")
-    return x if np.isfinite(x) and x >= 1.0 else float("nan")
+    return x if np.isfinite(x) and x >= 0.99 else float("nan")
 
 
 def frame_airmass(time, location, ra, dec, *, formula="kasten-young", temperature=10 * u.deg_C,

@@ -404,7 +404,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
             _flag(flags, messages, "psf_fallback")
             psf_model = MoffatGrowth(fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / 3.0) - 1.0)), 3.0)
         details["psf_moffat"] = {"alpha_pix": psf_model.alpha, "beta": psf_model.beta,
-                                 "fwhm_pix": psf_model.fwhm}
+                                 "fwhm_pix": float(psf_model.fwhm)}
     flux_s = f_small * apcorr / exptime
     flux_s_err = f_small_err * apcorr / exptime
     with np.errstate(invalid="ignore", divide="ignore"):

@@ -109,6 +109,7 @@ def test_frame_airmass_low_and_below_the_horizon():
 
 def test_header_airmass():
     assert header_airmass({"AIRMASS": 1.25}) == 1.25
+    assert header_airmass({"AIRMASS": 0.998}) == 0.998
     assert np.isnan(header_airmass({"AIRMASS": "unknown"}))
     assert np.isnan(header_airmass({"AIRMASS": 0.5}))
     assert np.isnan(header_airmass({}))
