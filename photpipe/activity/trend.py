@@ -1,8 +1,10 @@
 """The activity trend: A(0)fρ ∝ r_h^k fitted in log space, before and after perihelion.
 
 Afρ is binned per observing night (`photpipe.activity.nights`), split at perihelion, and a
-straight line is fitted to log10 Afρ against log10 r_h on each side. The fitting algorithms sit in
-one private module each, behind `FIT_METHODS`.
+straight line is fitted to log10 Afρ against log10 r_h on each side; with ``continuous`` the two
+lines are fitted together, meeting at the perihelion distance with one night-to-night scatter
+(`photpipe.activity._fit_joint`), which is how the outburst search fits them. The fitting
+algorithms sit in one private module each, behind `FIT_METHODS`.
 """
 
 import warnings
@@ -18,6 +20,7 @@ from scipy.stats import norm
 from photpipe._quantity import as_positive_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.activity._fit_clip import fit_line_clip
+from photpipe.activity._fit_joint import fit_joint_scatter
 from photpipe.activity._fit_robust import fit_line_robust
 from photpipe.activity._fit_scatter import fit_line_scatter
 from photpipe.activity._inputs import prepare
@@ -37,6 +40,7 @@ FIT_METHODS = {
 #: Branch names, in time order.
 BRANCHES = ("pre", "post")
 _MIN_NIGHTS = 3
+_MIN_NIGHTS_JOINT = 2  # per side, when both sides are fitted together (three parameters)
 _NARROW_LOG_RH = 0.02  # dex: below this spread of log r_h the index is poorly determined
 _HIGH_SCATTER = 0.1  # dex of night-to-night scatter beyond the errors
 
@@ -162,6 +166,9 @@ class ActivityTrend:
     method : str
     rho : `~astropy.units.Quantity` ['length'] or None
         The aperture radius used, when the inputs held several.
+    continuous : bool
+        The branches were fitted together, meeting at perihelion (``to_dict`` key
+        ``continuous``).
     nights : `~astropy.table.QTable`
         One row per night: ``time, time_first, time_last, r_h, afrho, afrho_err, n_frames,
         branch, used, afrho_trend, residual_dex, residual_err_dex, night_err_dex,
@@ -176,6 +183,7 @@ class ActivityTrend:
     rho: u.Quantity | None
     nights: QTable = field(repr=False)
     _bins: NightBins = field(repr=False, compare=False, default=None)
+    continuous: bool = False
 
     def branch(self, name):
         """Return the branch called ``name`` (``"pre"`` or ``"post"``), or None if absent."""
@@ -249,26 +257,41 @@ class ActivityTrend:
             "perihelion_time": self.perihelion_time.utc.isot,
             "method": self.method,
             "rho_km": None if self.rho is None else float(self.rho.to_value(u.km)),
+            "continuous": self.continuous,
             "branches": [b.to_dict() for b in self.branches],
         }
 
 
-def _fit_branch(name, bins, sel, method, options):
+def _branch_fittable(name, bins, sel, min_nights, *, warn=True):
+    """Whether the nights ``sel`` can carry a power law; warns when they cannot."""
     x = bins.log_r_h[sel]
-    y = bins.y[sel]
-    sy = bins.sy[sel]
     n = x.size
-    if n < _MIN_NIGHTS:
-        if n > 0:
-            msg = (f"{name}-perihelion branch has {n} night(s); at least {_MIN_NIGHTS} are "
+    if n < min_nights:
+        if n > 0 and warn:
+            msg = (f"{name}-perihelion branch has {n} night(s); at least {min_nights} are "
                    f"needed for a power-law fit: branch left out")
-            warnings.warn(msg, PoorResultWarning, stacklevel=4)
-        return None, None
-    if np.ptp(x) == 0:
+            warnings.warn(msg, PoorResultWarning, stacklevel=5)
+        return False
+    if np.ptp(x) == 0 and min_nights >= _MIN_NIGHTS:
+        if not warn:
+            return False
         msg = f"{name}-perihelion branch: all nights at the same r_h, no power law can be fitted"
-        warnings.warn(msg, PoorResultWarning, stacklevel=4)
+        warnings.warn(msg, PoorResultWarning, stacklevel=5)
+        return False
+    return True
+
+
+def _fit_branch(name, bins, sel, method, options):
+    if not _branch_fittable(name, bins, sel, _MIN_NIGHTS):
         return None, None
-    fit = FIT_METHODS[method](x, y, sy, **options)
+    fit = FIT_METHODS[method](bins.log_r_h[sel], bins.y[sel], bins.sy[sel], **options)
+    return _branch_from_fit(name, bins, sel, fit, method)
+
+
+def _branch_from_fit(name, bins, sel, fit, method):
+    n = int(np.count_nonzero(sel))
+    x = bins.log_r_h[sel]
+    sy = bins.sy[sel]
     flags = []
     if n < 5:
         flags.append("few_nights")
@@ -281,7 +304,7 @@ def _fit_branch(name, bins, sel, method, options):
         flags.append("not_converged")
     if flags:
         msg = f"{name}-perihelion activity trend is poor: {', '.join(flags)}"
-        warnings.warn(msg, PoorResultWarning, stacklevel=4)
+        warnings.warn(msg, PoorResultWarning, stacklevel=5)
     used = np.flatnonzero(sel)[fit.used]
     rh_used = 10 ** bins.log_r_h[used]
     branch = TrendBranch(
@@ -336,8 +359,58 @@ def _nights_table(bins, t_peri_mjd, used_mask, trend_y, trend_var, branches):
     return t
 
 
+def perihelion_log_r_h(bins, perihelion_mjd):
+    """log10 of the perihelion distance (au), estimated from the nights nearest perihelion.
+
+    Near perihelion r_h² ≈ q² + c (t - T)² (the distance's first time derivative is zero at
+    T); a least-squares line of r_h² against (t - T)² through the four nights nearest T gives
+    q². Falls back to the smallest r_h of the nights (an upper bound on q).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from photpipe.activity.nights import NightBins
+    >>> t = np.array([-10.0, -5.0, 3.0, 8.0])
+    >>> r = np.sqrt(1.3 ** 2 + (0.03 * t) ** 2)     # a straight-line fly-by, q = 1.3 au
+    >>> bins = NightBins(t, t, t, np.log10(r), np.zeros(4), np.ones(4), np.ones(4, int),
+    ...                  np.arange(4))
+    >>> round(10 ** perihelion_log_r_h(bins, 0.0), 6)
+    1.3
+    """
+    dt = np.asarray(bins.mjd, dtype=float) - perihelion_mjd
+    r2 = 10 ** (2.0 * np.asarray(bins.log_r_h, dtype=float))
+    ok = np.isfinite(dt) & np.isfinite(r2)
+    dt, r2 = dt[ok], r2[ok]
+    if r2.size == 0:
+        return np.nan
+    fallback = 0.5 * float(np.log10(r2.min()))
+    near = np.argsort(np.abs(dt))[:4]
+    if near.size < 2 or np.ptp(dt[near] ** 2) == 0:
+        return fallback
+    slope, q2 = np.polyfit(dt[near] ** 2, r2[near], 1)
+    if not (np.isfinite(q2) and 0 < q2 <= r2.min() and slope >= 0):
+        return fallback
+    return 0.5 * float(np.log10(q2))
+
+
+def _fit_continuous(bins, perihelion_mjd, side_pre, side_post, method):
+    """Both branches jointly, meeting at perihelion (see `_fit_joint`); None if not possible."""
+    if not (_branch_fittable("pre", bins, side_pre, _MIN_NIGHTS_JOINT, warn=False)
+            and _branch_fittable("post", bins, side_post, _MIN_NIGHTS_JOINT, warn=False)):
+        return None
+    x_q = perihelion_log_r_h(bins, perihelion_mjd)
+    sel = side_pre | side_post
+    if not np.isfinite(x_q) or np.count_nonzero(sel) < 5:
+        return None
+    post = (bins.mjd >= perihelion_mjd)[sel]
+    fit_pre, fit_post = fit_joint_scatter(bins.log_r_h[sel], bins.y[sel], bins.sy[sel], post,
+                                          x_q)
+    return [_branch_from_fit("pre", bins, side_pre, fit_pre, method),
+            _branch_from_fit("post", bins, side_post, fit_post, method)]
+
+
 def fit_trend_to_nights(bins, perihelion_mjd, *, method="scatter", night_used=None,
-                        options=None, rho=None):
+                        options=None, rho=None, continuous=False):
     """Fit both branches to already night-binned data (plain floats; used by the outburst search).
 
     Parameters
@@ -352,6 +425,10 @@ def fit_trend_to_nights(bins, perihelion_mjd, *, method="scatter", night_used=No
         Passed to the fitting function.
     rho : `~astropy.units.Quantity`, optional
         Aperture radius, recorded in the result.
+    continuous : bool, optional
+        With ``method="scatter"``: fit both branches at once, meeting at the perihelion
+        distance, with one intrinsic scatter (`_fit_joint`); each branch then needs only
+        two nights. Falls back to separate fits when a side has too few nights.
 
     Returns
     -------
@@ -365,8 +442,13 @@ def fit_trend_to_nights(bins, perihelion_mjd, *, method="scatter", night_used=No
     post = bins.mjd >= perihelion_mjd
     branches = []
     used_mask = np.zeros(len(bins), dtype=bool)
-    for name, side in (("pre", ~post), ("post", post)):
-        branch, used = _fit_branch(name, bins, side & allowed, method, options)
+    joint = None
+    if continuous and method == "scatter":
+        # None when a side has too few nights: the separate fits below then say so.
+        joint = _fit_continuous(bins, perihelion_mjd, ~post & allowed, post & allowed, method)
+    fitted = joint or [_fit_branch(name, bins, side & allowed, method, options)
+                       for name, side in (("pre", ~post), ("post", post))]
+    for branch, used in fitted:
         if branch is not None:
             branches.append(branch)
             used_mask[used] = True
@@ -374,11 +456,13 @@ def fit_trend_to_nights(bins, perihelion_mjd, *, method="scatter", night_used=No
     partial = ActivityTrend(tuple(branches), t_peri, method, rho, QTable(), bins)
     trend_y, trend_var = partial.predict_log(bins.log_r_h, bins.mjd)
     nights = _nights_table(bins, perihelion_mjd, used_mask, trend_y, trend_var, branches)
-    return ActivityTrend(tuple(branches), t_peri, method, rho, nights, bins)
+    return ActivityTrend(tuple(branches), t_peri, method, rho, nights, bins,
+                         continuous=joint is not None)
 
 
 def fit_activity_trend(time, r_h, afrho, afrho_err, *, perihelion_time, rho=None, aperture=None,
-                       method="scatter", exclude=None, night_gap=0.25 * u.day, **options):
+                       method="scatter", exclude=None, night_gap=0.25 * u.day, continuous=False,
+                       **options):
     r"""Fit Afρ ∝ r_h^k in log space, separately before and after perihelion.
 
     Parameters
@@ -404,6 +488,9 @@ def fit_activity_trend(time, r_h, afrho, afrho_err, *, perihelion_time, rho=None
         Rows to leave out (e.g. nights in outburst).
     night_gap : `~astropy.units.Quantity` ['time'], optional
         Pause that separates two nights (default 6 h).
+    continuous : bool, optional
+        With ``scatter``: fit both branches at once, meeting at perihelion, with one
+        night-to-night scatter (see Notes); the outburst search works this way.
     **options
         Passed to the fitting algorithm (``clip_sigma`` for ``clip``).
 
@@ -433,6 +520,13 @@ def fit_activity_trend(time, r_h, afrho, afrho_err, *, perihelion_time, rho=None
     night-to-night variability down only roughly. ``scatter_dex`` is the posterior
     root-mean-square of s.
 
+    With ``continuous`` the two branches are one model,
+    :math:`\log_{10} A f\rho = a + k_{\rm pre/post} (\log_{10} r_h - \log_{10} q)`: Afρ
+    changes continuously in time, so at perihelion (r_h = q on both sides) both power laws give
+    the same value; q is estimated from the nights nearest perihelion
+    (`perihelion_log_r_h`), and one scatter s serves both sides. Each side then needs only
+    two nights.
+
     Examples
     --------
     >>> import numpy as np
@@ -458,4 +552,5 @@ def fit_activity_trend(time, r_h, afrho, afrho_err, *, perihelion_time, rho=None
     bins = bin_nights(np.where(p.keep, p.mjd, np.nan), p.log_r_h, p.y, p.sy, gap_d=gap_d,
                       split_mjd=t_peri)
     rho_q = None if p.rho_km is None else p.rho_km * u.km
-    return fit_trend_to_nights(bins, t_peri, method=method, options=options, rho=rho_q)
+    return fit_trend_to_nights(bins, t_peri, method=method, options=options, rho=rho_q,
+                               continuous=continuous)

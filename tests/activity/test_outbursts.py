@@ -137,5 +137,7 @@ def test_fit_without_outburst_nights_equals_excluding_them():
     bad_nights = np.flatnonzero(res.outburst_nights)
     exclude = np.isin(sim.night, bad_nights)
     direct = fit_activity_trend(sim.time, sim.r_h, sim.afrho, sim.afrho_err,
-                                perihelion_time=sim.perihelion_time, exclude=exclude)
+                                perihelion_time=sim.perihelion_time, exclude=exclude,
+                                continuous=True)
+    assert direct.continuous and res.trend.continuous
     assert direct.branch("post").k == pytest.approx(res.trend.branch("post").k, rel=1e-9)
