@@ -46,6 +46,18 @@ def burn(seed):
     return float(a[0, 0])
 
 
+def imports_peak_mb(_):
+    """Peak memory of a fresh worker once the frame stages are imported (before any frame)."""
+    import resource
+
+    import photpipe.frames  # noqa: F401
+    import photpipe.nucleus  # noqa: F401
+    import photpipe.photometry  # noqa: F401
+    from photpipe.campaign import tasks  # noqa: F401
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
 def machine_speedup(n_tasks=16, repeats=2):
     """Speed-up of 1 -> 2 workers on `burn` tasks, cluster start-up excluded (best of repeats)."""
     times = {}
@@ -153,6 +165,9 @@ def main(argv=None):
         print(f"rendered {args.frames} frames of {args.size}x{args.size} in "
               f"{time.perf_counter() - t0:.1f} s")
         frame_mb = args.size * args.size * (4 + 4 + 2) / 2**20
+        with TaskRunner(workers=1, progress=False) as runner:
+            [(_, baseline)] = list(runner.map(imports_peak_mb, [0]))
+        print(f"a worker with the stages imported, before any frame: {baseline:.0f} MB")
         results = {}
         for workers in (1, 2):
             folder = tmp / f"w{workers}"
@@ -172,6 +187,10 @@ def main(argv=None):
         print(f"machine ceiling, same runner already started, pure-numpy task: {ceiling:.2f} "
               f"({times[1]:.1f} s -> {times[2]:.1f} s); frame-phase speed-up / ceiling = "
               f"{frame_speedup / ceiling:.2f}")
+        cpu = {w: sum(results[w].task_cpu_seconds) / w for w in (1, 2)}
+        print(f"frame-phase speed-up on CPU time alone (as if each worker had a free core): "
+              f"{cpu[1] / cpu[2]:.2f}; the gap to the measured one is time the tasks waited "
+              "for a core")
         serial = {w: results[w].seconds - frames[w] for w in (1, 2)}
         per_frame = {w: frames[w] / n for w in (1, 2)}
         print(f"serial part {serial[1]:.1f} s / {serial[2]:.1f} s does not shrink with workers: "
