@@ -7,6 +7,8 @@ frame and `fisher_bound` gives the Cramér-Rao bound of its parameters.
 
 from .coma import *  # noqa: F403
 from .coma import __all__ as _coma_all
+from .coma_afrho import *  # noqa: F403
+from .coma_afrho import __all__ as _coma_afrho_all
 from .fisher import *  # noqa: F403
 from .fisher import __all__ as _fisher_all
 from .fit import *  # noqa: F403
@@ -24,5 +26,5 @@ from .psf import __all__ as _psf_all
 from .table import *  # noqa: F403
 from .table import __all__ as _table_all
 
-__all__ = (_coma_all + _fisher_all + _fit_all + _models_all + _moffat_all + _plot_all
-           + _profile_all + _psf_all + _table_all)
+__all__ = (_coma_all + _coma_afrho_all + _fisher_all + _fit_all + _models_all + _moffat_all
+           + _plot_all + _profile_all + _psf_all + _table_all)
