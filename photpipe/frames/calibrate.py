@@ -28,6 +28,8 @@ class Prepared:
 
     Attributes
     ----------
+    gain : float
+        ``G`` in electron/adu.
     offset : ndarray
         ``bias + dark_rate * t`` in adu.
     gain_over_flat : ndarray
@@ -58,6 +60,7 @@ class Prepared:
         dark_adu = dark_rate * t
         usable = np.isfinite(flat) & (flat > 0) & np.isfinite(bias) & np.isfinite(dark_adu)
         f = np.where(usable, flat, np.nan).astype(np.float32)
+        self.gain = g
         self.offset = (bias + dark_adu).astype(np.float32)
         self.gain_over_flat = (g / f).astype(np.float32)
         self.poisson_factor = (g / f**2).astype(np.float32)
@@ -161,6 +164,7 @@ def _apply(raw, prepared, saturation, *, bscale=1.0, bzero=0.0):
     quality = np.empty((ny, nx), np.uint16)
     rows = max(1, _BLOCK_PIXELS // max(nx, 1))
     sat = np.float32(saturation) if np.isfinite(saturation) else None
+    inv_gain = np.float32(1.0 / prepared.gain)
     check_finite = raw.dtype.kind == "f"
     zero = np.float32(0.0)
     buf = np.empty((rows, nx), np.float32)
@@ -192,9 +196,13 @@ def _apply(raw, prepared, saturation, *, bscale=1.0, bzero=0.0):
             np.logical_not(m, out=m)
             np.bitwise_or(q, np.uint16(Quality.NONFINITE), out=q, where=m)
         np.subtract(x, prepared.offset[r0:r1], out=d)
+        gof = prepared.gain_over_flat[r0:r1]
+        d *= gof
+        # Poisson term G max(x, 0) / F² = max(d, 0) (G/F) / G: from the block of G/F already in
+        # cache, instead of reading a G/F² plane from memory
         np.maximum(d, zero, out=v)
-        d *= prepared.gain_over_flat[r0:r1]
-        v *= prepared.poisson_factor[r0:r1]
+        v *= gof
+        v *= inv_gain
         v += prepared.constant_var[r0:r1]
         np.square(d, out=x)
         x *= prepared.flat_relvar[r0:r1]
