@@ -4,9 +4,11 @@ import numpy as np
 
 from photpipe.rotation.periodogram import Periodogram, fap_from_theta
 
-__all__ = ["pdm_theta", "pdm_periodogram"]
+__all__ = ["pdm_theta", "pdm_periodogram", "BINNINGS"]
 
-_TWO64 = 2.0**64
+#: Work of one bin-edge crossing in units of one binned (point, frequency) pair (measured: about
+#: 21 ns against 9.5 ns on a 2-core development machine, 10^4 points).
+_CROSSING_COST = 2.2
 
 
 def _fixed_point(x):
@@ -17,7 +19,87 @@ def _fixed_point(x):
     return (hi.astype(np.uint64) << np.uint64(32)) + lo.astype(np.uint64)
 
 
-def pdm_theta(t, y, dy, f0, df, nf, *, n_bins=10, n_covers=2, weighted=True,
+def _narrow_sums_direct(tp, w, wy, f0, df, k0, m, n_narrow):
+    """Per-narrow-bin ``Σ w``, ``Σ w y`` at frequencies ``k0..k0+m-1``, binning every pair.
+
+    Phases are 64-bit fixed-point fractions of a cycle, ``φ_k = φ_0 + k δφ (mod 2^64)``, so the
+    modulo is the integer overflow itself. Cost: ``n m`` (point, frequency) pairs.
+    """
+    n = tp.size
+    start = _fixed_point((f0 + k0 * df) * tp)
+    step = _fixed_point(df * tp)
+    k = np.arange(m, dtype=np.uint64)
+    phase = np.multiply(step[:, None], k[None, :])  # wraps modulo 2**64 by design
+    phase += start[:, None]
+    # narrow bin = floor(phase * n_narrow): top 32 bits times n_narrow, top part of that
+    sh32 = np.uint64(32)
+    phase >>= sh32
+    phase *= np.uint64(n_narrow)
+    phase >>= sh32
+    phase += (np.arange(m, dtype=np.uint64) * np.uint64(n_narrow))[None, :]
+    idx = phase.reshape(-1).view(np.int64)
+    size = m * n_narrow
+    sw = np.bincount(idx, weights=np.repeat(w, m), minlength=size).reshape(m, n_narrow)
+    swy = np.bincount(idx, weights=np.repeat(wy, m), minlength=size).reshape(m, n_narrow)
+    # the weights are positive and summed exactly once, so Σ w > 0 marks the filled bins
+    return sw, swy, sw
+
+
+def _crossing_count(tm, f0, df, k0, m):
+    """Unwrapped narrow-bin numbers at the first and last frequency of a block."""
+    first = np.floor((f0 + k0 * df) * tm)
+    last = np.floor((f0 + (k0 + m - 1) * df) * tm)
+    return first, (last - first).astype(np.int64)
+
+
+def _narrow_sums_crossings(tm, w, wy, f0, df, k0, m, n_narrow):
+    """As :func:`_narrow_sums_direct`, from the frequencies where points cross bin edges.
+
+    With ``x_i(f) = f t_i n_narrow`` a point sits in narrow bin ``floor(x) mod n_narrow`` and
+    moves to the next bin at ``f = E / (t_i n_narrow)`` for each integer E that ``x`` passes.
+    The bin sums at the block's first frequency are binned directly; after that only the
+    crossings are binned (``+w`` entering a bin, ``-w`` leaving the one before) and summed
+    cumulatively over frequency. Cost: the number of crossings, ``≈ n_narrow (f_max - f0) Σ t_i``,
+    independent of the grid spacing. Where a crossing falls within rounding (~1e-13 of a cycle)
+    of a trial frequency, the side it is put on is as arbitrary as the phase itself.
+    """
+    n = tm.size
+    size = m * n_narrow
+    first, count = _crossing_count(tm, f0, df, k0, m)
+    b0 = np.mod(first, n_narrow).astype(np.int64)
+    # per crossing (np.repeat is far cheaper than fancy indexing): the edge E and the point's t
+    starts = np.cumsum(count) - count
+    edge_i = np.repeat(first.astype(np.int64) + 1 - starts, count)
+    edge_i += np.arange(edge_i.size)
+    edge = edge_i.astype(float)
+    k = edge / np.repeat(tm, count)
+    k -= f0
+    k /= df
+    np.ceil(k, out=k)
+    np.clip(k, k0 + 1, k0 + m - 1, out=k)
+    small = np.int32 if n and first.max() + count.max() < 2**31 else np.int64
+    idx = (k.astype(np.int64) - k0) * n_narrow
+    idx += np.remainder(edge_i.astype(small, copy=False), small(n_narrow))
+    out = []
+    for weights in (w, wy, None):
+        enter = np.bincount(idx, weights=None if weights is None else np.repeat(weights, count),
+                            minlength=size).reshape(m, n_narrow)
+        enter = enter.astype(np.int64 if weights is None else float, copy=False)
+        # a point entering bin b left bin b - 1 (cyclically); row 0 holds no crossing
+        change = enter - np.roll(enter, -1, axis=1)
+        change[0] = np.bincount(b0, weights=weights, minlength=n_narrow)
+        out.append(np.cumsum(change, axis=0))
+    return tuple(out)
+
+
+#: Name -> function giving the narrow-bin sums of a block of frequencies (same numbers).
+BINNINGS = {
+    "pairs": _narrow_sums_direct,
+    "crossings": _narrow_sums_crossings,
+}
+
+
+def pdm_theta(t, y, dy, f0, df, nf, *, n_bins=10, n_covers=2, weighted=True, binning="auto",
               chunk_elements=2**19):
     r"""Return Stellingwerf's Θ at frequencies ``f0 + k df``, k = 0..nf-1.
 
@@ -36,8 +118,10 @@ def pdm_theta(t, y, dy, f0, df, nf, *, n_bins=10, n_covers=2, weighted=True,
     weighted : bool, optional
         Weight points by ``1/dy²`` (normalised to mean 1); False gives Stellingwerf's
         unweighted statistic.
+    binning : {"auto", "pairs", "crossings"}, optional
+        How the bin sums are formed (see Notes and `BINNINGS`); ``"auto"`` takes the cheaper.
     chunk_elements : int, optional
-        (point, frequency) pairs handled at a time.
+        (point, frequency) pairs, or bin-edge crossings, handled at a time.
 
     Returns
     -------
@@ -55,9 +139,10 @@ def pdm_theta(t, y, dy, f0, df, nf, *, n_bins=10, n_covers=2, weighted=True,
 
     Weighted sums of squares in a bin are ``Σ w y² - (Σ w y)² / Σ w``; as every point falls in
     exactly one bin of each cover, only the per-bin ``Σ w`` and ``Σ w y`` vary with frequency.
-    Phases are kept as 64-bit fixed-point fractions of a cycle, ``φ_k = φ_0 + k δφ (mod 2^64)``,
-    so the modulo is the integer overflow itself; the bins of all covers are sums of
-    ``n_bins n_covers`` narrow bins.
+    The bins of all covers are sums of ``n_bins n_covers`` narrow bins. The narrow-bin sums come
+    from whichever of two exact ways costs less: binning every (point, frequency) pair, or, on
+    finely spaced grids where a point stays in its bin over many trial frequencies, binning only
+    the frequencies where points cross bin edges.
 
     Examples
     --------
@@ -80,45 +165,41 @@ def pdm_theta(t, y, dy, f0, df, nf, *, n_bins=10, n_covers=2, weighted=True,
 
     n_narrow = n_bins * n_covers
     tp = t - t.min()
-    start = _fixed_point(f0 * tp)
-    step = _fixed_point(df * tp)
-    ch = int(max(1, min(nf, chunk_elements // max(n, 1))))
-    w_rep = np.repeat(w, ch)
-    wy_rep = np.repeat(wy, ch)
-    offsets = (np.arange(ch, dtype=np.uint64) * np.uint64(n_narrow))[None, :]
-    phase = np.empty((n, ch), dtype=np.uint64)
-    sh32, n_narrow_u = np.uint64(32), np.uint64(n_narrow)
+    tm = tp * n_narrow
+    if binning not in ("auto", *BINNINGS):
+        msg = f"'binning' must be 'auto' or one of {sorted(BINNINGS)}, got {binning!r}"
+        raise ValueError(msg)
+    crossings = float(np.sum(np.floor((f0 + (nf - 1) * df) * tm) - np.floor(f0 * tm)))
+    if binning == "auto":
+        binning = "crossings" if crossings * _CROSSING_COST < float(n) * nf else "pairs"
+    if binning == "crossings":
+        ch = int(max(2, min(nf, chunk_elements // max(crossings / nf, 1.0))))
+        times = tm
+    else:
+        ch = int(max(1, min(nf, chunk_elements // max(n, 1))))
+        times = tp
+    sums = BINNINGS[binning]
     theta = np.empty(nf)
     for k0 in range(0, nf, ch):
         m = min(ch, nf - k0)
-        if m != ch:
-            phase = phase[:, :m]
-            w_rep, wy_rep = np.repeat(w, m), np.repeat(wy, m)
-            offsets = offsets[:, :m]
-        k = np.arange(k0, k0 + m, dtype=np.uint64)
-        np.multiply(step[:, None], k[None, :], out=phase)  # wraps modulo 2**64 by design
-        phase += start[:, None]
-        # narrow bin = floor(phase * n_narrow): top 32 bits times n_narrow, top part of that
-        phase >>= sh32
-        phase *= n_narrow_u
-        phase >>= sh32
-        phase += offsets
-        idx = phase.reshape(-1).view(np.int64)
-        sw = np.bincount(idx, weights=w_rep, minlength=m * n_narrow).reshape(m, n_narrow)
-        swy = np.bincount(idx, weights=wy_rep, minlength=m * n_narrow).reshape(m, n_narrow)
-        # wide bins of every cover: sums of n_covers consecutive narrow bins, cyclically
-        wide_w = sw.copy()
-        wide_wy = swy.copy()
-        for i in range(1, n_covers):
-            wide_w += np.roll(sw, -i, axis=1)
-            wide_wy += np.roll(swy, -i, axis=1)
-        filled = wide_w > 0
-        between = np.sum(np.where(filled, wide_wy**2 / np.where(filled, wide_w, 1.0), 0.0),
-                         axis=1)
-        dof = n_covers * n - filled.sum(axis=1)
-        within = (n_covers * sum_wyy - between) / np.maximum(dof, 1)
-        theta[k0:k0 + m] = within / sigma2
+        sw, swy, cnt = sums(times, w, wy, f0, df, k0, m, n_narrow)
+        theta[k0:k0 + m] = _theta_from_narrow(sw, swy, cnt, n, n_covers, sum_wyy) / sigma2
     return theta
+
+
+def _theta_from_narrow(sw, swy, cnt, n, n_covers, sum_wyy):
+    """Pooled within-bin variance ``s²`` from narrow-bin sums of shape (m, n_narrow)."""
+    # wide bins of every cover: sums of n_covers consecutive narrow bins, cyclically
+    wide_w, wide_wy, wide_n = sw.copy(), swy.copy(), cnt.copy()
+    for i in range(1, n_covers):
+        wide_w += np.roll(sw, -i, axis=1)
+        wide_wy += np.roll(swy, -i, axis=1)
+        wide_n += np.roll(cnt, -i, axis=1)
+    filled = wide_n > 0
+    between = np.sum(np.where(filled, wide_wy**2 / np.where(filled, wide_w, 1.0), 0.0),
+                     axis=1)
+    dof = n_covers * n - filled.sum(axis=1)
+    return (n_covers * sum_wyy - between) / np.maximum(dof, 1)
 
 
 def pdm_periodogram(t, y, dy, grid, *, n_bins=10, n_covers=2, weighted=True):

@@ -64,6 +64,50 @@ def test_vectorised_matches_slow_oracle(n_bins, n_covers, weighted):
     np.testing.assert_allclose(fast, slow, rtol=1e-9)
 
 
+@pytest.mark.parametrize("n_bins, n_covers, weighted", [
+    pytest.param(10, 2, True, id="10x2-weighted"),
+    pytest.param(5, 3, False, id="5x3-unweighted"),
+    pytest.param(3, 1, True, id="3x1-weighted"),
+])
+@pytest.mark.parametrize("chunk", [pytest.param(300, id="small-blocks"),
+                                   pytest.param(2**19, id="one-block")])
+def test_crossing_binning_matches_slow_oracle(n_bins, n_covers, weighted, chunk):
+    # A fine grid (several trial frequencies per bin-edge crossing), where the crossings are
+    # binned instead of every (point, frequency) pair; points jump several narrow bins per step
+    # at the coarse end (df t n_bins n_covers > 1 for the late points when n_bins = 10).
+    rng = np.random.default_rng(8)
+    t = np.sort(rng.uniform(3, 15, 120))
+    dy = rng.uniform(0.02, 0.06, 120)
+    y = 0.3 * np.cos(2 * np.pi * 1.9 * t) + rng.normal(0, dy)
+    for f0, df, nf in ((0.5, 0.0004, 900), (1.0, 0.009, 200)):
+        fast = pdm_theta(t, y, dy, f0, df, nf, n_bins=n_bins, n_covers=n_covers,
+                         weighted=weighted, binning="crossings", chunk_elements=chunk)
+        pairs = pdm_theta(t, y, dy, f0, df, nf, n_bins=n_bins, n_covers=n_covers,
+                          weighted=weighted, binning="pairs")
+        slow = [_theta_slow(t, y, dy, f0 + k * df, n_bins, n_covers, weighted)
+                for k in range(nf)]
+        np.testing.assert_allclose(fast, slow, rtol=1e-9)
+        np.testing.assert_allclose(fast, pairs, rtol=1e-9)
+
+
+@pytest.mark.parametrize("binning", ["pairs", "crossings"])
+def test_hand_computed_cases_by_either_binning(binning):
+    # the two hand computations above (Stellingwerf 1978 eqs. 1-3), through each binning
+    t = np.array([0.0, 0.25, 0.5, 0.75])
+    y = np.array([0.0, 1.0, 2.0, 3.0])
+    theta = pdm_theta(t, y, np.ones(4), 1.0, 1.0, 1, n_bins=2, n_covers=2, binning=binning)
+    assert theta[0] == pytest.approx(0.9, rel=1e-12)
+    t = np.arange(8) / 8.0
+    y = np.array([0.0, 0.0, 1.0, 1.0, 0.0, 0.0, 1.0, 1.0])
+    theta = pdm_theta(t, y, np.ones(8), 1.0, 1.0, 2, n_bins=2, n_covers=1, binning=binning)
+    np.testing.assert_allclose(theta, [7 / 6, 0.0], atol=1e-12)
+
+
+def test_unknown_binning():
+    with pytest.raises(ValueError, match="'binning' must be 'auto' or one of"):
+        pdm_theta(np.arange(5.0), np.zeros(5), np.ones(5), 1.0, 0.1, 3, binning="sorted")
+
+
 def test_periodogram_finds_signal_and_its_fap_is_small():
     rng = np.random.default_rng(5)
     t = np.sort(rng.uniform(0, 10, 300))
