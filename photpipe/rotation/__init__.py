@@ -15,6 +15,7 @@ from photpipe.rotation.errors import LightcurveError, RotationWarning
 from photpipe.rotation.figures import periodogram_figure, phased_figure, residuals_figure
 from photpipe.rotation.fit import FourierFit, bootstrap_fourier_fit, fit_fourier_series
 from photpipe.rotation.fourier_model import (
+    design_and_derivative,
     design_matrix,
     fourier_series,
     frequency_derivative,
@@ -56,7 +57,8 @@ __all__ = [
     "FrequencyGrid", "frequency_grid", "harmonic_chi2", "trig_sums", "direct_trig_sums",
     "spectral_window", "window_peaks", "describe_relation", "periodogram_peaks",
     "FourierFit", "fit_fourier_series", "bootstrap_fourier_fit",
-    "design_matrix", "fourier_series", "frequency_derivative", "model_extrema", "peak_to_peak",
+    "design_matrix", "design_and_derivative", "fourier_series", "frequency_derivative",
+    "model_extrema", "peak_to_peak",
     "PHASE_LAWS", "linear_phase_excess", "hg_phase_excess", "hg_phase_functions",
     "amplitude_at_zero_phase", "minimum_axial_ratio", "undilute_amplitude",
     "synthetic_lightcurve", "SyntheticRotation", "DEMO_SITES",

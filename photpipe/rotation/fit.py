@@ -5,9 +5,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from photpipe.rotation.fourier_model import (
+    design_and_derivative,
     design_matrix,
     fourier_series,
-    frequency_derivative,
     peak_to_peak,
 )
 
@@ -93,17 +93,24 @@ def _linear_solve(t, y, w, frequency, order, t0):
 
 def _gauss_newton(t, y, w, frequency, coef, t0, n_iter=8):
     """Polish (coefficients, frequency) jointly; return them, χ² and the normal matrix."""
-    for _ in range(n_iter):
-        a = design_matrix(t, frequency, len(coef) // 2, t0=t0)
-        jac = np.column_stack([a, frequency_derivative(t, frequency, coef, t0=t0)])
+    for i in range(n_iter + 1):
+        a, deriv = design_and_derivative(t, frequency, coef, t0=t0)
+        jac = np.empty((a.shape[0], a.shape[1] + 1))
+        jac[:, :-1] = a
+        jac[:, -1] = deriv
+        if i == n_iter:
+            break
         resid = y - a @ coef
         step = _weighted_solve(jac, resid, w)
         coef = coef + step[:-1]
         frequency = frequency + step[-1]
         if abs(step[-1]) < 1e-12 * max(abs(frequency), 1.0):
+            # converged: the last step is far below the errors; the Jacobian at the new point
+            # is the same to that precision, so take the matrices after one more evaluation
+            a, deriv = design_and_derivative(t, frequency, coef, t0=t0)
+            jac[:, :-1] = a
+            jac[:, -1] = deriv
             break
-    a = design_matrix(t, frequency, len(coef) // 2, t0=t0)
-    jac = np.column_stack([a, frequency_derivative(t, frequency, coef, t0=t0)])
     chi2 = float(np.sum(w * (y - a @ coef) ** 2))
     normal = jac.T @ (jac * w[:, None])
     return frequency, coef, chi2, normal

@@ -7,8 +7,8 @@ Coefficients are ordered ``[c0, a1, b1, a2, b2, ...]`` for
 
 import numpy as np
 
-__all__ = ["design_matrix", "fourier_series", "frequency_derivative", "model_extrema",
-           "peak_to_peak"]
+__all__ = ["design_matrix", "design_and_derivative", "fourier_series", "frequency_derivative",
+           "model_extrema", "peak_to_peak"]
 
 
 def design_matrix(t, frequency, order, *, t0=0.0):
@@ -37,10 +37,50 @@ def design_matrix(t, frequency, order, *, t0=0.0):
            [1., 0., 1.]])
     """
     theta = 2 * np.pi * frequency * (np.asarray(t, dtype=float) - t0)
-    cols = [np.ones_like(theta)]
+    return _harmonic_columns(theta, order)
+
+
+def _harmonic_columns(theta, order):
+    """Columns ``1, cos θ, sin θ, ..., cos mθ, sin mθ`` from one complex exponential.
+
+    ``exp(ikθ)`` by repeated multiplication: one trigonometric evaluation per point instead of
+    2m, with a rounding error growing only as k ε.
+    """
+    out = np.empty((theta.size, 2 * order + 1))
+    out[:, 0] = 1.0
+    if order == 0:
+        return out
+    z = np.exp(1j * theta)
+    zk = z.copy()
     for k in range(1, order + 1):
-        cols += [np.cos(k * theta), np.sin(k * theta)]
-    return np.column_stack(cols)
+        out[:, 2 * k - 1] = zk.real
+        out[:, 2 * k] = zk.imag
+        if k < order:
+            zk *= z
+    return out
+
+
+def design_and_derivative(t, frequency, coefficients, *, t0=0.0):
+    """Return :func:`design_matrix` and :func:`frequency_derivative` from one evaluation.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> a, d = design_and_derivative(np.array([0.5]), 1.0, np.array([0.0, 0.0, 1.0]))
+    >>> a.round(12), round(float(d[0]), 6)
+    (array([[ 1., -1.,  0.]]), -3.141593)
+    """
+    coefficients = np.asarray(coefficients, dtype=float)
+    order = (coefficients.size - 1) // 2
+    dt = np.asarray(t, dtype=float) - t0
+    a = _harmonic_columns(2 * np.pi * frequency * dt, order)
+    # ∂V/∂f = Σ_k 2πk (t - t0) [-a_k sin kθ + b_k cos kθ]
+    k = np.arange(1, order + 1)
+    mix = np.empty(2 * order + 1)
+    mix[0] = 0.0
+    mix[1::2] = 2 * np.pi * k * coefficients[2::2]
+    mix[2::2] = -2 * np.pi * k * coefficients[1::2]
+    return a, dt * (a @ mix)
 
 
 def fourier_series(t, frequency, coefficients, *, t0=0.0):

@@ -21,6 +21,7 @@ from photpipe.rotation.errors import LightcurveError, RotationWarning
 from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series
 from photpipe.rotation.fourier_model import fourier_series, model_extrema
 from photpipe.rotation.grid import frequency_grid
+from photpipe.rotation.harmonic_sums import harmonic_chi2
 from photpipe.rotation.lightcurve import ReducedLightcurve
 from photpipe.rotation.methods import METHODS
 from photpipe.rotation.periodogram import fap_from_power
@@ -534,6 +535,11 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         "fourier": {"max_order": max_order, "criterion": order_criterion},
         "pdm": {"n_bins": pdm_bins, "n_covers": pdm_covers},
     }
+    if "lomb-scargle" in methods and "fourier" in methods:
+        # both read the same multi-harmonic χ² over the grid: compute it once
+        orders = max(ls_nterms, min(max_order, max(1, (n - 3) // 2 - 1)))
+        shared = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=orders)
+        options["lomb-scargle"]["harmonics"] = options["fourier"]["harmonics"] = shared
     periodograms = {name: METHODS[name](t, y, dy, grid, **options.get(name, {}))
                     for name in methods}
 

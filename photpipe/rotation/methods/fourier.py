@@ -77,7 +77,8 @@ def choose_order(chi2, n_points, *, criterion="bic", p_threshold=1e-3):
     return fn(chi2, n_points, p_threshold=p_threshold)
 
 
-def fourier_periodogram(t, y, dy, grid, *, max_order=4, criterion="bic", p_threshold=1e-3):
+def fourier_periodogram(t, y, dy, grid, *, max_order=4, criterion="bic", p_threshold=1e-3,
+                        harmonics=None):
     """Return the Fourier-series periodogram at the order the data support.
 
     Parameters
@@ -92,6 +93,10 @@ def fourier_periodogram(t, y, dy, grid, *, max_order=4, criterion="bic", p_thres
         How the order is chosen (see :func:`choose_order`).
     p_threshold : float, optional
         Significance threshold of the F test.
+    harmonics : tuple, optional
+        ``(chi2, chi2_ref)`` already computed by
+        :func:`~photpipe.rotation.harmonic_sums.harmonic_chi2` on the same data and grid with at
+        least the orders tried here; the orders beyond them are ignored.
 
     Returns
     -------
@@ -117,7 +122,9 @@ def fourier_periodogram(t, y, dy, grid, *, max_order=4, criterion="bic", p_thres
     (1.5, 2)
     """
     max_order = min(max_order, max(1, (len(t) - 3) // 2 - 1))
-    chi2, chi2_ref = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=max_order)
+    if harmonics is None or harmonics[0].shape[0] < max_order:
+        harmonics = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=max_order)
+    chi2, chi2_ref = harmonics[0][:max_order], harmonics[1]
     order, details = choose_order(chi2, len(t), criterion=criterion, p_threshold=p_threshold)
     power = 1.0 - chi2[order - 1] / chi2_ref
     fap = fap_from_power(power, len(t), 2 * order, grid.n_independent)

@@ -9,12 +9,14 @@ from photpipe.rotation.periodogram import Periodogram, fap_from_power
 __all__ = ["lomb_scargle_periodogram", "LS_ENGINES"]
 
 
-def _power_trig_sums(t, y, dy, grid, nterms):
-    chi2, chi2_ref = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=nterms)
+def _power_trig_sums(t, y, dy, grid, nterms, harmonics=None):
+    if harmonics is None or harmonics[0].shape[0] < nterms:
+        harmonics = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=nterms)
+    chi2, chi2_ref = harmonics
     return 1.0 - chi2[nterms - 1] / chi2_ref
 
 
-def _power_astropy(t, y, dy, grid, nterms):
+def _power_astropy(t, y, dy, grid, nterms, harmonics=None):
     ls = LombScargle(t, y, dy, nterms=nterms, fit_mean=True, center_data=True)
     return np.asarray(ls.power(grid.frequency, method="fast" if nterms == 1 else "fastchi2",
                                normalization="standard"))
@@ -27,7 +29,8 @@ LS_ENGINES = {
 }
 
 
-def lomb_scargle_periodogram(t, y, dy, grid, *, nterms=2, engine="trig-sums"):
+def lomb_scargle_periodogram(t, y, dy, grid, *, nterms=2, engine="trig-sums",
+                             harmonics=None):
     """Return the generalised Lomb-Scargle periodogram of a lightcurve on a grid.
 
     Parameters
@@ -43,6 +46,11 @@ def lomb_scargle_periodogram(t, y, dy, grid, *, nterms=2, engine="trig-sums"):
         ``"trig-sums"`` solves all frequencies at once from FFT trigonometric sums (see
         :func:`~photpipe.rotation.harmonic_sums.harmonic_chi2`); ``"astropy"`` calls
         `astropy.timeseries.LombScargle` (same numbers, slower for ``nterms > 1``).
+    harmonics : tuple, optional
+        ``(chi2, chi2_ref)`` already computed by
+        :func:`~photpipe.rotation.harmonic_sums.harmonic_chi2` on the same data and grid with
+        ``max_order >= nterms`` (e.g. for the Fourier-series periodogram); used by the
+        ``"trig-sums"`` engine instead of computing them again.
 
     Returns
     -------
@@ -67,7 +75,7 @@ def lomb_scargle_periodogram(t, y, dy, grid, *, nterms=2, engine="trig-sums"):
     >>> round(pg.best_frequency, 2)
     2.0
     """
-    power = LS_ENGINES[engine](t, y, dy, grid, nterms)
+    power = LS_ENGINES[engine](t, y, dy, grid, nterms, harmonics)
     fap = fap_from_power(power, len(t), 2 * nterms, grid.n_independent)
     return Periodogram("lomb-scargle", grid.frequency, power, power, fap,
                        f"power ({nterms} harmonics)", info={"nterms": nterms, "engine": engine})

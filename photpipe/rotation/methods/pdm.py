@@ -25,7 +25,6 @@ def _narrow_sums_direct(tp, w, wy, f0, df, k0, m, n_narrow):
     Phases are 64-bit fixed-point fractions of a cycle, ``φ_k = φ_0 + k δφ (mod 2^64)``, so the
     modulo is the integer overflow itself. Cost: ``n m`` (point, frequency) pairs.
     """
-    n = tp.size
     start = _fixed_point((f0 + k0 * df) * tp)
     step = _fixed_point(df * tp)
     k = np.arange(m, dtype=np.uint64)
