@@ -57,6 +57,8 @@ def test_hg_law_and_quantity_columns():
                  id="nan-error"),
     pytest.param("nucleus_mag_err", [0.05, -0.01, 0.05], "zero or negative magnitude error",
                  id="negative-error"),
+    pytest.param("nucleus_mag", [20.0, np.nan, 20.2], "no finite magnitude", id="nan-mag"),
+    pytest.param("mjd_utc_mid", [61000.0, np.nan, 61001.0], "no finite epoch", id="nan-epoch"),
     pytest.param("delta_au", [1.5, 0.0, 1.5], "non-positive r_h_au or delta_au", id="delta"),
     pytest.param("source", ["nucleus_fit", "psf", "nucleus_fit"], "unknown 'source'",
                  id="source"),
@@ -66,6 +68,11 @@ def test_bad_rows_are_named(column, value, text):
         reduce_lightcurve(_rows(**{column: value}))
     if column != "source":
         assert ": b." in str(info.value)
+
+
+def test_empty_lightcurve():
+    with pytest.raises(LightcurveError, match="has no rows: there is nothing to reduce"):
+        reduce_lightcurve({k: [] for k in _rows()})
 
 
 def test_missing_column_and_wrong_type():
