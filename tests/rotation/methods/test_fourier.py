@@ -27,3 +27,23 @@ def test_choose_order_bic_hand_case():
     order, details = choose_order(chi2, 100, criterion="bic")
     assert order == 2
     np.testing.assert_allclose(details["bic"], [157.0501, 27.6310, 35.8363], atol=1e-3)
+
+
+def test_shared_harmonic_chi2_gives_the_same_periodograms():
+    # the search computes the χ² of every order once for both periodograms
+    from photpipe.rotation.harmonic_sums import harmonic_chi2
+    from photpipe.rotation.methods.lombscargle import lomb_scargle_periodogram
+
+    rng = np.random.default_rng(9)
+    t = np.sort(rng.uniform(0, 15, 400))
+    dy = np.full(400, 0.02)
+    y = 0.2 * np.cos(4 * np.pi * 1.7 * t) + rng.normal(0, 0.02, 400)
+    grid = FrequencyGrid(0.5, 0.004, 700, 15.0)
+    shared = harmonic_chi2(t, y, dy, grid.f0, grid.df, grid.n, max_order=4)
+    for alone, reused in (
+            (fourier_periodogram(t, y, dy, grid, max_order=3),
+             fourier_periodogram(t, y, dy, grid, max_order=3, harmonics=shared)),
+            (lomb_scargle_periodogram(t, y, dy, grid, nterms=2),
+             lomb_scargle_periodogram(t, y, dy, grid, nterms=2, harmonics=shared))):
+        np.testing.assert_allclose(reused.statistic, alone.statistic, rtol=0, atol=1e-10)
+        assert reused.info.get("order") == alone.info.get("order")
