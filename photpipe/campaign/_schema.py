@@ -13,7 +13,7 @@ from astropy import units as u
 __all__ = ["SCHEMA_VERSION", "Column", "TABLES", "RESULT_TABLES", "schema_sql", "column_unit"]
 
 #: Version of the layout below; stored in the ``schema_version`` table of every store.
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 
 
 @dataclass(frozen=True)
@@ -71,6 +71,14 @@ MEASUREMENT_COLUMNS = (
     _c("a0frho_cm", unit=u.cm, description="Afrho corrected to 0 deg phase"),
     _c("a0frho_err_cm", unit=u.cm),
     _c("coma_slope"),
+    _c("coma_apcorr_mag", unit=_MAG,
+       description="aperture correction of the PSF-blurred coma applied to the sum"),
+    _c("nucleus_share", description="share of the aperture's light from the fitted nucleus"),
+    _c("afrho_coma_cm", unit=u.cm, description="Afrho of the coma, the fitted nucleus removed"),
+    _c("afrho_coma_err_cm", unit=u.cm),
+    _c("a0frho_coma_cm", unit=u.cm,
+       description="Afrho of the coma at 0 deg phase, the fitted nucleus removed"),
+    _c("a0frho_coma_err_cm", unit=u.cm),
     _FLAGS,
 )
 

@@ -16,7 +16,7 @@ STAGES = {
                                         "calibrate_frame", "write_calibrated")),
     "geometry": ("photpipe.cli._geometry_settings", ("geometry_for_times",)),
     "photometry": ("photpipe.photometry", ("measure_comet_frame",)),
-    "nucleus": ("photpipe.nucleus", ("measure_psf", "fit_nucleus")),
+    "nucleus": ("photpipe.nucleus", ("measure_psf", "fit_nucleus", "coma_only_afrho")),
     "rotation": ("photpipe.cli.rotation", ("run_rotation_stage",)),
     "size": ("photpipe.cli.size", ("run_size_stage",)),
     "report": ("photpipe.cli.report", ("run_report_stage",)),

@@ -176,6 +176,22 @@ class CampaignStore:
                 msg = (f"{self.path}: store schema version {row[0]} is newer than this photpipe "
                        f"understands ({SCHEMA_VERSION}); upgrade photpipe")
                 raise StoreError(msg)
+            elif row[0] < SCHEMA_VERSION:
+                self._add_new_columns()
+                self._db.execute("INSERT INTO schema_version VALUES (?)", (SCHEMA_VERSION,))
+
+    def _add_new_columns(self):
+        """Bring an older store up to date: result columns added since are added, empty.
+
+        Later versions only ever add columns, so an older store keeps all it holds; frames
+        measured before the upgrade have NULL in the new columns until measured again
+        (``--rerun``).
+        """
+        for table, (columns, _) in RESULT_TABLES.items():
+            have = {r[1] for r in self._db.execute(f"PRAGMA table_info({table})")}
+            for col in columns:
+                if col.name not in have:
+                    self._db.execute(f'ALTER TABLE {table} ADD COLUMN "{col.name}" {col.sql}')
 
     @contextmanager
     def _write(self):

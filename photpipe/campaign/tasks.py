@@ -157,10 +157,27 @@ def process_frame(item, shared):
                           zero_point=_zero_point_row(photometry))
     if "nucleus" in stages and photometry is not None:
         try:
-            record["nucleus"] = _run_nucleus(frame, photometry, item, shared)
+            fit, pixel_scale = _run_nucleus(frame, photometry, item, shared)
+            record["nucleus"] = fit.to_row()
+            record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
         except Exception as exc:  # noqa: BLE001
             problems.append(("nucleus", _reason(exc, info)))
     return FrameRecord(**record, problems=tuple(problems))
+
+
+def _with_coma_afrho(comet, fit, pixel_scale):
+    """The measurement rows with the coma's own Afρ beside the totals' (the nucleus taken out)."""
+    if len(comet) == 0:
+        return comet
+    flux = max(fit.nucleus_flux_e_s, 0.0) * u.electron / u.s  # an undetected nucleus: nothing
+    flux_err = fit.nucleus_flux_err_e / fit.exptime_s * u.electron / u.s
+    coma = stage_function("nucleus", "coma_only_afrho")(comet, flux, fit.psf,
+                                                          pixel_scale=pixel_scale,
+                                                          nucleus_flux_err=flux_err)
+    out = comet.copy(copy_data=False)
+    for name in coma.colnames:
+        out[name] = coma[name]
+    return out
 
 
 def _run_photometry(frame, geometry_row, shared):
@@ -245,4 +262,4 @@ def _run_nucleus(frame, photometry, item, shared):
         frame, x0, y0, psf, pixel_scale=pixel_scale, zero_point=zp.zp,
         zero_point_err=zp.zp_err, star_xy=star_xy,
         rng=np.random.default_rng(_seed(item["content_hash"])), **options)
-    return fit.to_row()
+    return fit, pixel_scale
