@@ -108,17 +108,21 @@ def _as_2d(arr, path):
     return arr
 
 
+def _image_data(hdu, path):
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            data = hdu.data
+    except (OSError, ValueError, TypeError, EOFError) as exc:
+        raise FrameError(path, f"image data cannot be read, file damaged or truncated "
+                               f"({exc})") from exc
+    return _as_2d(data, path)
+
+
 def read_image(path, *, dtype=np.float32):
     """Read the first image of ``path`` as a 2-D array of ``dtype`` (BZERO/BSCALE applied)."""
     with open_image(path) as (hdul, index):
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                data = hdul[index].data
-        except (OSError, ValueError, TypeError, EOFError) as exc:
-            raise FrameError(path, f"image data cannot be read, file damaged or truncated "
-                                   f"({exc})") from exc
-        return _as_2d(data, path).astype(dtype, copy=False)
+        return _image_data(hdul[index], path).astype(dtype, copy=False)
 
 
 @contextlib.contextmanager
@@ -135,14 +139,7 @@ def stored_image(path):
     with open_image(path, memmap=True, scale=False) as (hdul, index):
         header = hdul[index].header
         if "BLANK" not in header:
-            try:
-                with warnings.catch_warnings():
-                    warnings.simplefilter("ignore")
-                    data = hdul[index].data
-            except (OSError, ValueError, TypeError, EOFError) as exc:
-                raise FrameError(path, f"image data cannot be read, file damaged or truncated "
-                                       f"({exc})") from exc
-            yield (_as_2d(data, path), float(header.get("BSCALE", 1.0)),
+            yield (_image_data(hdul[index], path), float(header.get("BSCALE", 1.0)),
                    float(header.get("BZERO", 0.0)))
             return
     yield read_image(path), 1.0, 0.0
