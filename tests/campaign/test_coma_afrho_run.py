@@ -1,0 +1,76 @@
+"""The shipped synthetic night reduced end to end, against its truth (photpipe.scenario).
+
+``sample_frames/`` is rendered by ``sample_frames/make_sample_frames.py`` from the invented demo
+scenario, and ``sample_frames/demo_truth.ecsv`` holds what went into each frame.
+"""
+
+import logging
+
+import numpy as np
+import pytest
+from astropy import units as u
+from astropy.table import QTable, join
+
+from photpipe.campaign import CampaignStore
+from photpipe.campaign.pipeline import run_campaign
+from photpipe.campaign.stages import stage_status
+from photpipe.cli.config import load_config
+
+from ._nights import DEMO, ROOT
+
+
+@pytest.fixture(scope="module")
+def demo_rows(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("demo")
+    text = DEMO.read_text().replace('results = "../results/demo"', f'results = "{tmp}"')
+    text = text.replace('"../sample_frames/', f'"{ROOT}/sample_frames/')
+    (tmp / "demo.toml").write_text(text)
+    config = load_config(tmp / "demo.toml")
+    summary = run_campaign(config, workers=0, progress=False,
+                           echo=logging.getLogger("test").debug)
+    with CampaignStore(config["campaign"]["store"]) as store:
+        rows = store.export_table("measurements")
+        nucleus = store.export_table("nucleus")
+    truth = QTable.read(ROOT / "sample_frames" / "demo_truth.ecsv")
+    return summary, rows, nucleus, truth
+
+
+pytestmark = [pytest.mark.slow,
+              pytest.mark.skipif(not (stage_status("photometry").available
+                                      and stage_status("nucleus").available),
+                                 reason="needs the photometry and nucleus stages")]
+
+
+def test_every_science_frame_is_measured(demo_rows):
+    summary, rows, nucleus, truth = demo_rows
+    assert summary.measured == len(truth) == 12
+    assert len(nucleus) == 12
+
+
+def test_zero_point_and_nucleus_magnitude(demo_rows):
+    _, rows, nucleus, truth = demo_rows
+    # Measured: zero points within 0.02 mag of the rendered 23.80 and nucleus magnitudes
+    # 0.010 mag (median) from the truth with 0.013 mag rms, against errors of 0.012 mag.
+    assert np.all(np.abs(u.Quantity(rows["zp_mag"]).value - 23.80) < 0.03)
+    both = join(QTable(truth)["frame", "nucleus_mag"], nucleus["frame", "nucleus_mag"],
+                keys="frame", table_names=["truth", "fit"])
+    diff = u.Quantity(both["nucleus_mag_truth"]).value - u.Quantity(both["nucleus_mag_fit"]).value
+    assert abs(np.median(diff)) < 0.03
+    assert np.std(diff) < 0.04
+
+
+def test_nucleus_removed_afrho_matches_the_coma_truth(demo_rows):
+    _, rows, _, truth = demo_rows
+    both = join(rows, QTable(truth)["frame", "afrho_cm"], keys="frame",
+                table_names=["", "truth"])
+    expected = np.asarray(both["afrho_cm_truth"], float)  # cm (demo_truth.ecsv)
+    total = u.Quantity(both["afrho_cm_"]).to_value(u.cm)
+    coma = u.Quantity(both["afrho_coma_cm"]).to_value(u.cm)
+    # The total light's Afρ holds the nucleus: measured +6 % at 20,000 km to +45 % at 2,200 km
+    # (5 arcsec). With the fitted nucleus taken out, the coma's Afρ comes back to the truth:
+    # medians per aperture 80.3-81.2 cm against 80.6 cm, every row within 2 % but one that a
+    # field star falls in (flag star_in_aperture, 3.5 %).
+    clean = np.array(["star_in_aperture" not in str(f) for f in both["flags"]])
+    assert np.all(total / expected - 1 > 0.03)
+    assert np.all(np.abs(coma / expected - 1)[clean] < 0.025)
+    assert abs(np.median(coma / expected) - 1) < 0.01
