@@ -117,8 +117,6 @@ apertures_arcsec = [5.0]
 
 [nucleus]
 cutout_pix = 61
-bootstrap = 10
-psf_methods = ["moffat"]
 """
     path = folder / "bench.toml"
     path.write_text(text)

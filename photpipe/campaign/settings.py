@@ -51,6 +51,7 @@ _PSF = {
     "psf_cutout_pix": ("cutout", int),
     "psf_min_stars": ("min_stars", int),
     "psf_methods": ("methods", lambda v: tuple(str(x) for x in v)),
+    "psf_epsf": ("epsf", str),
 }
 
 
@@ -122,8 +123,8 @@ def _phase_table(config, path):
 def nucleus_options(config):
     """Keyword options of :func:`photpipe.nucleus.fit_nucleus` from ``[nucleus]``.
 
-    The PSF options (``psf_cutout_pix``, ``psf_min_stars``, ``psf_methods``) go under the key
-    ``"psf"`` for :func:`photpipe.nucleus.measure_psf`.
+    The PSF options (``psf_cutout_pix``, ``psf_min_stars``, ``psf_methods``, ``psf_epsf``) go
+    under the key ``"psf"`` for :func:`photpipe.nucleus.measure_psf`.
 
     Examples
     --------
