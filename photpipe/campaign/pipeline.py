@@ -242,10 +242,16 @@ class _Run:
                   "geometry_problem": problem,
                   "calibrated_path": str(folder / "calibrated" / f"{info.name}.fits")}
                  for info, row in zip(todo, geometry)]
+        site = None
+        if "photometry" in self.frame_stages and "geometry" in self.frame_stages:
+            try:
+                site = stage_function("geometry", "location_for_night")(self.config, entry)
+            except ConfigError:
+                site = None  # the geometry step has reported the bad site; header airmass only
         shared = {"masters": masters, "stages": self.frame_stages,
                   "calibration": self.settings["calibration"],
                   "photometry": self.settings["photometry"],
-                  "nucleus": self.settings["nucleus"]}
+                  "nucleus": self.settings["nucleus"], "site_location": site}
         if "photometry" in self.frame_stages:
             reference = self.reference()
             shared.update(reference_store=reference.store_path,

@@ -32,6 +32,8 @@ _PHOTOMETRY = {
                                lambda v: np.asarray(v, float) * u.km),
     "min_stars": ("min_stars", int),
     "detect_threshold": ("detect_threshold", float),
+    "coma_correction": ("coma_correction", bool),
+    "airmass_formula": ("airmass_formula", str),
 }
 
 #: Keys of [photometry] used elsewhere in the run (not keyword options).

@@ -14,7 +14,7 @@ __all__ = ["STAGES", "FRAME_STAGES", "StageStatus", "stage_status", "stage_funct
 STAGES = {
     "calibration": ("photpipe.frames", ("scan_night", "plan_calibrations", "build_masters",
                                         "calibrate_frame", "write_calibrated")),
-    "geometry": ("photpipe.cli._geometry_settings", ("geometry_for_times",)),
+    "geometry": ("photpipe.cli._geometry_settings", ("geometry_for_times", "location_for_night")),
     "photometry": ("photpipe.photometry", ("measure_comet_frame",)),
     "nucleus": ("photpipe.nucleus", ("measure_psf", "fit_nucleus", "coma_only_afrho")),
     "rotation": ("photpipe.cli.rotation", ("run_rotation_stage",)),

@@ -187,6 +187,8 @@ def _run_photometry(frame, geometry_row, shared):
                or "no reference-star file is configured ([photometry] reference_stars)")
         raise ValueError(msg)
     options = dict(shared.get("photometry", {}))
+    if shared.get("site_location") is not None:
+        options.setdefault("site", shared["site_location"])  # airmass when the header has none
     stars = frame_reference_stars(frame, path)
     measure = stage_function("photometry", "measure_comet_frame")
     return measure(frame, stars, geometry_row[0], **options)
