@@ -21,8 +21,8 @@ from pathlib import Path
 from astropy.time import Time
 
 from photpipe._records import Skipped
-from photpipe.cli.config import ConfigError, night_folders
 
+from .config import ConfigError, night_folders
 from .hashing import config_hash, file_sha256
 from .refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from .runner import TaskError, TaskRunner
@@ -376,7 +376,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
     Parameters
     ----------
     config : dict
-        As returned by :func:`photpipe.cli.config.load_config`.
+        As returned by :func:`photpipe.campaign.config.load_config`.
     workers : int, optional
         Local worker processes (default ``[run] workers``, else 1; 0 runs in this process).
     scheduler : str, optional

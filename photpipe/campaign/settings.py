@@ -9,7 +9,7 @@ ignored.
 import numpy as np
 from astropy import units as u
 
-from photpipe.cli.config import ConfigError
+from .config import ConfigError
 
 __all__ = ["photometry_options", "nucleus_options"]
 

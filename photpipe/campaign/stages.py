@@ -14,12 +14,13 @@ __all__ = ["STAGES", "FRAME_STAGES", "StageStatus", "stage_status", "stage_funct
 STAGES = {
     "calibration": ("photpipe.frames", ("scan_night", "plan_calibrations", "build_masters",
                                         "calibrate_frame", "write_calibrated")),
-    "geometry": ("photpipe.cli._geometry_settings", ("geometry_for_times", "location_for_night")),
+    "geometry": ("photpipe.campaign.geometry_settings", ("geometry_for_times",
+                                                         "location_for_night")),
     "photometry": ("photpipe.photometry", ("measure_comet_frame",)),
     "nucleus": ("photpipe.nucleus", ("measure_psf", "fit_nucleus", "coma_only_afrho")),
-    "rotation": ("photpipe.cli.rotation", ("run_rotation_stage",)),
-    "size": ("photpipe.cli.size", ("run_size_stage",)),
-    "report": ("photpipe.cli.report", ("run_report_stage",)),
+    "rotation": ("photpipe.campaign.rotation_step", ("run_rotation_stage",)),
+    "size": ("photpipe.campaign.size_step", ("run_size_stage",)),
+    "report": ("photpipe.campaign.report_step", ("run_report_stage",)),
 }
 
 #: Stages that run on each science frame (in a worker); the others run once per campaign.

@@ -14,15 +14,15 @@ from astropy import units as u
 from astropy.time import Time
 
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
-from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
-from photpipe.cli._files import write_atomic
-from photpipe.cli._geometry_settings import (
+from photpipe.campaign.config import load_config
+from photpipe.campaign.geometry_settings import (
     GEOCENTRE,
     caution_limit,
     geometry_at_location,
     location_for_site,
 )
-from photpipe.cli.config import load_config
+from photpipe.campaign.result_files import write_atomic
+from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
 from photpipe.geometry import solar_elongation_caution
 
 __all__ = ["HELP", "add_arguments", "execute", "parse_step", "time_grid", "format_table",

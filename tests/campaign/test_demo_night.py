@@ -12,9 +12,9 @@ from astropy import units as u
 from astropy.table import QTable, join
 
 from photpipe.campaign import CampaignStore
+from photpipe.campaign.config import load_config
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.campaign.stages import stage_status
-from photpipe.cli.config import load_config
 
 from ._nights import DEMO, ROOT
 

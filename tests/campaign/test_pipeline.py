@@ -6,9 +6,9 @@ from pathlib import Path
 import pytest
 
 from photpipe.campaign import CampaignStore, StoreError
+from photpipe.campaign.config import ConfigError, load_config
 from photpipe.campaign.pipeline import night_name, run_campaign
 from photpipe.campaign.stages import stage_status
-from photpipe.cli.config import ConfigError, load_config
 
 from ._nights import assert_same_contents, contents, render_small_night, write_config
 

@@ -6,13 +6,13 @@ from astropy import units as u
 from astropy.table import QTable, Table
 from astropy.time import Time
 
-from photpipe.cli._geometry_settings import (
+from photpipe.campaign.config import ConfigError, load_config
+from photpipe.campaign.geometry_settings import (
     caution_limit,
     geometry_for_times,
     location_for_night,
     orbit_from_config,
 )
-from photpipe.cli.config import ConfigError, load_config
 from photpipe.cli.ephem import parse_step, time_grid
 from photpipe.cli.main import main
 from photpipe.geometry import Orbit, observing_geometry

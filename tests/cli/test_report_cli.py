@@ -3,8 +3,10 @@ import json
 import pytest
 
 from photpipe.activity.synthetic import simulate_campaign_tables
+from photpipe.campaign.activity_settings import activity_settings
+from photpipe.campaign.config import ConfigError, load_config
+from photpipe.campaign.report_step import run_report_stage
 from photpipe.cli import report as cli_report
-from photpipe.cli.config import ConfigError, load_config
 from photpipe.cli.main import main
 
 
@@ -88,7 +90,7 @@ def test_bad_activity_settings(tmp_path, capsys, activity, match):
     assert main(["report", str(cfg)]) == cli_report.CONFIG_PROBLEM
     assert match in capsys.readouterr().err
     with pytest.raises(ConfigError, match=match.replace("[", r"\[").replace("]", r"\]")):
-        cli_report.activity_settings(load_config(cfg))
+        activity_settings(load_config(cfg))
 
 
 def test_run_stage_accepts_a_store(tmp_path):
@@ -104,7 +106,7 @@ def test_run_stage_accepts_a_store(tmp_path):
         def export_table(self, name):
             return {"measurements": meas, "nucleus": nuc}[name]
 
-    path = cli_report.run_report_stage(load_config(cfg), FakeStore(), results)
+    path = run_report_stage(load_config(cfg), FakeStore(), results)
     assert path == results / "report.html"
     assert "campaign store fake.sqlite" in path.read_text(encoding="utf-8")
 
@@ -112,7 +114,7 @@ def test_run_stage_accepts_a_store(tmp_path):
 def test_flagged_rows_left_out(tmp_path):
     cfg, results, meas, nuc, _ = _campaign(tmp_path)
     meas["flags"][:30] = "upper_limit"
-    path = cli_report.run_report_stage(load_config(cfg), meas, nuc, {}, results)
+    path = run_report_stage(load_config(cfg), meas, nuc, {}, results)
     assert "30 measurement rows flagged upper_limit, saturated were left out" in \
         path.read_text(encoding="utf-8")
 
@@ -122,7 +124,7 @@ def test_empty_store_gives_a_page_that_says_so(tmp_path):
 
     cfg, results, *_ = _campaign(tmp_path, write_tables=False)
     with CampaignStore(results / "campaign.sqlite") as store:
-        path = cli_report.run_report_stage(load_config(cfg), store, results)
+        path = run_report_stage(load_config(cfg), store, results)
     page = path.read_text(encoding="utf-8")
     assert "No measurements were found, so there is no activity trend yet." in page
     assert not (results / "activity.json").exists()

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from astropy import units as u
 
+from photpipe.campaign.rotation_step import run_rotation_stage
 from photpipe.cli import rotation as cli
 from photpipe.rotation import synthetic_lightcurve
 
@@ -74,4 +75,4 @@ def test_bad_errors_rejected_by_stage(tmp_path, bad):
     table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
     table["nucleus_mag_err"][3] = np.nan if bad == "nan" else -0.02
     with pytest.raises(ValueError, match="magnitude error"):
-        cli.run_rotation_stage({"rotation": {}}, table, tmp_path)
+        run_rotation_stage({"rotation": {}}, table, tmp_path)

@@ -8,8 +8,9 @@ import pytest
 from astropy import units as u
 from astropy.table import QTable
 
+from photpipe.campaign.config import ConfigError, load_config
+from photpipe.campaign.size_step import run_size_stage
 from photpipe.cli import size as size_cli
-from photpipe.cli.config import ConfigError, load_config
 from photpipe.size import diameter_from_H
 
 DEMO = Path(__file__).resolve().parents[2] / "configs" / "demo.toml"
@@ -106,7 +107,7 @@ def test_rotation_period_switches_to_harmonic_mean(tmp_path):
 
 def test_demo_config_size_section(tmp_path):
     config = load_config(DEMO)
-    out = size_cli.run_size_stage(config, make_lightcurve(), tmp_path)
+    out = run_size_stage(config, make_lightcurve(), tmp_path)
     assert Path(out["path"]).is_file()
     assert out["albedo"] == 0.04 and out["composition"] == {"H2O": 0.7, "CO2": 0.3}
     assert out["bound_consistent"] is True
@@ -114,7 +115,7 @@ def test_demo_config_size_section(tmp_path):
 
 def test_upper_limits_are_left_out(tmp_path):
     flags = ["upper_limit"] * 30 + [""] * 50
-    out = size_cli.run_size_stage(load_config(write_config(tmp_path, FULL_SIZE)),
+    out = run_size_stage(load_config(write_config(tmp_path, FULL_SIZE)),
                                   make_lightcurve(flags=flags), tmp_path / "results")
     assert out["n_points"] == 50
 
@@ -169,15 +170,15 @@ def test_broken_lightcurve_file(tmp_path, capsys):
 def test_stage_refuses_missing_table_and_columns(tmp_path):
     config = load_config(write_config(tmp_path, FULL_SIZE))
     with pytest.raises(ValueError, match="an H needs a lightcurve behind it"):
-        size_cli.run_size_stage(config, None, tmp_path)
+        run_size_stage(config, None, tmp_path)
     lc = make_lightcurve()
     lc.remove_column("nucleus_mag_err")
     with pytest.raises(ValueError, match=re.escape("lacks column(s) ['nucleus_mag_err']")):
-        size_cli.run_size_stage(config, lc, tmp_path)
+        run_size_stage(config, lc, tmp_path)
 
 
 def test_two_acceleration_units_refused(tmp_path):
     config = load_config(write_config(
         tmp_path, FULL_SIZE + "nongrav_accel_limit_m_s2 = 1e-9\n"))
     with pytest.raises(ConfigError, match="give one acceleration limit"):
-        size_cli.run_size_stage(config, make_lightcurve(), tmp_path)
+        run_size_stage(config, make_lightcurve(), tmp_path)

@@ -9,7 +9,7 @@ from pathlib import Path
 
 from astropy.table import QTable, vstack
 
-from photpipe.cli._files import read_ecsv, read_json
+from .result_files import read_ecsv, read_json
 
 __all__ = ["read_inputs", "from_store", "stage_results"]
 

@@ -1,7 +1,7 @@
 """The content of the ``photpipe report`` page: activity fit, tables, summary and figures.
 
 Each piece is built from the campaign's tables and the checked ``[activity]`` settings
-(`photpipe.cli._activity_settings`); `photpipe.campaign.report` lays them out as HTML.
+(`photpipe.campaign.activity_settings`); `photpipe.campaign.report` lays them out as HTML.
 """
 
 import warnings

@@ -1,6 +1,7 @@
 """Reading a photpipe configuration file (TOML).
 
-The CLI is the only place that reads the configuration; stages get plain values. This module
+The campaign package reads the configuration, for ``photpipe run`` and for the commands;
+stages get plain values. This module
 parses the file, resolves relative paths against the file's folder, fills defaults for the
 sections every run needs, and reports problems with the file name and the key.
 """

@@ -1,4 +1,4 @@
-"""Result files of the commands: read a table or JSON naming the file, write by rename."""
+"""Result files of the campaign steps: read a table or JSON naming the file, write by rename."""
 
 import json
 import os

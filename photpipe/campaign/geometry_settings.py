@@ -11,7 +11,6 @@ from astropy import units as u
 from astropy.table import Table
 from astropy.time import Time
 
-from photpipe.cli.config import ConfigError, number_setting
 from photpipe.geometry import (
     DEFAULT_CAUTION_ELONGATION,
     EPHEMERIDES,
@@ -20,6 +19,8 @@ from photpipe.geometry import (
     observing_geometry,
     site_location,
 )
+
+from .config import ConfigError, number_setting
 
 __all__ = [
     "orbit_from_config", "location_for_night", "location_for_site", "ephemeris_name",
@@ -62,7 +63,7 @@ def orbit_from_config(config):
     Parameters
     ----------
     config : dict
-        A loaded configuration (`photpipe.cli.config.load_config`).
+        A loaded configuration (`photpipe.campaign.config.load_config`).
 
     Returns
     -------

@@ -11,8 +11,8 @@ limit is ``[geometry] caution_elongation_deg`` (20), read as the ephemeris comma
 from astropy import units as u
 from astropy.time import Time
 
-from photpipe.cli._geometry_settings import caution_limit
-from photpipe.cli.config import ConfigError, number_setting
+from .config import ConfigError, number_setting
+from .geometry_settings import caution_limit
 
 __all__ = ["activity_settings"]
 
