@@ -13,7 +13,12 @@ from photpipe.rotation.aliases import (
 )
 from photpipe.rotation.errors import LightcurveError, RotationWarning
 from photpipe.rotation.figures import periodogram_figure, phased_figure, residuals_figure
-from photpipe.rotation.fit import FourierFit, bootstrap_fourier_fit, fit_fourier_series
+from photpipe.rotation.fit import (
+    FourierFit,
+    bootstrap_fourier_fit,
+    fit_fourier_series,
+    night_blocks,
+)
 from photpipe.rotation.fourier_model import (
     design_and_derivative,
     design_matrix,
@@ -56,7 +61,7 @@ __all__ = [
     "pdm_theta", "Periodogram", "fap_from_power", "fap_from_theta",
     "FrequencyGrid", "frequency_grid", "harmonic_chi2", "trig_sums", "direct_trig_sums",
     "spectral_window", "window_peaks", "describe_relation", "periodogram_peaks",
-    "FourierFit", "fit_fourier_series", "bootstrap_fourier_fit",
+    "FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks",
     "design_matrix", "design_and_derivative", "fourier_series", "frequency_derivative",
     "model_extrema", "peak_to_peak",
     "PHASE_LAWS", "linear_phase_excess", "hg_phase_excess", "hg_phase_functions",

