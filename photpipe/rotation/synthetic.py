@@ -53,6 +53,7 @@ class SyntheticRotation:
 def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0.25,
                          n_nights=10, sites=None, start_mjd=61010.0, night_hours=5.0,
                          cadence=12 * u.min, cloud_fraction=0.2, noise=0.03 * u.mag,
+                         night_offset=0.0 * u.mag,
                          absolute_mag=16.5, phase_coefficient=0.035 * u.mag / u.deg,
                          r_h=(2.4, 2.2) * u.au, delta=(1.5, 1.3) * u.au,
                          phase=(18.0, 22.0) * u.deg, source="nucleus_fit", filter_name="R",
@@ -82,6 +83,10 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
         Chance a site loses a night.
     noise : `~astropy.units.Quantity` ['mag'], optional
         Typical 1-σ photometric error (each point's error is 0.8-1.3 times it).
+    night_offset : `~astropy.units.Quantity` ['mag'], optional
+        1-σ zero-point error shared by all points of one site-night (as a nightly calibration
+        error is) and not included in the stated errors; 0 for none. Drawn after everything
+        else, so a seed gives the same campaign whatever this is.
     absolute_mag : float, optional
         Mean magnitude at unit distances and 0° phase.
     phase_coefficient : `~astropy.units.Quantity` ['mag/angle'], optional
@@ -113,6 +118,10 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
     p_day = as_positive_value(period, u.day, "period")
     amp = as_positive_value(amplitude, u.mag, "amplitude")
     sigma = as_positive_value(noise, u.mag, "noise")
+    zp_sigma = as_value(night_offset, u.mag, "night_offset")
+    if not zp_sigma >= 0:
+        msg = f"'night_offset' must be zero or positive, got {night_offset}"
+        raise ValueError(msg)
     step_d = as_positive_value(cadence, u.day, "cadence")
     beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
     r_h = as_positive_value(r_h, u.au, "r_h")
@@ -126,7 +135,7 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
                       0.08, 0.05])
     coef = shape * amp / peak_to_peak(shape)
 
-    epochs, site_col, frames = [], [], []
+    epochs, site_col, frames, block = [], [], [], []
     for night in range(n_nights):
         for name, lon in sites.items():
             if rng.random() < cloud_fraction:
@@ -139,11 +148,13 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
             epochs.append(times)
             site_col += [name] * times.size
             frames += [f"n{night + 1:02d}_{name}_{i:03d}" for i in range(times.size)]
+            block += [len(epochs) - 1] * times.size
     mjd = np.concatenate(epochs) if epochs else np.empty(0)
     order = np.argsort(mjd)
     mjd = mjd[order]
     site_col = np.array(site_col, dtype=str)[order]
     frames = np.array(frames, dtype=str)[order]
+    block = np.array(block, dtype=int)[order]
 
     span = max(n_nights - 1, 1)
     frac = (mjd - start_mjd) / span
@@ -158,6 +169,8 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
     err = sigma * rng.uniform(0.8, 1.3, mjd.size)
     mag = (absolute_mag + 5 * np.log10(rh * dl) + beta * ph + truth.signal(emission)
            + rng.normal(0.0, err))
+    if zp_sigma > 0 and mag.size:
+        mag = mag + rng.normal(0.0, zp_sigma, len(epochs))[block]
     table = QTable({
         "frame": frames, "mjd_utc_mid": mjd, "nucleus_mag": mag, "nucleus_mag_err": err,
         "r_h_au": rh, "delta_au": dl, "phase_deg": ph, "light_time_s": light_time,
