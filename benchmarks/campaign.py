@@ -48,14 +48,13 @@ def burn(seed):
 
 def imports_peak_mb(_):
     """Peak memory of a fresh worker once the frame stages are imported (before any frame)."""
-    import resource
-
     import photpipe.frames  # noqa: F401
     import photpipe.nucleus  # noqa: F401
     import photpipe.photometry  # noqa: F401
     from photpipe.campaign import tasks  # noqa: F401
+    from photpipe.campaign.runner import _peak_rss_mb
 
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+    return _peak_rss_mb()
 
 
 def machine_speedup(n_tasks=16, repeats=2):

@@ -72,6 +72,19 @@ class _Outcome:
 
 
 def _peak_rss_mb():
+    """Peak resident memory of the calling process itself, MB.
+
+    On Linux the high-water mark of the process's own memory map (``VmHWM``), which starts
+    afresh when a worker is started; ``ru_maxrss`` would carry over the parent's peak, since
+    it survives fork and exec (getrusage(2)).
+    """
+    try:
+        with open("/proc/self/status", encoding="ascii") as status:
+            for line in status:
+                if line.startswith("VmHWM:"):
+                    return float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
     try:
         import resource
     except ImportError:  # pragma: no cover - not on POSIX
