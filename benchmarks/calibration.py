@@ -25,7 +25,6 @@ cosmic-ray figures: the best of several repeats).
 import argparse
 import multiprocessing as mp
 import os
-import resource
 import shutil
 import sys
 import tempfile
@@ -38,6 +37,7 @@ from astropy.io import fits
 from astropy.time import Time
 from scipy import ndimage
 
+from photpipe._memory import peak_resident_mb
 from photpipe.frames import (
     build_masters,
     calibrate_frame,
@@ -131,30 +131,17 @@ def _calibration_figures(folder, masters, plan, repeats):
     return t_stage, t_floor, frame
 
 
-def _peak_rss_mib():
-    """Peak resident set of this process since it started (Linux VmHWM; else ru_maxrss)."""
-    try:
-        with open("/proc/self/status") as fh:
-            for line in fh:
-                if line.startswith("VmHWM:"):
-                    return float(line.split()[1]) / 1024
-    except OSError:
-        pass
-    # ru_maxrss may include the parent's memory before exec on some systems
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-
-
 def _combine_child(folder, queue):
     """Runs in a fresh process: master bias of the folder's bias frames, with memory figures."""
     night = scan_night(folder)
     plan = plan_calibrations(night)
     plan = type(plan)(bias_groups=plan.bias_groups)
-    rss_before = _peak_rss_mib()
+    rss_before = peak_resident_mb()
     t0 = time.perf_counter()
     out = tempfile.mkdtemp(dir=folder)
     masters = build_masters(plan, out)
     seconds = time.perf_counter() - t0
-    rss_peak = _peak_rss_mib()
+    rss_peak = peak_resident_mb()
     n = masters.masters[0].n_frames
     queue.put((seconds, rss_before, rss_peak, n))
 

@@ -51,10 +51,10 @@ def imports_peak_mb(_):
     import photpipe.frames  # noqa: F401
     import photpipe.nucleus  # noqa: F401
     import photpipe.photometry  # noqa: F401
+    from photpipe._memory import peak_resident_mb
     from photpipe.campaign import tasks  # noqa: F401
-    from photpipe.campaign.runner import _peak_rss_mb
 
-    return _peak_rss_mb()
+    return peak_resident_mb()
 
 
 def machine_speedup(n_tasks=16, repeats=2):

@@ -23,6 +23,8 @@ import traceback
 import warnings
 from dataclasses import dataclass, field
 
+from photpipe._memory import peak_resident_mb
+
 __all__ = ["TaskRunner", "TaskError", "run_tasks"]
 
 log = logging.getLogger("photpipe.campaign")
@@ -71,28 +73,6 @@ class _Outcome:
     peak_rss_mb: float = 0.0
 
 
-def _peak_rss_mb():
-    """Peak resident memory of the calling process itself, MB.
-
-    On Linux the high-water mark of the process's own memory map (``VmHWM``), which starts
-    afresh when a worker is started; ``ru_maxrss`` would carry over the parent's peak, since
-    it survives fork and exec (getrusage(2)).
-    """
-    try:
-        with open("/proc/self/status", encoding="ascii") as status:
-            for line in status:
-                if line.startswith("VmHWM:"):
-                    return float(line.split()[1]) / 1024.0
-    except OSError:
-        pass
-    try:
-        import resource
-    except ImportError:  # pragma: no cover - not on POSIX
-        return 0.0
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    return peak / 1024.0 if sys.platform != "darwin" else peak / 2**20
-
-
 def _guarded(func, item, shared):
     """Run ``func`` on ``item`` and return an `_Outcome`; never raises (a top-level function)."""
     start = time.perf_counter()
@@ -114,7 +94,7 @@ def _guarded(func, item, shared):
     outcome.seconds = time.perf_counter() - start
     outcome.cpu_seconds = time.process_time() - cpu_start
     outcome.pid = os.getpid()
-    outcome.peak_rss_mb = _peak_rss_mb()
+    outcome.peak_rss_mb = peak_resident_mb()
     return outcome
 
 
