@@ -158,10 +158,14 @@ def process_frame(item, shared):
     if "nucleus" in stages and photometry is not None:
         try:
             fit, pixel_scale = _run_nucleus(frame, photometry, item, shared)
-            record["nucleus"] = fit.to_row()
-            record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
         except Exception as exc:  # noqa: BLE001
             problems.append(("nucleus", _reason(exc, info)))
+        else:
+            record["nucleus"] = fit.to_row()
+            try:
+                record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
+            except Exception as exc:  # noqa: BLE001 - the fit is kept; only these columns lack
+                problems.append(("nucleus", f"coma-only Afρ not formed: {_reason(exc, info)}"))
     return FrameRecord(**record, problems=tuple(problems))
 
 
@@ -169,7 +173,8 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     """The measurement rows with the coma's own Afρ beside the totals' (the nucleus taken out)."""
     if len(comet) == 0:
         return comet
-    flux = max(fit.nucleus_flux_e_s, 0.0) * u.electron / u.s  # an undetected nucleus: nothing
+    # an undetected nucleus (flux at or below zero) takes nothing out
+    flux = np.clip(fit.nucleus_flux_e_s, 0.0, None) * u.electron / u.s
     flux_err = fit.nucleus_flux_err_e / fit.exptime_s * u.electron / u.s
     coma = stage_function("nucleus", "coma_only_afrho")(comet, flux, fit.psf,
                                                           pixel_scale=pixel_scale,
