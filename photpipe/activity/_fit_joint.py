@@ -13,7 +13,7 @@ highest restricted likelihood, and its covariance averages over the posterior of
 
 import numpy as np
 
-from photpipe.activity._fit_scatter import _GRID, _WINDOW
+from photpipe.activity._fit_scatter import scatter_grid
 from photpipe.activity._linefit import LineFit
 
 __all__ = ["fit_joint_scatter"]
@@ -58,13 +58,7 @@ def fit_joint_scatter(x, y, sy, post, x_q):
     post = np.asarray(post, dtype=bool)
     dx = x - x_q
     design = np.column_stack([np.ones_like(x), np.where(post, 0.0, dx), np.where(post, dx, 0.0)])
-    spread = float(np.std(y)) + float(np.max(sy))
-    upper = max(5.0 * spread, 1e-6)
-    grid = np.linspace(0.0, upper, _GRID)
-    dev = _solve(design, y, sy, grid)[0]
-    ok = np.flatnonzero(dev - dev.min() < _WINDOW)
-    lo, hi = grid[max(ok[0] - 1, 0)], grid[min(ok[-1] + 1, _GRID - 1)]
-    grid = np.linspace(lo, hi, _GRID)
+    grid, upper = scatter_grid(lambda g: _solve(design, y, sy, g)[0], y, sy)
     dev, beta, cov = _solve(design, y, sy, grid)
     weight = np.exp(-0.5 * (dev - dev.min()))
     weight /= weight.sum()
@@ -75,7 +69,7 @@ def fit_joint_scatter(x, y, sy, post, x_q):
     s_rms = float(np.sqrt(np.sum(weight * grid ** 2)))
     r = y - design @ beta[best]
     chi2 = float(np.sum((r / sy) ** 2))
-    converged = bool(weight[-1] < 1e-3 or hi < upper)
+    converged = bool(weight[-1] < 1e-3 or grid[-1] < upper)
     keep = weight > 1e-9
     fits = []
     for column, side in ((1, ~post), (2, post)):

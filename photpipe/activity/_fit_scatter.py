@@ -10,7 +10,7 @@ import numpy as np
 
 from photpipe.activity._linefit import LineFit, weighted_line
 
-__all__ = ["fit_line_scatter", "restricted_deviance"]
+__all__ = ["fit_line_scatter", "restricted_deviance", "scatter_grid"]
 
 _GRID = 256
 _WINDOW = 30.0  # deviance units above the minimum kept in the refined grid (posterior < 1e-6)
@@ -34,6 +34,23 @@ def restricted_deviance(s, x, y, sy):
     return dev, ybar - slope * xbar, slope, 1.0 / sw, 1.0 / sxx, xbar
 
 
+def scatter_grid(deviance, y, sy):
+    """The grid of intrinsic scatters s to average over, and the top of the coarse search.
+
+    A coarse grid from 0 to five times the data's spread, then a fine one over the part of it
+    within ``_WINDOW`` deviance units of the best (where the data allow s). ``deviance`` maps
+    a grid of s to -2 ln L_R(s).
+    """
+    spread = float(np.std(y)) + float(np.max(sy))
+    upper = max(5.0 * spread, 1e-6)
+    grid = np.linspace(0.0, upper, _GRID)
+    dev = deviance(grid)
+    ok = np.flatnonzero(dev - dev.min() < _WINDOW)
+    lo = grid[max(ok[0] - 1, 0)]
+    hi = grid[min(ok[-1] + 1, _GRID - 1)]
+    return np.linspace(lo, hi, _GRID), upper
+
+
 def fit_line_scatter(x, y, sy, **_ignored):
     """Fit y = a + b x with errors sy and an unknown intrinsic scatter s.
 
@@ -46,15 +63,7 @@ def fit_line_scatter(x, y, sy, **_ignored):
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
     sy = np.asarray(sy, dtype=float)
-    spread = float(np.std(y)) + float(np.max(sy))
-    upper = max(5.0 * spread, 1e-6)
-    grid = np.linspace(0.0, upper, _GRID)
-    dev = restricted_deviance(grid, x, y, sy)[0]
-    # Refine over the part of the grid the data allow.
-    ok = np.flatnonzero(dev - dev.min() < _WINDOW)
-    lo = grid[max(ok[0] - 1, 0)]
-    hi = grid[min(ok[-1] + 1, _GRID - 1)]
-    grid = np.linspace(lo, hi, _GRID)
+    grid, upper = scatter_grid(lambda g: restricted_deviance(g, x, y, sy)[0], y, sy)
     dev, a, b, va, vb, xbar = restricted_deviance(grid, x, y, sy)
     post = np.exp(-0.5 * (dev - dev.min()))
     post /= post.sum()
@@ -75,7 +84,7 @@ def fit_line_scatter(x, y, sy, **_ignored):
     r = y - a0 - b0 * x
     chi2 = float(np.sum((r / sy) ** 2))
     # The search failed if the posterior still has weight at the top of the range.
-    converged = bool(post[-1] < 1e-3 or hi < upper)
+    converged = bool(post[-1] < 1e-3 or grid[-1] < upper)
     keep = post > 1e-9
     return LineFit(float(a0), float(b0), cov, s_rms, 1.0, chi2, x.size - 2,
                    np.ones(x.size, dtype=bool), converged, grid[keep],
