@@ -210,8 +210,10 @@ def count_nights(epoch_mjd):
     >>> count_nights(np.array([0.0, 0.1, 1.0, 1.1, 5.0]))
     3
     """
-    t = np.sort(np.asarray(epoch_mjd, dtype=float))
-    return int(1 + np.sum(np.diff(t) > _NIGHT_GAP_D))
+    t = np.asarray(epoch_mjd, dtype=float)
+    if t.size == 0:
+        return 1  # no gaps; callers refuse empty lightcurves before this
+    return int(night_blocks(t, gap=_NIGHT_GAP_D).max()) + 1
 
 
 def _warn(flags, flag, message):
