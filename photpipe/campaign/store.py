@@ -22,6 +22,7 @@ from astropy.table import MaskedColumn, QTable
 from photpipe import __version__
 
 from ._schema import RESULT_TABLES, SCHEMA_VERSION, TABLES, schema_sql
+from .result_files import write_atomic
 
 __all__ = ["CampaignStore", "StoreError", "EXPORTABLE"]
 
@@ -584,9 +585,4 @@ def _build_table(rows, specs):
 
 def write_table_atomic(table, path):
     """Write ``table`` to ``path`` as ECSV through a temporary file and a rename."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    table.write(tmp, format="ascii.ecsv", overwrite=True)
-    os.replace(tmp, path)
-    return path
+    return write_atomic(path, lambda tmp: table.write(tmp, format="ascii.ecsv", overwrite=True))
