@@ -5,7 +5,9 @@ import stat
 import numpy as np
 import pytest
 
+from photpipe import _files
 from photpipe._files import replacing
+from photpipe.campaign.report import write_report
 
 
 def _names(folder):
@@ -146,3 +148,38 @@ def test_fsync_on_request(tmp_path, monkeypatch, flush):
     with replacing(tmp_path / "log.txt", fsync=flush) as tmp:
         tmp.write_text("x")
     assert len(synced) == (1 if flush else 0)
+
+
+# --- every writer of the package goes through replacing() ---------------------------------
+
+def _report(path, tag):
+    write_report(path, campaign_name=tag, summary={}, tables={}, figures={}, notes=[])
+
+
+def _read(path):
+    return path.read_text(encoding="utf-8")
+
+
+WRITERS = [
+    pytest.param(_report, "report.html", id="campaign-report"),
+]
+
+
+@pytest.mark.parametrize(("write", "name"), WRITERS)
+def test_writers_keep_the_old_file_on_failure(tmp_path, monkeypatch, write, name):
+    path = tmp_path / name
+    write(path, "Comet Vessa first")
+    before = path.read_bytes()
+
+    def no_space(src, dst):
+        raise _no_space(src)
+
+    monkeypatch.setattr(_files.os, "replace", no_space)
+    with pytest.raises(OSError, match=f"{path}: cannot write"):
+        write(path, "Comet Vessa second")
+    assert path.read_bytes() == before
+    assert _names(tmp_path) == [name]
+    monkeypatch.undo()
+    write(path, "Comet Vessa second")
+    assert "second" in _read(path)
+    assert _names(tmp_path) == [name]

@@ -10,8 +10,6 @@ import base64
 import html
 import io
 import math
-import os
-import tempfile
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -22,6 +20,7 @@ from astropy.time import Time
 from matplotlib.figure import Figure
 
 from photpipe import __version__
+from photpipe._files import replacing
 
 __all__ = ["write_report", "render_report", "figure_to_data_uri", "SUN_CAUTION"]
 
@@ -260,7 +259,8 @@ def write_report(path, *, campaign_name, summary, tables, figures, notes, elonga
     TypeError
         For a table or figure of the wrong kind.
     OSError
-        If the folder is not writable (no partial file is left behind).
+        ``"<path>: cannot write (<reason>)"``, if the folder is missing (it is not made) or not
+        writable; no partial file is left behind.
 
     Examples
     --------
@@ -275,17 +275,7 @@ def write_report(path, *, campaign_name, summary, tables, figures, notes, elonga
                          figures=figures, notes=notes, elongations=elongations,
                          caution_elongation=caution_elongation, max_rows=max_rows,
                          captions=captions)
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, 0o644)  # mkstemp makes it private; a report is meant to be shared
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    # a report is meant to be shared: readable by all; a missing folder is the caller's error
+    with replacing(path, suffix=".tmp", mode=0o644, fsync=True) as tmp:
+        tmp.write_text(text, encoding="utf-8")
     return path

@@ -109,8 +109,8 @@ def test_write_is_atomic(tmp_path, monkeypatch):
     def failing_replace(src, dst):
         raise OSError("disk full")
 
-    monkeypatch.setattr(R.os, "replace", failing_replace)
-    with pytest.raises(OSError, match="disk full"):
+    monkeypatch.setattr(os, "replace", failing_replace)
+    with pytest.raises(OSError, match=re.escape(f"{path}: cannot write (disk full)")):
         _write(tmp_path, notes=["second version"])
     assert path.read_bytes() == before
     assert os.listdir(tmp_path) == ["report.html"]
