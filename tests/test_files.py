@@ -8,6 +8,7 @@ import pytest
 from photpipe import _files
 from photpipe._files import replacing
 from photpipe.campaign.report import write_report
+from photpipe.campaign.result_files import write_text
 
 
 def _names(folder):
@@ -156,12 +157,17 @@ def _report(path, tag):
     write_report(path, campaign_name=tag, summary={}, tables={}, figures={}, notes=[])
 
 
+def _text(path, tag):
+    write_text(path, tag)
+
+
 def _read(path):
     return path.read_text(encoding="utf-8")
 
 
 WRITERS = [
     pytest.param(_report, "report.html", id="campaign-report"),
+    pytest.param(_text, "activity.json", id="campaign-result-file"),
 ]
 
 

@@ -1,11 +1,11 @@
 """Result files of the campaign steps: read a table or JSON naming the file, write by rename."""
 
 import json
-import os
-import tempfile
 from pathlib import Path
 
 from astropy.table import QTable
+
+from photpipe._files import replacing
 
 __all__ = ["read_ecsv", "read_json", "write_atomic", "write_text"]
 
@@ -65,18 +65,16 @@ def write_atomic(path, write):
     Returns
     -------
     path : `pathlib.Path`
+
+    Raises
+    ------
+    OSError
+        ``"<path>: cannot write (<reason>)"``, for a folder that cannot be made or written, a
+        full disk or a failed rename; other errors of ``write`` pass unchanged.
     """
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    os.close(fd)
-    try:
-        write(Path(tmp))
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+    with replacing(path, mode=0o644, fsync=False, make_folders=True) as tmp:
+        write(tmp)
     return path
 
 
