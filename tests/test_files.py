@@ -4,11 +4,13 @@ import stat
 
 import numpy as np
 import pytest
+from astropy.io import fits
 
 from photpipe import _files
 from photpipe._files import replacing
 from photpipe.campaign.report import write_report
 from photpipe.campaign.result_files import write_text
+from photpipe.frames._fitsfile import write_atomic as write_fits
 
 
 def _names(folder):
@@ -161,13 +163,27 @@ def _text(path, tag):
     write_text(path, tag)
 
 
+def _hdul(tag):
+    hdu = fits.PrimaryHDU(np.zeros((4, 4), dtype=np.int16))
+    hdu.header["OBJECT"] = tag
+    return fits.HDUList([hdu])
+
+
+def _fits(path, tag):
+    write_fits(_hdul(tag), path)
+
+
 def _read(path):
+    if ".fits" in path.name:
+        with fits.open(path) as hdul:
+            return hdul[-1].header["OBJECT"]
     return path.read_text(encoding="utf-8")
 
 
 WRITERS = [
     pytest.param(_report, "report.html", id="campaign-report"),
     pytest.param(_text, "activity.json", id="campaign-result-file"),
+    pytest.param(_fits, "master_bias.fits", id="frames-fits"),
 ]
 
 

@@ -6,11 +6,12 @@ one clear line and go on.
 
 import contextlib
 import os
-import tempfile
 import warnings
 
 import numpy as np
 from astropy.io import fits
+
+from photpipe._files import replacing
 
 from .errors import FrameError
 
@@ -204,18 +205,14 @@ def write_atomic(hdul, path):
     """Write ``hdul`` to ``path`` through a temporary file in the same folder, then rename.
 
     A reader never sees a half-written file, and an existing file is replaced only once the new
-    one is complete.
+    one is complete. Missing folders are made; the file is readable by its owner only
+    (``0o600``).
+
+    Raises
+    ------
+    OSError
+        ``"<path>: cannot write (<reason>)"``; no temporary file is left behind.
     """
-    path = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(path))
-    os.makedirs(folder, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(path) + ".",
-                               suffix=".part")
-    try:
-        with os.fdopen(fd, "wb") as fh:
+    with replacing(path, mode=0o600, fsync=False, make_folders=True) as tmp:
+        with open(tmp, "wb") as fh:
             hdul.writeto(fh, output_verify="silentfix")
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.remove(tmp)
-        raise
