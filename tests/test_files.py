@@ -11,6 +11,7 @@ from photpipe._files import replacing
 from photpipe.campaign.report import write_report
 from photpipe.campaign.result_files import write_text
 from photpipe.frames._fitsfile import write_atomic as write_fits
+from photpipe.scenario.night import write_frame
 
 
 def _names(folder):
@@ -173,6 +174,10 @@ def _fits(path, tag):
     write_fits(_hdul(tag), path)
 
 
+def _frame(path, tag):
+    write_frame(_hdul(tag), path, compress=True)
+
+
 def _read(path):
     if ".fits" in path.name:
         with fits.open(path) as hdul:
@@ -184,6 +189,7 @@ WRITERS = [
     pytest.param(_report, "report.html", id="campaign-report"),
     pytest.param(_text, "activity.json", id="campaign-result-file"),
     pytest.param(_fits, "master_bias.fits", id="frames-fits"),
+    pytest.param(_frame, "sci_0001.fits.fz", id="scenario-frame"),
 ]
 
 

@@ -9,6 +9,8 @@ from astropy.coordinates import SkyCoord
 from astropy.io import fits
 from astropy.time import Time
 
+from photpipe._files import replacing
+
 from .comet import CometSpec
 from .render import render_frame
 
@@ -73,9 +75,9 @@ def write_frame(hdul, path, *, compress=True):
         out = fits.HDUList([fits.PrimaryHDU(), comp])
     else:
         out = hdul
-    tmp = f"{path}.part"
-    out.writeto(tmp, overwrite=True)
-    os.replace(tmp, path)
+    # the folder must exist (render_night makes it); no fsync: a synthetic night can be made again
+    with replacing(path, fsync=False) as tmp:
+        out.writeto(tmp, overwrite=True)
     return path
 
 
