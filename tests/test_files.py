@@ -5,12 +5,14 @@ import stat
 import numpy as np
 import pytest
 from astropy.io import fits
+from astropy.table import QTable
 
 from photpipe import _files
 from photpipe._files import replacing
 from photpipe.campaign.report import write_report
 from photpipe.campaign.result_files import write_text
 from photpipe.frames._fitsfile import write_atomic as write_fits
+from photpipe.photometry.refstore import ReferenceStarStore
 from photpipe.scenario.night import write_frame
 
 
@@ -178,7 +180,15 @@ def _frame(path, tag):
     write_frame(_hdul(tag), path, compress=True)
 
 
+def _store(path, tag):
+    stars = QTable({"ra": [10.0, 10.1], "dec": [-5.0, -5.1], "tag": [tag, tag]})
+    ReferenceStarStore.build(stars, path)
+
+
 def _read(path):
+    if path.suffix == ".npz":
+        with np.load(path) as data:
+            return str(data["col_2"][0])
     if ".fits" in path.name:
         with fits.open(path) as hdul:
             return hdul[-1].header["OBJECT"]
@@ -190,6 +200,7 @@ WRITERS = [
     pytest.param(_text, "activity.json", id="campaign-result-file"),
     pytest.param(_fits, "master_bias.fits", id="frames-fits"),
     pytest.param(_frame, "sci_0001.fits.fz", id="scenario-frame"),
+    pytest.param(_store, "reference_store.npz", id="photometry-refstore"),
 ]
 
 

@@ -12,7 +12,6 @@ touches files.
 
 import json
 import os
-import tempfile
 
 import numpy as np
 from astropy import units as u
@@ -20,6 +19,7 @@ from astropy.coordinates import ICRS, SkyCoord
 from astropy.table import QTable
 from astropy_healpix import HEALPix
 
+from photpipe._files import replacing
 from photpipe._quantity import as_positive_value, as_value
 
 from .refstars import check_reference_columns
@@ -152,15 +152,9 @@ class ReferenceStarStore:
             units.append("" if unit is None else str(unit))
         arrays["_names"] = np.array(names)
         arrays["_units"] = np.array(units)
-        folder = os.path.dirname(os.path.abspath(path))
-        fd, tmp = tempfile.mkstemp(suffix=".npz", dir=folder)
-        os.close(fd)
-        try:
+        # numpy.savez appends ".npz" to a name without it; the folder must exist
+        with replacing(path, suffix=".npz", mode=0o600, fsync=False) as tmp:
             np.savez(tmp, **arrays)
-            os.replace(tmp, path)
-        finally:
-            if os.path.exists(tmp):
-                os.remove(tmp)
         return cls(path)
 
     def cone(self, center, radius):
