@@ -10,7 +10,7 @@ Figures, each with a floor measured in the same run:
    on tile-compressed (``.fits.fz``, what the scenario and most archives write) and on plain
    FITS files;
 2. L.A.Cosmic, apart (work beyond the floor): seconds per frame with the default two passes
-   and with astroscrappy's four, each against a floor measured in the same run (one separable
+   and with the paper's four, each against a floor measured in the same run (one separable
    5x5 median of the frame: the noise model of a single pass needs at least that), with the share
    of the injected hit groups found and the pixels flagged that are no hit (the scenario's truth);
 3. master bias from 50 frames: seconds and peak memory (peak resident set of a fresh process
@@ -197,7 +197,7 @@ def main(argv=None):
                       f"{n_groups} injected hits)")
                 print(f"    floor: one separable 5x5 median: {cr_floor:7.3f} s/frame")
                 for niter, (sec, found, false) in rows.items():
-                    tag = "default" if niter == 2 else "astroscrappy's"
+                    tag = "default" if niter == 2 else "the paper's"
                     print(f"    {niter} passes ({tag:>14}) : {sec:7.3f} s/frame, ratio "
                           f"{sec / cr_floor:5.2f}; hits found {found:6.1%}; "
                           f"{false} pixels flagged that are no hit")
