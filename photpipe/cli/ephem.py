@@ -210,6 +210,6 @@ def execute(args):
         path = write_atomic(output, lambda tmp: geometry.write(tmp, format="ascii.ecsv",
                                                                 overwrite=True))
     except OSError as exc:
-        return fail("ephem", f"cannot write {output}: {exc}", FAILED)
+        return fail("ephem", str(exc), FAILED)
     print(f"written: {path}")
     return OK

@@ -205,14 +205,14 @@ def write_atomic(hdul, path):
     """Write ``hdul`` to ``path`` through a temporary file in the same folder, then rename.
 
     A reader never sees a half-written file, and an existing file is replaced only once the new
-    one is complete. Missing folders are made; the file is readable by its owner only
-    (``0o600``).
+    one is complete. Missing folders are made; the file is readable by all (``0o644``), as
+    frames shared by a campaign's observers should be.
 
     Raises
     ------
     OSError
         ``"<path>: cannot write (<reason>)"``; no temporary file is left behind.
     """
-    with replacing(path, mode=0o600, fsync=False, make_folders=True) as tmp:
+    with replacing(path, mode=0o644, fsync=False, make_folders=True) as tmp:
         with open(tmp, "wb") as fh:
             hdul.writeto(fh, output_verify="silentfix")

@@ -153,7 +153,7 @@ class ReferenceStarStore:
         arrays["_names"] = np.array(names)
         arrays["_units"] = np.array(units)
         # numpy.savez appends ".npz" to a name without it; the folder must exist
-        with replacing(path, suffix=".npz", mode=0o600, fsync=False) as tmp:
+        with replacing(path, suffix=".npz", mode=0o644, fsync=False) as tmp:
             np.savez(tmp, **arrays)
         return cls(path)
 
