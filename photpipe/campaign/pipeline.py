@@ -94,16 +94,24 @@ def _frame_settings(config):
             "require_dark": bool(calib.get("require_dark", False))}
 
 
-def _night_geometry(config, night, infos):
-    """Geometry rows of the night's science frames, computed once in the parent process."""
+def _night_site(config, night):
+    """The night's observing site (an EarthLocation, or None for the geocentre) and a problem."""
+    try:
+        return stage_function("geometry", "location_for_night")(config, night), None
+    except ConfigError as exc:
+        return None, f"{type(exc).__name__}: {exc}"
+
+
+def _night_geometry(config, site, infos):
+    """Geometry rows of the night's science frames seen from ``site``, computed once here."""
     if not infos:
         return [], None, []
-    compute = stage_function("geometry", "geometry_for_times")
+    compute = stage_function("geometry", "geometry_at_location")
     times = Time([info.time_mid for info in infos])
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            table = compute(config, night, times)
+            table = compute(config, site, times)
         except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
             return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
     cautions = sorted({str(w.message) for w in caught
@@ -227,9 +235,13 @@ class _Run:
              "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
             for m in masters.masters)
 
-        geometry, problem = [None] * len(todo), None
+        geometry, problem, site = [None] * len(todo), None, None
         if "geometry" in self.frame_stages:
-            geometry, problem, cautions = _night_geometry(self.config, entry, todo)
+            # the site is read once: the geometry and the frames' airmass both use it
+            site, problem = _night_site(self.config, entry)
+            cautions = []
+            if problem is None:
+                geometry, problem, cautions = _night_geometry(self.config, site, todo)
             for text in cautions:
                 if text not in self.summary.cautions:
                     self.summary.cautions.append(text)
@@ -242,12 +254,6 @@ class _Run:
                   "geometry_problem": problem,
                   "calibrated_path": str(folder / "calibrated" / f"{info.name}.fits")}
                  for info, row in zip(todo, geometry)]
-        site = None
-        if "photometry" in self.frame_stages and "geometry" in self.frame_stages:
-            try:
-                site = stage_function("geometry", "location_for_night")(self.config, entry)
-            except ConfigError:
-                site = None  # the geometry step has reported the bad site; header airmass only
         shared = {"masters": masters, "stages": self.frame_stages,
                   "calibration": self.settings["calibration"],
                   "photometry": self.settings["photometry"],

@@ -14,8 +14,8 @@ __all__ = ["STAGES", "FRAME_STAGES", "StageStatus", "stage_status", "stage_funct
 STAGES = {
     "calibration": ("photpipe.frames", ("scan_night", "plan_calibrations", "build_masters",
                                         "calibrate_frame", "write_calibrated")),
-    "geometry": ("photpipe.campaign.geometry_settings", ("geometry_for_times",
-                                                         "location_for_night")),
+    "geometry": ("photpipe.campaign.geometry_settings", ("location_for_night",
+                                                         "geometry_at_location")),
     "photometry": ("photpipe.photometry", ("measure_comet_frame",)),
     "nucleus": ("photpipe.nucleus", ("measure_psf", "fit_nucleus", "coma_only_afrho")),
     "rotation": ("photpipe.campaign.rotation_step", ("run_rotation_stage",)),
