@@ -37,6 +37,7 @@ from photpipe.rotation.methods import (
     pdm_periodogram,
     pdm_theta,
 )
+from photpipe.rotation.odd_harmonics import odd_harmonics_f_test, zero_points_f_test
 from photpipe.rotation.periodogram import Periodogram, fap_from_power, fap_from_theta
 from photpipe.rotation.phase_laws import (
     PHASE_LAWS,
@@ -62,6 +63,7 @@ __all__ = [
     "FrequencyGrid", "frequency_grid", "harmonic_chi2", "trig_sums", "direct_trig_sums",
     "spectral_window", "window_peaks", "describe_relation", "periodogram_peaks",
     "FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks",
+    "odd_harmonics_f_test", "zero_points_f_test",
     "design_matrix", "design_and_derivative", "fourier_series", "frequency_derivative",
     "model_extrema", "peak_to_peak",
     "PHASE_LAWS", "linear_phase_excess", "hg_phase_excess", "hg_phase_functions",

@@ -2,9 +2,9 @@
 
 Steps: choose the points, check what the sampling can constrain, compute the periodograms of
 every method on one frequency grid, decide between single- and double-peaked interpretations
-with an F test on the odd harmonics, fit the adopted Fourier series with its frequency, estimate
-errors from the covariance and a bootstrap of whole nights, weigh the named aliases by Δχ², and
-turn the amplitude into a lower bound on the axial ratio.
+with an F test on the odd harmonics (a free zero point per site-night), fit the adopted Fourier
+series with its frequency, estimate errors from the covariance and a bootstrap of whole nights,
+weigh the named aliases by Δχ², and turn the amplitude into a lower bound on the axial ratio.
 """
 
 import warnings
@@ -24,6 +24,7 @@ from photpipe.rotation.grid import frequency_grid
 from photpipe.rotation.harmonic_sums import harmonic_chi2
 from photpipe.rotation.lightcurve import ReducedLightcurve
 from photpipe.rotation.methods import METHODS
+from photpipe.rotation.odd_harmonics import odd_harmonics_f_test, zero_points_f_test
 from photpipe.rotation.periodogram import fap_from_power
 from photpipe.rotation.shape import (
     amplitude_at_zero_phase,
@@ -37,6 +38,9 @@ _NIGHT_GAP_D = 0.3
 # Fewest site-nights for resampling whole nights: below this the block bootstrap has too few
 # distinct resamples (5 blocks give 126) and single points are drawn instead (project choice).
 _MIN_BOOTSTRAP_BLOCKS = 5
+# Below this p-value the site-nights' zero points are taken to differ, and the odd-harmonic
+# test fits one per site-night (project choice: the usual 5 % level of a preliminary test).
+_ZERO_POINT_LEVEL = 0.05
 #: Meaning of ``period_err`` and ``amplitude_err`` as written to ``rotation.json``.
 ERROR_LEVEL = "1 sigma (68.3 % for Gaussian errors)"
 # Two-sided 95 % quantile of the normal distribution.
@@ -267,21 +271,31 @@ def _degenerate(fit, y):
     return not np.isfinite(amp) or amp > 1.5 * float(np.ptp(y)) + 0.05
 
 
-def _odd_harmonics_p(t, y, dy, f_high, order_high, *, half_width):
+def _odd_harmonics_p(t, y, dy, f_high, order_high, *, half_width, blocks):
     """p-value that the curve at ``f_high/2`` differs from two identical halves.
 
-    NaN when the sampling cannot constrain the curve at ``f_high/2`` (e.g. a period commensurate
-    with the day, where the harmonics are degenerate with the nightly gaps).
+    When the site-nights' zero points differ (p below 0.05), both curves of the test get a
+    free zero point per site-night (``blocks``), so nightly zero-point errors do not pass for
+    odd harmonics (:mod:`photpipe.rotation.odd_harmonics`); otherwise one zero point, which
+    keeps the full power of comparing nights. NaN when the sampling cannot constrain the curve
+    at ``f_high/2`` (e.g. a period commensurate with the day, where the harmonics are
+    degenerate with the nightly gaps). Also returns the fit at ``f_high/2`` and what the test
+    used.
     """
     fit_full = fit_fourier_series(t, y, dy, f_high, order_high, search_half_width=half_width)
     fit_half = fit_fourier_series(t, y, dy, f_high / 2, 2 * order_high,
                                   search_half_width=half_width / 2)
-    n_extra = 2 * order_high
-    dof = t.size - (4 * order_high + 2)
-    if dof <= 0 or _degenerate(fit_half, y):
-        return float("nan"), fit_full, fit_half
-    fstat = (max(fit_full.chi2 - fit_half.chi2, 0.0) / n_extra) / (fit_half.chi2 / dof)
-    return float(stats.f.sf(fstat, n_extra, dof)), fit_full, fit_half
+    if _degenerate(fit_half, y):
+        return float("nan"), fit_half, {}
+    p_zero, _, _ = zero_points_f_test(t, y, dy, fit_half.frequency, order_high, blocks)
+    per_night = p_zero < _ZERO_POINT_LEVEL
+    # each curve at its own best frequency (the single-peaked one may sit apart from twice
+    # the double-peaked one's)
+    p, _, dof = odd_harmonics_f_test(t, y, dy, [fit_half.frequency, fit_full.frequency / 2],
+                                     order_high, blocks=blocks if per_night else None)
+    used = {"zero_points": "per site-night" if per_night else "one",
+            "p_zero_points_equal": _finite_or_none(p_zero), "dof": [int(d) for d in dof]}
+    return p, fit_half, used
 
 
 def _significant_maxima(fit):
@@ -313,7 +327,7 @@ def _finite_or_none(x):
 
 
 def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefer_double,
-                  half_width):
+                  half_width, blocks):
     """Return (frequency, order, evidence) of the adopted single/double-peaked solution."""
     f, m = f_start, order
     steps = []
@@ -321,9 +335,10 @@ def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefe
     for _ in range(3):
         if m < 2 or 2 * f > f_max * (1 + 1e-9):
             break
-        p, _, _ = _odd_harmonics_p(t, y, dy, 2 * f, m // 2, half_width=half_width)
+        p, _, used = _odd_harmonics_p(t, y, dy, 2 * f, m // 2, half_width=half_width,
+                                      blocks=blocks)
         steps.append({"test": "odd harmonics at the start", "period_h": 24 / f,
-                      "p": _finite_or_none(p)})
+                      "p": _finite_or_none(p), **used})
         if not p >= significance:  # significant, or untestable: stay
             break
         f, m = 2 * f, max(1, m // 2)
@@ -332,9 +347,10 @@ def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefe
     for _ in range(3):
         if f / 2 < f_min * (1 - 1e-9):
             break
-        p_down, _, fit_half = _odd_harmonics_p(t, y, dy, f, m, half_width=half_width)
+        p_down, fit_half, used = _odd_harmonics_p(t, y, dy, f, m, half_width=half_width,
+                                                  blocks=blocks)
         steps.append({"test": "odd harmonics at twice the period", "period_h": 48 / f,
-                      "p": _finite_or_none(p_down)})
+                      "p": _finite_or_none(p_down), **used})
         if not p_down < significance:  # not significant, or untestable
             break
         f, m, moved_down, p_moved = fit_half.frequency, 2 * m, True, p_down
@@ -343,7 +359,8 @@ def _decide_shape(t, y, dy, f_start, order, f_min, f_max, *, significance, prefe
     double_testable = f / 2 >= f_min * (1 - 1e-9) and not (p_down is not None
                                                             and np.isnan(p_down))
     evidence = {"tests": steps, "maxima_per_cycle_at_shortest_repeat": n_max,
-                "significance": significance}
+                "significance": significance, "site_nights": int(np.unique(blocks).size),
+                "zero_point_level": _ZERO_POINT_LEVEL}
     if moved_down or n_max >= 2:
         choice = "double-peaked"
         reason = (f"the lightcurve at {24 / f:.4f} h shows {n_max} maxima per cycle"
@@ -489,7 +506,12 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     77, 171) fitted with its frequency; Lomb-Scargle (Zechmeister & Kürster 2009) and PDM
     (Stellingwerf 1978) are computed on the same grid as independent views. Single or double
     peak: the lightcurve at twice the period is fitted with twice the harmonics, and an F test
-    on the odd harmonics says whether its two halves differ. The minimum axial ratio is
+    on the odd harmonics says whether its two halves differ. When the site-nights' zero points
+    differ (an F test at the 5 % level, a preliminary test of pooling, Bancroft 1944, Ann.
+    Math. Stat. 15, 190, from memory), both curves of the test get a free zero point per
+    site-night (as in the fit of Harris et al. 1989, from memory), so a nightly zero-point
+    error cannot pass for odd harmonics and double the period
+    (:func:`~photpipe.rotation.odd_harmonics.odd_harmonics_f_test`). The minimum axial ratio is
     ``a/b >= 10^(0.4 A(0))``, ``A(0) = A(α)/(1 + s α)`` (Zappalà et al. 1990, A&A 231, 548),
     after removing the coma dilution (:func:`~photpipe.rotation.shape.undilute_amplitude`).
 
@@ -583,9 +605,10 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         start = periodograms[methods[0]]
         order = max(2, ls_nterms)
     half_width = 1.0 / (2 * grid.baseline_d)
+    blocks = night_blocks(t, lc.site, gap=_NIGHT_GAP_D)
     f_adopt, m_adopt, shape = _decide_shape(
         t, y, dy, start.best_frequency, order, grid.f0, grid.f_max, significance=significance,
-        prefer_double=prefer_double_peaked, half_width=half_width)
+        prefer_double=prefer_double_peaked, half_width=half_width, blocks=blocks)
     if shape["choice"] == "double-peaked (assumed)":
         flags.append("double_peaked_assumed")
     fit = fit_fourier_series(t, y, dy, f_adopt, m_adopt, search_half_width=half_width / 4)
@@ -597,7 +620,6 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     phase = np.arange(1000) / 1000
     curves = np.stack([fourier_series(phase, 1.0, c) for c in coef_draws])
     amp_err_cov = float(np.std(np.ptp(curves, axis=1)))
-    blocks = night_blocks(t, lc.site, gap=_NIGHT_GAP_D)
     n_blocks = int(blocks.max()) + 1
     resampled = "none"
     err_boot_h, amp_err_boot = np.nan, np.nan
