@@ -16,6 +16,7 @@ from photpipe.rotation.figures import periodogram_figure, phased_figure, residua
 from photpipe.rotation.fit import (
     FourierFit,
     bootstrap_fourier_fit,
+    expanded_percentile_interval,
     fit_fourier_series,
     night_blocks,
 )
@@ -63,7 +64,7 @@ __all__ = [
     "FrequencyGrid", "frequency_grid", "harmonic_chi2", "trig_sums", "direct_trig_sums",
     "spectral_window", "window_peaks", "describe_relation", "periodogram_peaks",
     "FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks",
-    "odd_harmonics_f_test", "zero_points_f_test",
+    "expanded_percentile_interval", "odd_harmonics_f_test", "zero_points_f_test",
     "design_matrix", "design_and_derivative", "fourier_series", "frequency_derivative",
     "model_extrema", "peak_to_peak",
     "PHASE_LAWS", "linear_phase_excess", "hg_phase_excess", "hg_phase_functions",

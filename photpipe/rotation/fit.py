@@ -3,6 +3,7 @@
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import stats
 
 from photpipe.rotation.fourier_model import (
     design_and_derivative,
@@ -11,7 +12,8 @@ from photpipe.rotation.fourier_model import (
     peak_to_peak,
 )
 
-__all__ = ["FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks"]
+__all__ = ["FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks",
+           "expanded_percentile_interval"]
 
 
 @dataclass(frozen=True)
@@ -270,6 +272,66 @@ def bootstrap_fourier_fit(t, y, dy, fit, *, n_bootstrap=100, rng=None, blocks=No
         freqs[i] = f if ok else np.nan
         amps[i] = peak_to_peak(coef) if ok else np.nan
     return freqs, amps
+
+
+def expanded_percentile_interval(samples, n_units, *, level=0.95):
+    """Return the expanded bootstrap percentile interval of ``samples``.
+
+    Parameters
+    ----------
+    samples : ndarray, shape (b,)
+        Bootstrap replicates of a statistic (finite values).
+    n_units : int
+        Number of independent units resampled (site-nights for a block bootstrap, points
+        otherwise); at least 2.
+    level : float, optional
+        Confidence level.
+
+    Returns
+    -------
+    interval : ndarray, shape (2,)
+        Lower and upper limits.
+
+    Raises
+    ------
+    ValueError
+        If ``n_units`` is below 2, ``level`` is outside (0, 1) or ``samples`` is empty.
+
+    Notes
+    -----
+    A plain percentile interval is too narrow when few units are resampled: the bootstrap
+    spread is that of a sample of ``n`` with divisor ``n``, and the normal quantile stands in
+    for Student's t. The expanded percentile interval (Hesterberg 2015, Am. Stat. 69, 371,
+    from memory) takes the percentiles at ::
+
+        α' / 2 = Φ(-sqrt(n / (n - 1)) t_{1 - α/2, n - 1}),   α = 1 - level
+
+    which tends to the plain 2.5-97.5 % percentiles for large ``n``; for 13 site-nights
+    ``α'/2 = 1.2 %``, for 5 it is ``0.1 %``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.random.default_rng(1).normal(0, 1, 4000)
+    >>> bool(np.allclose(expanded_percentile_interval(x, 10**6), np.percentile(x, [2.5, 97.5]),
+    ...                  rtol=1e-3))
+    True
+    >>> bool(np.all(np.abs(expanded_percentile_interval(x, 13)) > 2.2))
+    True
+    """
+    samples = np.asarray(samples, dtype=float)
+    if not n_units >= 2:
+        msg = f"'n_units' must be at least 2 to form a bootstrap interval, got {n_units}"
+        raise ValueError(msg)
+    if not 0 < level < 1:
+        msg = f"'level' must lie between 0 and 1, got {level}"
+        raise ValueError(msg)
+    if samples.size == 0:
+        msg = "'samples' is empty: no bootstrap replicates to form an interval from"
+        raise ValueError(msg)
+    tail = float(stats.norm.cdf(-np.sqrt(n_units / (n_units - 1))
+                                * stats.t.ppf(0.5 + level / 2, n_units - 1)))
+    return np.percentile(samples, [100 * tail, 100 * (1 - tail)])
 
 
 def night_blocks(t, site=None, *, gap=0.3):

@@ -3,8 +3,9 @@
 Steps: choose the points, check what the sampling can constrain, compute the periodograms of
 every method on one frequency grid, decide between single- and double-peaked interpretations
 with an F test on the odd harmonics (a free zero point per site-night), fit the adopted Fourier
-series with its frequency, estimate errors from the covariance and a bootstrap of whole nights,
-weigh the named aliases by Δχ², and turn the amplitude into a lower bound on the axial ratio.
+series with its frequency, estimate errors and the 95 % interval from the covariance and a
+bootstrap of whole nights, weigh the named aliases by Δχ², and turn the amplitude into a lower
+bound on the axial ratio.
 """
 
 import warnings
@@ -18,7 +19,12 @@ from scipy import stats
 from photpipe._quantity import as_positive_value, as_value
 from photpipe.rotation.aliases import describe_relation, periodogram_peaks, window_peaks
 from photpipe.rotation.errors import LightcurveError, RotationWarning
-from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series, night_blocks
+from photpipe.rotation.fit import (
+    bootstrap_fourier_fit,
+    expanded_percentile_interval,
+    fit_fourier_series,
+    night_blocks,
+)
 from photpipe.rotation.fourier_model import fourier_series, model_extrema
 from photpipe.rotation.grid import frequency_grid
 from photpipe.rotation.harmonic_sums import harmonic_chi2
@@ -45,6 +51,15 @@ _ZERO_POINT_LEVEL = 0.05
 ERROR_LEVEL = "1 sigma (68.3 % for Gaussian errors)"
 # Two-sided 95 % quantile of the normal distribution.
 _Z95 = float(stats.norm.ppf(0.975))
+# Fewest finite resamples for a bootstrap percentile interval: 40 puts at least one resample in
+# each 2.5 % tail (project choice; Efron & Tibshirani 1993 advise about 1000, from memory).
+_MIN_PERCENTILE_RESAMPLES = 40
+#: How ``period_interval_95`` is formed: from the night-block bootstrap when it ran with enough
+#: resamples, from the 1-σ error otherwise.
+INTERVAL_METHODS = {
+    "bootstrap": "expanded percentile interval of the site-night bootstrap periods",
+    "normal": "period -/+ 1.96 period_err (normal)",
+}
 
 
 @dataclass(frozen=True)
@@ -57,7 +72,11 @@ class RotationResult:
         Adopted rotation period and its 1-σ error (the larger of the covariance and bootstrap
         errors).
     period_interval_95 : `~astropy.units.Quantity` ['time'], shape (2,)
-        ``period ∓ 1.96 period_err``, the 95 % interval for Gaussian errors.
+        The 95 % interval of the period: the expanded percentile interval of the bootstrap
+        periods when whole site-nights were resampled at least 40 times,
+        ``period ∓ 1.96 period_err`` otherwise.
+    period_interval_method : str
+        How ``period_interval_95`` was formed (a value of ``INTERVAL_METHODS``).
     period_err_covariance, period_err_bootstrap : `~astropy.units.Quantity` ['time']
         The two error estimates (bootstrap is NaN when no resamples were drawn).
     bootstrap_resampled : str
@@ -111,6 +130,7 @@ class RotationResult:
     period_err_covariance: u.Quantity
     period_err_bootstrap: u.Quantity
     period_interval_95: u.Quantity
+    period_interval_method: str
     bootstrap_resampled: str
     bootstrap_blocks: int
     amplitude: u.Quantity
@@ -154,6 +174,7 @@ class RotationResult:
             "period_err_bootstrap_h": _f(self.period_err_bootstrap, u.h),
             "period_err_level": ERROR_LEVEL,
             "period_interval_95_h": [_f(q, u.h) for q in self.period_interval_95],
+            "period_interval_95_method": self.period_interval_method,
             "bootstrap_resampled": self.bootstrap_resampled,
             "bootstrap_blocks": int(self.bootstrap_blocks),
             "frequency_per_day": float(self.fit.frequency),
@@ -448,8 +469,10 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     methods : sequence of str, optional
         Periodograms to compute, keys of `~photpipe.rotation.methods.METHODS`.
     n_bootstrap : int, optional
-        Bootstrap resamples for the period and amplitude errors (0 to skip); whole site-nights
-        are drawn when there are at least five, single points otherwise.
+        Bootstrap resamples for the period and amplitude errors and the 95 % period interval
+        (0 to skip); whole site-nights are drawn when there are at least five, single points
+        otherwise. The interval is a bootstrap percentile interval from 40 resamples of
+        site-nights on.
     rng : `numpy.random.Generator`, optional
         Random generator for the bootstrap and the amplitude error draws.
     oversample : int, optional
@@ -520,7 +543,12 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     with replacement (block bootstrap, Künsch 1989, Ann. Stat. 17, 1217; Efron & Tibshirani
     1993, §8.6), because residuals that share a night (nightly zero-point errors, a model
     with too few harmonics) are correlated, which the covariance and a bootstrap of single
-    points both ignore. The 95 % interval is ``period ∓ 1.96 period_err``.
+    points both ignore. The 95 % interval is a percentile interval of the resampled periods
+    (Efron & Tibshirani 1993, ch. 13) when at least 40 resamples of whole site-nights
+    converged, expanded for the few site-nights drawn
+    (:func:`~photpipe.rotation.fit.expanded_percentile_interval`, Hesterberg 2015); otherwise
+    (no bootstrap, or single points drawn) it is ``period ∓ 1.96 period_err``.
+    ``period_interval_method`` says which.
 
     Examples
     --------
@@ -623,6 +651,7 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     n_blocks = int(blocks.max()) + 1
     resampled = "none"
     err_boot_h, amp_err_boot = np.nan, np.nan
+    p_boot = np.empty(0)
     if n_bootstrap > 0:
         by_night = n_blocks >= _MIN_BOOTSTRAP_BLOCKS
         resampled = "site-nights" if by_night else "points"
@@ -631,11 +660,19 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         f_boot, a_boot = bootstrap_fourier_fit(t, y, dy, fit, n_bootstrap=n_bootstrap, rng=rng,
                                                blocks=blocks if by_night else None)
         good = np.isfinite(f_boot)
+        p_boot = 24.0 / f_boot[good]
         if good.sum() >= 2:
-            err_boot_h = float(np.std(24.0 / f_boot[good], ddof=1))
+            err_boot_h = float(np.std(p_boot, ddof=1))
             amp_err_boot = float(np.std(a_boot[good], ddof=1))
     period_err_h = float(np.nanmax([err_cov_h, err_boot_h]))
-    interval_h = period_h + _Z95 * period_err_h * np.array([-1.0, 1.0])
+    if resampled == "site-nights" and p_boot.size >= _MIN_PERCENTILE_RESAMPLES:
+        # percentiles follow a skewed or heavy-tailed spread of the resampled periods that
+        # ±1.96σ would make symmetric; expanded for the few site-nights drawn
+        interval_h = expanded_percentile_interval(p_boot, n_blocks)
+        interval_method = INTERVAL_METHODS["bootstrap"]
+    else:
+        interval_h = period_h + _Z95 * period_err_h * np.array([-1.0, 1.0])
+        interval_method = INTERVAL_METHODS["normal"]
     amp_err = float(np.nanmax([amp_err_cov, amp_err_boot]))
 
     mean_phase = float(np.mean(lc.phase_deg))
@@ -696,7 +733,8 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     return RotationResult(
         period=period_h * u.h, period_err=period_err_h * u.h,
         period_err_covariance=err_cov_h * u.h, period_err_bootstrap=err_boot_h * u.h,
-        period_interval_95=interval_h * u.h, bootstrap_resampled=resampled,
+        period_interval_95=interval_h * u.h, period_interval_method=interval_method,
+        bootstrap_resampled=resampled,
         bootstrap_blocks=n_blocks,
         amplitude=amp * u.mag, amplitude_err=amp_err * u.mag,
         amplitude_nucleus=amp_nucleus * u.mag, amplitude_zero_phase=amp0 * u.mag,

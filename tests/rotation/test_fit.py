@@ -1,7 +1,12 @@
 import numpy as np
 import pytest
 
-from photpipe.rotation.fit import bootstrap_fourier_fit, fit_fourier_series, night_blocks
+from photpipe.rotation.fit import (
+    bootstrap_fourier_fit,
+    expanded_percentile_interval,
+    fit_fourier_series,
+    night_blocks,
+)
 from photpipe.rotation.fourier_model import design_matrix, fourier_series, peak_to_peak
 
 
@@ -88,3 +93,18 @@ def test_model_helpers():
     a = design_matrix(np.array([0.0]), 1.0, 2)
     np.testing.assert_allclose(a, [[1, 1, 0, 1, 0]], atol=1e-12)
     assert peak_to_peak(np.array([0.0, 0.0, 0.0, 0.25, 0.0])) == pytest.approx(0.5, abs=1e-9)
+
+
+def test_expanded_percentile_interval():
+    x = np.random.default_rng(2).normal(0, 1, 20000)
+    # many units: the plain 2.5-97.5 % percentiles (±1.96 for a unit normal, common practice)
+    np.testing.assert_allclose(expanded_percentile_interval(x, 10**7),
+                               np.percentile(x, [2.5, 97.5]), rtol=1e-3)
+    # 5 units: α'/2 = Φ(-sqrt(5/4) t_{0.975,4}) with t_{0.975,4} = 2.776 (Student t table,
+    # e.g. Abramowitz & Stegun 1964, table 26.10, from memory) -> 0.095 %
+    lo, hi = expanded_percentile_interval(x, 5)
+    np.testing.assert_allclose([lo, hi], np.percentile(x, [0.0954, 99.9046]), rtol=1e-3)
+    with pytest.raises(ValueError, match="'n_units' must be at least 2"):
+        expanded_percentile_interval(x, 1)
+    with pytest.raises(ValueError, match="'samples' is empty"):
+        expanded_percentile_interval([], 10)

@@ -11,6 +11,9 @@ from photpipe.rotation import (
     search_rotation,
     synthetic_lightcurve,
 )
+from photpipe.rotation import search as search_module
+from photpipe.rotation.fit import expanded_percentile_interval
+from photpipe.rotation.search import INTERVAL_METHODS
 
 ONE_SITE = {"kettle_rock": -111.4}
 
@@ -64,31 +67,37 @@ def test_truth_recovered_over_seeds(sites, nights, hours, case):
 
 
 @pytest.mark.slow
-def test_nightly_zero_point_errors_do_not_double_the_period():
+def test_nightly_zero_point_errors_neither_double_the_period_nor_narrow_the_interval():
     # Truth: the synthetic campaign (two sites, 8 nights, seeds 0-49) with a 0.02 mag zero-point
     # error per site-night that the stated point errors leave out. Residuals then correlate
-    # within a night. Drawing whole nights in the bootstrap (Künsch 1989) widens the error.
-    # The odd-harmonic test fits a zero point per site-night once they differ, so the
+    # within a night. Drawing whole nights in the bootstrap (Künsch 1989) widens the error, and
+    # the 95 % interval is the expanded percentile interval of those resamples (Hesterberg
+    # 2015). The odd-harmonic test fits a zero point per site-night once they differ, so the
     # offsets no longer pass for two different halves: over seeds 0-99 the period was doubled
     # in 8 seeds with one zero point, in 0 now (over seeds 0-199: 14 and 1, see
     # benchmarks/rotation_shape_study.py). Measured when written, seeds 0-49: no period doubled;
-    # 35 / 47 / 50 seeds within 1σ / 2σ / 3σ (rms z 1.00).
-    z, doubled = [], 0
+    # 35 / 47 / 50 seeds within 1σ / 2σ / 3σ (rms z 1.00); 46 inside the 95 % interval.
+    z, doubled, covered = [], 0, 0
     for seed in range(50):
         rng = np.random.default_rng(seed)
         table, truth = synthetic_lightcurve(period=rng.uniform(4, 14) * u.h, n_nights=8,
                                             night_offset=0.02 * u.mag, rng=rng)
         res = _search(table, rng, n_bootstrap=40)
+        assert res.period_interval_method == INTERVAL_METHODS["bootstrap"]
         ratio = float(res.period / truth.period)
         if abs(ratio - 2) < 0.01:
             doubled += 1
         elif abs(ratio - 1) < 0.01:
             z.append(float((res.period - truth.period) / res.period_err))
+        lo, hi = res.period_interval_95.to_value(u.h)
+        covered += int(lo <= truth.period.to_value(u.h) <= hi)
     z = np.abs(np.array(z))
     within = [int(np.sum(z < k)) for k in (1, 2, 3)]
     assert doubled == 0
     assert abs(within[0] - 35) <= 2 and abs(within[1] - 47) <= 2 and within[2] >= 48
     assert 0.8 < np.sqrt(np.mean(z**2)) < 1.2
+    # 95 % interval: binomial(50, 0.95) gives 45 or more in 96 % of campaigns (common practice)
+    assert abs(covered - 46) <= 2 and covered >= 45
 
 
 def test_synthetic_night_offset_keeps_the_campaign():
@@ -148,14 +157,53 @@ def test_amplitude_and_axial_ratio():
     for key in ("period_h", "period_err_h", "amplitude_mag", "amplitude_err_mag",
                 "axial_ratio_min", "n_points", "method"):
         assert key in d
-    # the error says what it is, and the 95 % interval is ±1.96σ (normal quantile, common
-    # practice)
+    # the error says what it is, and with fewer than 40 resamples the 95 % interval is ±1.96σ
+    # (normal quantile, common practice)
     assert d["period_err_level"].startswith("1 sigma")
+    assert d["period_interval_95_method"] == INTERVAL_METHODS["normal"]
     lo, hi = d["period_interval_95_h"]
     assert (hi - lo) / 2 == pytest.approx(1.959964 * d["period_err_h"], rel=1e-6)
     assert lo < d["period_h"] < hi
     assert d["bootstrap_resampled"] == "site-nights" and d["bootstrap_blocks"] >= 5
     assert "1σ; 95 % interval" in res.summary()
+
+
+def test_interval_from_the_night_bootstrap(monkeypatch):
+    # the 95 % interval is the expanded percentile interval of the resampled periods when
+    # whole site-nights were drawn at least 40 times; ±1.96σ otherwise
+    table, _ = synthetic_lightcurve(period=6.0 * u.h, rng=np.random.default_rng(6))
+    drawn = {}
+
+    def fake_bootstrap(t, y, dy, fit, *, n_bootstrap, rng, blocks):
+        # a skewed spread of frequencies, so a percentile interval differs from ±1.96σ
+        f = fit.frequency * (1 + 1e-3 * np.random.default_rng(1).exponential(1, n_bootstrap))
+        drawn.update(f=f, blocks=blocks)
+        return f, np.full(n_bootstrap, fit.amplitude)
+
+    monkeypatch.setattr(search_module, "bootstrap_fourier_fit", fake_bootstrap)
+    res = _search(table, np.random.default_rng(1), n_bootstrap=60)
+    assert res.bootstrap_resampled == "site-nights"
+    expected = expanded_percentile_interval(24 / drawn["f"], drawn["blocks"].max() + 1)
+    np.testing.assert_allclose(res.period_interval_95.to_value(u.h), expected, rtol=1e-12)
+    d = res.to_dict()
+    assert d["period_interval_95_method"] == INTERVAL_METHODS["bootstrap"]
+    lo, hi = d["period_interval_95_h"]
+    assert abs((hi - lo) / 2 - 1.959964 * d["period_err_h"]) > 1e-3 * d["period_err_h"]
+    # 39 resamples, or no bootstrap: the normal interval
+    for n in (39, 0):
+        res = _search(table, np.random.default_rng(1), n_bootstrap=n)
+        assert res.period_interval_method == INTERVAL_METHODS["normal"]
+        lo, hi = res.period_interval_95.to_value(u.h)
+        assert (hi - lo) / 2 == pytest.approx(1.959964 * res.period_err.to_value(u.h), rel=1e-6)
+
+
+def test_interval_normal_when_single_points_are_drawn():
+    # fewer than five site-nights: single points are drawn, and the interval stays ±1.96σ
+    table, _ = synthetic_lightcurve(period=6.0 * u.h, sites=ONE_SITE, n_nights=3, night_hours=8,
+                                    cloud_fraction=0, rng=np.random.default_rng(2))
+    res = _search(table, np.random.default_rng(2), n_bootstrap=60)
+    assert res.bootstrap_resampled == "points"
+    assert res.to_dict()["period_interval_95_method"] == INTERVAL_METHODS["normal"]
 
 
 def test_small_aperture_lightcurve_needs_coma_fraction():
