@@ -35,6 +35,7 @@ from photpipe.scenario import Instrument, make_star_field, render_night
 from photpipe.scenario.demo import demo_exposures
 
 ROOT = Path(__file__).resolve().parents[1]
+_SETTLE = 10   # frames after which a worker's memory should no longer grow
 
 
 def burn(seed):
@@ -142,6 +143,13 @@ def report(summary, workers, frame_mb, raw):
     night_mb = sum(f.stat().st_size for f in (raw / "night").iterdir()) / 2**20
     print(f"   peak memory per worker: {peaks} MB (one calibrated frame is {frame_mb:.0f} MB; "
           f"the raw night is {night_mb:.0f} MB compressed)")
+    for track in summary.worker_memory_track.values():
+        early = min(_SETTLE, len(track)) - 1
+        grown = track[-1] - track[early]
+        per = grown / max(len(track) - 1 - early, 1) * 1024
+        print(f"   a worker's peak after its frame {early + 1}: {track[early]:.0f} MB, after "
+              f"its frame {len(track)}: {track[-1]:.0f} MB (growth {grown:+.1f} MB, "
+              f"{per:+.0f} kB per frame; goal: flat)")
     skipped = [s for s in summary.all_skipped() if s.stage not in ("rotation", "size")]
     if skipped:
         print(f"   {len(skipped)} skip records, e.g. {skipped[0]}")

@@ -460,6 +460,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
         summary.bytes_to_workers = runner.bytes_sent
         summary.bytes_from_workers = runner.bytes_received
         summary.worker_peak_mb = dict(runner.peak_memory_mb)
+        summary.worker_memory_track = {pid: list(mb) for pid, mb in runner.memory_track.items()}
         store.end_run(run_id, status)
         log.info("summary\n%s", summary.format())
         store.close()

@@ -135,6 +135,10 @@ class TaskRunner:
     ----------
     peak_memory_mb : dict
         Peak resident memory reported by each worker process (pid -> MB) over the tasks run.
+    memory_track : dict
+        For each worker process (pid), its peak resident memory in MB after each of its tasks,
+        in the order they finished: flat once the first tasks are done when memory is bounded
+        by the task, rising when the worker keeps something from every task.
     task_seconds : list of float
         Wall time of each finished task, in the worker.
     task_cpu_seconds : list of float
@@ -161,6 +165,7 @@ class TaskRunner:
         self.progress = progress
         self.connect_timeout = float(connect_timeout)
         self.peak_memory_mb = {}
+        self.memory_track = {}
         self.task_seconds = []
         self.task_cpu_seconds = []
         self.start_seconds = 0.0
@@ -321,6 +326,7 @@ class TaskRunner:
         if outcome.pid:
             self.peak_memory_mb[outcome.pid] = max(self.peak_memory_mb.get(outcome.pid, 0.0),
                                                    outcome.peak_rss_mb)
+            self.memory_track.setdefault(outcome.pid, []).append(outcome.peak_rss_mb)
             self.task_seconds.append(outcome.seconds)
             self.task_cpu_seconds.append(outcome.cpu_seconds)
         if outcome.ok:

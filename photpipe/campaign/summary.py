@@ -65,6 +65,9 @@ class RunSummary:
         the task waited for a core other work held.
     worker_peak_mb : dict
         Peak resident memory of each worker process (pid -> MB).
+    worker_memory_track : dict
+        Peak resident memory of each worker process after each of its frame tasks (pid -> list
+        of MB, see `~photpipe.campaign.TaskRunner`).
     phase_seconds : dict
         Wall time of the parts of the run: ``workers start`` (starting the processes),
         ``frames`` (from the first frame task handed out to the last stored, over all nights),
@@ -89,6 +92,7 @@ class RunSummary:
     task_seconds: list = field(default_factory=list)
     task_cpu_seconds: list = field(default_factory=list)
     worker_peak_mb: dict = field(default_factory=dict)
+    worker_memory_track: dict = field(default_factory=dict)
     phase_seconds: dict = field(default_factory=dict)
     bytes_to_workers: int = 0
     bytes_from_workers: int = 0

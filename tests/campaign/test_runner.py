@@ -34,6 +34,15 @@ def test_shared_data_reaches_every_task():
     assert out == {1: 11, 2: 12}
 
 
+def test_memory_is_tracked_after_each_task():
+    with TaskRunner(workers=0, progress=False) as runner:
+        list(runner.map(_toys.add_shared, [1, 2, 3], shared={"offset": 0}))
+    [(pid, track)] = runner.memory_track.items()
+    assert len(track) == 3
+    assert track == sorted(track)                     # a peak never falls
+    assert runner.peak_memory_mb[pid] == track[-1]
+
+
 def test_unpicklable_exception_is_described():
     (_, err), = run_tasks(_toys.raise_unpicklable, [1], workers=0, progress=False)
     assert err.kind == "Unpicklable" and err.original is None
