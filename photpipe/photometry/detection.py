@@ -170,7 +170,7 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     return out
 
 
-def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15):
+def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15, local_sky=True):
     """Median FWHM of a few stars from closed-form Gaussian fits to their cores.
 
     Parameters
@@ -180,11 +180,16 @@ def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15):
     x, y : array-like
         Positions of bright, isolated, unsaturated stars (best first).
     sky : float
-        Sky level to subtract.
+        Sky level to subtract (used for a star whose local sky cannot be measured, or for all
+        stars when ``local_sky`` is False).
     fit_shape : int, optional
         Odd size of the fitting box in pixels.
     max_stars : int, optional
         Use at most this many stars.
+    local_sky : bool, optional
+        Subtract each star's own sky, the median of the square ring of pixels 2 to 4 pixels
+        outside the fitting box. A star on a coma or a gradient stands on more light than the
+        frame's sky; left in, that pedestal flattens the log-core and widens the fit.
 
     Returns
     -------
@@ -196,7 +201,9 @@ def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15):
     ln I = ln A - ((x - x₀)² + (y - y₀)²) / (2σ²) is linear in (1, x, y, x² + y²); it is fitted by
     least squares with weights I² over the pixels above 5 % of the peak (Caruana et al. 1986;
     Guo 2011, IEEE Signal Processing Magazine 28, 134), and FWHM = 2 sqrt(2 ln 2) σ. The median
-    over stars is robust to a few poor fits (common practice).
+    over stars is robust to a few poor fits (common practice). The result is the FWHM of the
+    best Gaussian; for a Moffat star it comes out larger than the Moffat FWHM (by about 15-25 %
+    for β = 3 and FWHM 1.5-3 pixels, measured on the scenario's pixel-integrated Moffat stamps).
 
     Examples
     --------
@@ -211,12 +218,21 @@ def measure_fwhm(data, x, y, *, sky, fit_shape=7, max_stars=15):
     half = int(fit_shape) // 2
     ny, nx = data.shape
     yy, xx = np.mgrid[-half:half + 1, -half:half + 1]
+    outer = half + 4
+    oy, ox = np.mgrid[-outer:outer + 1, -outer:outer + 1]
+    ring = np.maximum(np.abs(ox), np.abs(oy)) >= half + 2
     out = []
     for xi, yi in zip(x, y, strict=True):
         ix, iy = int(round(xi)), int(round(yi))
         if ix < half or iy < half or ix >= nx - half or iy >= ny - half:
             continue
-        stamp = data[iy - half:iy + half + 1, ix - half:ix + half + 1] - sky
+        level = sky
+        if local_sky and outer <= ix < nx - outer and outer <= iy < ny - outer:
+            around = data[iy - outer:iy + outer + 1, ix - outer:ix + outer + 1][ring]
+            around = around[np.isfinite(around)]
+            if around.size >= 20:
+                level = float(np.median(around))
+        stamp = data[iy - half:iy + half + 1, ix - half:ix + half + 1] - level
         peak = np.nanmax(stamp)
         use = np.isfinite(stamp) & (stamp > 0.05 * peak)
         if peak <= 0 or np.count_nonzero(use) < 6:
