@@ -13,6 +13,8 @@ from .astrometry import *  # noqa: F401,F403
 from .astrometry import __all__ as _astrometry_all
 from .coma_apcorr import *  # noqa: F401,F403
 from .coma_apcorr import __all__ as _coma_apcorr_all
+from .coma_background import *  # noqa: F401,F403
+from .coma_background import __all__ as _coma_background_all
 from .cometphot import *  # noqa: F401,F403
 from .cometphot import __all__ as _cometphot_all
 from .detection import *  # noqa: F401,F403
@@ -57,6 +59,7 @@ __all__ = (
     _airmass_all +
     _astrometry_all +
     _coma_apcorr_all +
+    _coma_background_all +
     _cometphot_all +
     _detection_all +
     _dust_phase_all +

@@ -18,6 +18,7 @@ from .afrho import afrho_uncertainty
 from .airmass import frame_airmass, header_airmass
 from .astrometry import apply_to_wcs, match_stars
 from .coma_apcorr import MoffatGrowth, coma_aperture_correction, fit_moffat_growth
+from .coma_background import azimuthal_median_model
 from .cometphot import comet_aperture_fluxes, fill_from_rings
 from .detection import detect_sources, measure_fwhm, sky_statistics
 from .dust_phase import dust_phase
@@ -240,7 +241,10 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     the variance plane plus the sky error; the magnitude error adds the zero-point error in
     quadrature. The comet's aperture sums are multiplied by the aperture correction of a 1/ρ coma
     seen through the PSF fitted to the stars' curve of growth (`coma_aperture_correction`), so
-    that Afρ does not fall in small apertures. Airmass is the header's AIRMASS when present;
+    that Afρ does not fall in small apertures. The field stars are measured
+    after the median in rings about the comet is taken out (`azimuthal_median_model`), so that
+    on a small frame their annuli do not miss the coma under them.
+    Airmass is the header's AIRMASS when present;
     otherwise, given ``site``, it is computed from the mid-exposure time and the comet's position
     (`frame_airmass`) and the rows carry ``airmass_computed``; otherwise NaN.
 
@@ -366,12 +370,23 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     i_det, matched_ref = i_det[keep_m], matched_ref[keep_m]
     det_m = det_xy[i_det]
     tree_xy = np.column_stack([sx, sy])
+    # the stars are measured with the comet's symmetric light taken out: on a small frame their
+    # local annuli would otherwise miss the coma under them (see coma_background)
+    star_data = data - azimuthal_median_model(data, good, x_pred, y_pred)
+    # the FWHM again, from catalogue stars clear of the comet: the first estimate takes the
+    # brightest detections, and on a small frame many of those are coma structure or stars on it
+    clear = (np.hypot(det_m[:, 0] - x_pred, det_m[:, 1] - y_pred) > ann_in) & ~near_sat[i_det]
+    if np.count_nonzero(clear) >= 3:
+        refined = measure_fwhm(star_data, det_m[clear, 0], det_m[clear, 1], sky=0.0)
+        if np.isfinite(refined):
+            details["fwhm_detections_pix"] = fwhm
+            fwhm = details["fwhm_pix"] = refined
     star_radii = np.array([1.0, star_aperture_fwhm, 2.0, 3.0, 4.0]) * fwhm
     star_radii = np.unique(star_radii)
     k_phot = int(np.flatnonzero(np.isclose(star_radii, star_aperture_fwhm * fwhm))[0])
     k_big = len(star_radii) - 1
-    phot = measure_star_fluxes(data, variance, bad, det_m[:, 0], det_m[:, 1], radii=star_radii,
-                               annulus=(5.0 * fwhm, 8.0 * fwhm))
+    phot = measure_star_fluxes(star_data, variance, bad, det_m[:, 0], det_m[:, 1],
+                               radii=star_radii, annulus=(5.0 * fwhm, 8.0 * fwhm))
     # isolation: no other detection inside the large aperture plus a FWHM
     counts = np.array([len(v) for v in cKDTree(tree_xy).query_ball_point(
         det_m, r=star_radii[-1] + fwhm)]) if len(det_m) else np.zeros(0, int)
