@@ -17,7 +17,8 @@ from scipy.signal import fftconvolve
 
 from photpipe.nucleus.coma import inverse_rho_pixel_integral
 
-__all__ = ["MoffatGrowth", "moffat_encircled", "fit_moffat_growth", "coma_aperture_correction"]
+__all__ = ["MoffatGrowth", "moffat_encircled", "fit_moffat_growth", "moffat_from_measured_fwhm",
+           "coma_aperture_correction"]
 
 #: Sub-pixels per FWHM of the oversampled grid on which the coma is convolved.
 _SAMPLES_PER_FWHM = 12
@@ -100,7 +101,8 @@ def moffat_encircled(r, alpha, beta):
     return 1.0 - (1.0 + (r / alpha) ** 2) ** (1.0 - beta)
 
 
-def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess):
+def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess, beta_range=(1.5, 10.0),
+                      fwhm_range=(0.6, 1.4)):
     """Fit a Moffat PSF to the field stars' curve of growth.
 
     Parameters
@@ -113,17 +115,30 @@ def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess):
         The stars' sky annulus (inner, outer), pixels.
     fwhm_guess : float
         Starting FWHM (pixels).
+    beta_range : tuple of float, optional
+        A fitted β outside this range is not accepted.
+    fwhm_range : tuple of float, optional
+        A fitted FWHM outside this range, in units of ``fwhm_guess``, is not accepted.
 
     Returns
     -------
     psf : MoffatGrowth or None
-        None when fewer than three stars have a usable curve or the fit fails.
+        None when fewer than three stars have a usable curve, the fit fails, or the fit
+        is not plausible: on a small frame with a handful of faint stars, noise or a blend bends
+        the curve and drives β to 1.2 (wings so broad that a star's light in the reference
+        aperture is a fraction of its total) or to 41, or the width to a fraction of the
+        measured FWHM, and each gives a spurious coma correction.
 
     Notes
     -----
     The median over stars of F(r_k) / F(r_ref) is fitted by least squares with the
     `MoffatGrowth.measured_fraction` model (in ln α and ln(β - 1)); the curve of growth as a
-    description of the PSF is from Stetson (1990, PASP 102, 932).
+    description of the PSF is from Stetson (1990, PASP 102, 932). Seeing-limited stars have β
+    of about 2.5 to 5 (Trujillo et al. 2001, MNRAS 328, 977, find 4.765 for pure Kolmogorov
+    turbulence; from memory), hence the default ``beta_range``. The Gaussian-fit FWHM that
+    `~photpipe.photometry.measure_fwhm` gives is 1.08-1.10 times the width fitted here to
+    noise-free pixel-integrated Moffat stars (β = 3, FWHM 1.6-3 pixels, measured on the
+    scenario's stamps), well inside the default ``fwhm_range``.
 
     Examples
     --------
@@ -159,10 +174,73 @@ def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess):
         return None
     if not fit.success:
         return None
-    return MoffatGrowth(np.exp(fit.x[0]), 1.0 + np.exp(fit.x[1]))
+    psf = MoffatGrowth(np.exp(fit.x[0]), 1.0 + np.exp(fit.x[1]))
+    if not beta_range[0] <= psf.beta <= beta_range[1]:
+        return None
+    if not fwhm_range[0] <= psf.fwhm / fwhm_guess <= fwhm_range[1]:
+        return None
+    return psf
 
 
-def coma_aperture_correction(radii, psf, *, reference_radius, annulus):
+def _pixel_stamp(psf, dx, dy, half=7, oversample=5):
+    """``psf`` integrated over the pixels of a (2 half + 1)² stamp, centre offset (dx, dy)."""
+    n = 2 * half + 1
+    sub = (np.arange(n * oversample) + 0.5) / oversample - 0.5 - half
+    yy, xx = np.meshgrid(sub - dy, sub - dx, indexing="ij")
+    img = (1.0 + (xx**2 + yy**2) / psf.alpha**2) ** (-psf.beta)
+    return img.reshape(n, oversample, n, oversample).mean(axis=(1, 3))
+
+
+def moffat_from_measured_fwhm(fwhm, beta):
+    """The Moffat PSF of index ``beta`` whose measured FWHM is ``fwhm``.
+
+    Parameters
+    ----------
+    fwhm : float
+        FWHM (pixels) as `~photpipe.photometry.measure_fwhm` measures it on the frame's stars.
+    beta : float
+        Moffat β of the PSF.
+
+    Returns
+    -------
+    psf : MoffatGrowth
+
+    Notes
+    -----
+    `~photpipe.photometry.measure_fwhm` fits a Gaussian to the core of a pixel-integrated star,
+    which gives more than the Moffat FWHM (pixel integration widens the core, and a Gaussian
+    through a Moffat's core and upper wing is wider than its half maximum). The Moffat width is
+    found by bisection so that the same measurement on the model, pixel-integrated at three
+    sub-pixel centrings, averages to ``fwhm``.
+
+    Examples
+    --------
+    >>> psf = moffat_from_measured_fwhm(2.4, 3.0)
+    >>> bool(1.8 < psf.fwhm < 2.2)
+    True
+    """
+    from .detection import measure_fwhm
+
+    def measured(true_fwhm):
+        psf = MoffatGrowth(true_fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / beta) - 1.0)), beta)
+        half = max(7, int(np.ceil(3 * fwhm)))
+        values = [measure_fwhm(_pixel_stamp(psf, dx, dy, half=half), [half + dx], [half + dy],
+                               sky=0.0, local_sky=False)
+                  for dx, dy in ((0.0, 0.0), (0.25, 0.0), (0.5, 0.5))]
+        return float(np.mean(values))
+
+    lo, hi = 0.3 * fwhm, 1.2 * fwhm
+    for _ in range(30):
+        mid = 0.5 * (lo + hi)
+        if measured(mid) > fwhm:
+            hi = mid
+        else:
+            lo = mid
+    true_fwhm = 0.5 * (lo + hi)
+    return MoffatGrowth(true_fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / beta) - 1.0)), beta)
+
+
+def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=False):
     """Factor that turns a PSF-blurred 1/ρ coma's aperture sum into its true flux.
 
     Parameters
@@ -175,6 +253,10 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus):
         Radius (pixels) of the star photometry that the zero point takes as total flux.
     annulus : tuple of float
         The stars' sky annulus (inner, outer), pixels.
+    pixel : bool, optional
+        ``psf`` is the optical PSF, not yet integrated over the pixels: convolve it with the
+        one-pixel box first. A PSF fitted to the stars' curve of growth already holds the pixel
+        (the stars' sums are of pixel-integrated light) and takes the default.
 
     Returns
     -------
@@ -209,7 +291,12 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus):
     n = int(np.ceil(half / step))
     edges = (np.arange(-n, n + 2) - 0.5) * step
     coma = inverse_rho_pixel_integral(edges, edges)     # Σ = 1/ρ in pixels, per sub-pixel
-    blurred = fftconvolve(coma, psf.image(_KERNEL_FWHM * fwhm, step), mode="same")
+    kernel = psf.image(_KERNEL_FWHM * fwhm, step)
+    box = int(round(1.0 / step))
+    if pixel and box > 1:
+        # the detector integrates the light over each pixel: a one-pixel box on the fine grid
+        kernel = fftconvolve(kernel, np.full((box, box), 1.0 / box**2), mode="same")
+    blurred = fftconvolve(coma, kernel, mode="same")
     apertures = [CircularAperture((n, n), r=float(r) / step) for r in radii]
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")

@@ -17,7 +17,7 @@ from .afrho import afrho as afrho_of
 from .afrho import afrho_uncertainty
 from .airmass import frame_airmass, header_airmass
 from .astrometry import apply_to_wcs, match_stars
-from .coma_apcorr import MoffatGrowth, coma_aperture_correction, fit_moffat_growth
+from .coma_apcorr import coma_aperture_correction, fit_moffat_growth, moffat_from_measured_fwhm
 from .coma_background import azimuthal_median_model
 from .cometphot import comet_aperture_fluxes, fill_from_rings
 from .detection import detect_sources, measure_fwhm, sky_statistics
@@ -39,6 +39,9 @@ __all__ = ["SOLAR_COLOURS", "measure_comet_frame"]
 SOLAR_COLOURS = {"B-V": 0.65, "V-R": 0.36}
 
 _ARCSEC_PER_RAD = 180.0 / np.pi * 3600.0
+#: Moffat β of the fallback PSF: a seeing-limited wing between the β ≈ 2.5 and 4.765 limits
+#: discussed by Trujillo et al. (2001, MNRAS 328, 977; from memory); the scenario renders β = 3.
+_FALLBACK_BETA = 3.0
 _MAG_FACTOR = 2.5 / np.log(10.0)
 
 #: flag -> sentence for the messages list.
@@ -56,8 +59,9 @@ _FLAG_TEXT = {
     "profile_short": "too few profile annuli in the slope range",
     "no_sun_pa": "no pa_sun in the geometry row; sector profiles not made",
     "no_solar_magnitude": "no solar magnitude for the band; Afρ not computed",
-    "psf_fallback": ("too few field stars for a curve-of-growth PSF; the coma aperture correction "
-                     "assumes a Moffat beta = 3 of the measured FWHM"),
+    "psf_fallback": ("too few field stars, or a curve of growth that does not fix both Moffat "
+                     "parameters; the coma aperture correction uses a Moffat PSF with beta = 3 "
+                     "and the measured FWHM"),
     "low_elongation": ("small solar elongation: pointing optics near the Sun can blind and damage "
                        "them; follow local rules and experienced practice"),
 }
@@ -241,7 +245,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     the variance plane plus the sky error; the magnitude error adds the zero-point error in
     quadrature. The comet's aperture sums are multiplied by the aperture correction of a 1/ρ coma
     seen through the PSF fitted to the stars' curve of growth (`coma_aperture_correction`), so
-    that Afρ does not fall in small apertures. The field stars are measured
+    that Afρ does not fall in small apertures; when that fit is missing or implausible, a Moffat
+    β = 3 of the measured FWHM stands in (flag ``psf_fallback``). The field stars are measured
     after the median in rings about the comet is taken out (`azimuthal_median_model`), so that
     on a small frame their annuli do not miss the coma under them.
     Airmass is the header's AIRMASS when present;
@@ -407,7 +412,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         apcorr = 1.0
     details["aperture_correction_scatter"] = apcorr_scatter
     star_annulus = (5.0 * fwhm, 8.0 * fwhm)
-    psf_model = None
+    psf_model, psf_optical = None, False
     if coma_correction:
         growth = np.column_stack([np.asarray(phot[f"flux_{k}"], float)
                                   for k in range(len(star_radii))])[usable]
@@ -416,10 +421,14 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         psf_model = fit_moffat_growth(star_radii, growth[best], annulus=star_annulus,
                                       fwhm_guess=fwhm)
         if psf_model is None:
-            _flag(flags, messages, "psf_fallback")
-            psf_model = MoffatGrowth(fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / 3.0) - 1.0)), 3.0)
+            # the optical PSF whose stars measure_fwhm would measure as this frame's; the coma
+            # correction integrates it over the pixel
+            psf_model, psf_optical = moffat_from_measured_fwhm(fwhm, _FALLBACK_BETA), True
+            _flag(flags, messages, "psf_fallback",
+                  f"{len(best)} usable star(s); measured FWHM {fwhm:.2f} pix, Moffat FWHM "
+                  f"{psf_model.fwhm:.2f} pix")
         details["psf_moffat"] = {"alpha_pix": psf_model.alpha, "beta": psf_model.beta,
-                                 "fwhm_pix": float(psf_model.fwhm)}
+                                 "fwhm_pix": float(psf_model.fwhm), "optical": psf_optical}
     flux_s = f_small * apcorr / exptime
     flux_s_err = f_small_err * apcorr / exptime
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -521,7 +530,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     details["flux_uncorrected_e"] = flux
     if psf_model is not None:
         coma_factor = coma_aperture_correction(radii, psf_model, reference_radius=star_radii[-1],
-                                               annulus=star_annulus)
+                                               annulus=star_annulus, pixel=psf_optical)
         flux, flux_err = flux * coma_factor, flux_err * coma_factor
     else:
         coma_factor = np.ones(len(radii))

@@ -127,3 +127,52 @@ def test_correction_is_applied_to_the_magnitudes(afrho_by_radius):
     on, off = results[True].comet, results[False].comet
     np.testing.assert_allclose((off["mag"] - on["mag"]).to_value(u.mag),
                                on["coma_apcorr_mag"].to_value(u.mag), atol=1e-9)
+
+
+def test_implausible_curves_of_growth_are_refused():
+    # a sky error of 0.5 % of a star's flux per pixel bends the curve as a blend or a coma does
+    # on a small frame: unconstrained, the fit runs to β = 1.2 and would give a coma correction of
+    # -0.4 mag at the largest aperture (the campaign test nights before the fix)
+    truth = MoffatGrowth(1.7, 3.0)
+    radii = truth.fwhm * np.array([1.0, 1.5, 2.0, 3.0, 4.0])
+    annulus = (5 * truth.fwhm, 8 * truth.fwhm)
+    clean = np.tile(truth.measured_fraction(radii, annulus), (6, 1))
+    bent = clean + 0.005 * np.pi * radii**2
+    assert fit_moffat_growth(radii, clean, annulus=annulus, fwhm_guess=truth.fwhm) is not None
+    assert fit_moffat_growth(radii, bent, annulus=annulus, fwhm_guess=truth.fwhm) is None
+    loose = fit_moffat_growth(radii, bent, annulus=annulus, fwhm_guess=truth.fwhm,
+                              beta_range=(1.0, 50.0), fwhm_range=(0.0, np.inf))
+    assert loose.beta < 1.5
+    # and a width far from the measured FWHM is refused too
+    assert fit_moffat_growth(radii, clean, annulus=annulus, fwhm_guess=2.0 * truth.fwhm) is None
+
+
+@pytest.mark.parametrize("fwhm", [1.6, 2.0, 3.0])
+def test_moffat_from_measured_fwhm_inverts_the_measurement(fwhm):
+    # truth: stars rendered by the scenario's own Moffat renderer (photpipe.scenario.moffat_stamp,
+    # β = 3), measured with measure_fwhm as the frames are; the Gaussian fit reads 15-24 % wide
+    from photpipe.photometry import measure_fwhm, moffat_from_measured_fwhm
+    from photpipe.scenario import moffat_stamp
+
+    offsets = [(0.0, 0.0), (0.3, 0.1), (0.5, 0.5), (-0.2, 0.4), (0.1, -0.35)]
+    measured = np.median([measure_fwhm(1e5 * moffat_stamp(41, dx, dy, fwhm, 3.0), [20 + dx],
+                                       [20 + dy], sky=0.0) for dx, dy in offsets])
+    assert measured > 1.1 * fwhm
+    psf = moffat_from_measured_fwhm(measured, 3.0)
+    assert psf.beta == 3.0
+    assert psf.fwhm == pytest.approx(fwhm, rel=0.03)
+
+
+def test_optical_psf_is_integrated_over_the_pixel():
+    # truth: the scenario's coma (exact pixel integral of K/ρ convolved with a 1.733-pixel Moffat,
+    # β = 3; tests/photometry/test_small_frame.py) summed in radii 3.34, 6.69 and 2.67 pixels:
+    # 0.087, 0.021, 0.141 mag. The optical PSF alone gives 0.077, 0.018, 0.120; with the pixel
+    # 0.082, 0.019, 0.129.
+    psf = MoffatGrowth(1.733 / (2.0 * np.sqrt(2.0 ** (1.0 / 3.0) - 1.0)), 3.0)
+    radii = [3.34, 6.69, 2.67]
+    kw = dict(reference_radius=60.0, annulus=(70.0, 80.0))
+    truth = np.array([0.087, 0.021, 0.141])
+    optical = 2.5 * np.log10(coma_aperture_correction(radii, psf, **kw))
+    pixel = 2.5 * np.log10(coma_aperture_correction(radii, psf, pixel=True, **kw))
+    assert np.all(np.abs(pixel - truth) < np.abs(optical - truth))
+    np.testing.assert_allclose(pixel, truth, atol=0.015)
