@@ -28,7 +28,7 @@ from .profile import annulus_means, profile_slope, sector_selection
 from .result import MEASUREMENT_COLUMNS, FramePhotometry
 from .sky import estimate_sky
 from .solar import solar_magnitude
-from .starphot import aperture_correction, measure_star_fluxes
+from .starphot import aperture_correction, aperture_correction_error, measure_star_fluxes
 from .zeropoint import fit_zero_point
 
 __all__ = ["SOLAR_COLOURS", "measure_comet_frame"]
@@ -248,8 +248,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     that Afρ does not fall in small apertures; when that fit is missing or implausible, a Moffat
     β = 3 of the measured FWHM stands in (flag ``psf_fallback``). The field stars are measured
     after the median in rings about the comet is taken out (`azimuthal_median_model`), so that
-    on a small frame their annuli do not miss the coma under them.
-    Airmass is the header's AIRMASS when present;
+    on a small frame their annuli do not miss the coma under them; the zero point's error holds
+    the aperture correction's. Airmass is the header's AIRMASS when present;
     otherwise, given ``site``, it is computed from the mid-exposure time and the comet's position
     (`frame_airmass`) and the rows carry ``airmass_computed``; otherwise NaN.
 
@@ -410,6 +410,13 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
                                                            f_small_err[usable])
     if not np.isfinite(apcorr):
         apcorr = 1.0
+    f_big_err = np.asarray(phot[f"flux_err_{k_big}"], float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio_err = np.hypot(f_small_err / f_small, f_big_err / f_big)[usable]
+        snr_u = (f_small / f_small_err)[usable]
+    # aperture_correction takes the n_apcorr stars of highest signal-to-noise
+    ratio_err = ratio_err[np.argsort(-snr_u, kind="stable")][:n_apcorr]
+    apcorr_err = aperture_correction_error(apcorr_scatter, n_apcorr, ratio_err)
     details["aperture_correction_scatter"] = apcorr_scatter
     star_annulus = (5.0 * fwhm, 8.0 * fwhm)
     psf_model, psf_optical = None, False
@@ -441,7 +448,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     zp, used_sub, resid_sub = fit_zero_point(
         inst[usable], inst_err[usable], ref_mag[matched_ref][usable],
         ref_mag_err[matched_ref][usable], ref_col[matched_ref][usable],
-        fit_colour_term=use_colour, band=band, colour_name=colour, aperture_correction=apcorr)
+        fit_colour_term=use_colour, band=band, colour_name=colour, aperture_correction=apcorr,
+        aperture_correction_err=apcorr_err)
     if zp.n_stars < min_stars:
         _flag(flags, messages, "few_stars", f"{zp.n_stars} < {min_stars}")
     used = np.zeros(len(det_m), bool)

@@ -18,7 +18,7 @@ from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
 from photutils.aperture import CircularAnnulus, CircularAperture, aperture_photometry
 
-__all__ = ["measure_star_fluxes", "aperture_correction"]
+__all__ = ["measure_star_fluxes", "aperture_correction", "aperture_correction_error"]
 
 
 def measure_star_fluxes(data, variance, mask, x, y, *, radii, annulus):
@@ -152,3 +152,44 @@ def aperture_correction(flux_small, flux_large, flux_err_small, *, min_snr=50.0,
     med = float(np.median(r))
     scatter = float(1.4826 * np.median(np.abs(r - med)) / med)
     return med, scatter, len(chosen)
+
+
+def aperture_correction_error(scatter, n_used, ratio_errors=()):
+    """Relative uncertainty of the median aperture correction.
+
+    Parameters
+    ----------
+    scatter : float
+        Robust scatter of the stars' ratios, as a fraction (from `aperture_correction`).
+    n_used : int
+        Stars the median was taken over.
+    ratio_errors : array-like, optional
+        Relative errors of the single stars' ratios; their median stands in for the scatter when
+        it is larger (a scatter measured on one or two stars says nothing).
+
+    Returns
+    -------
+    error : float
+        σ_c / c; NaN when no star was used.
+
+    Notes
+    -----
+    The standard error of a median of n normal values is sqrt(π/2) σ / sqrt(n) ≈ 1.2533 σ / √n
+    (e.g. Kendall & Stuart, The Advanced Theory of Statistics; from memory). The correction
+    multiplies every star's flux, so its error is common to all stars of the frame and does not
+    average down in the zero-point fit: it adds in quadrature to the zero point's error.
+
+    Examples
+    --------
+    >>> round(aperture_correction_error(0.04, 16), 6)
+    0.012533
+    >>> round(aperture_correction_error(0.0, 1, [0.05]), 6)   # one star: its own error
+    0.062666
+    """
+    if n_used < 1:
+        return float("nan")
+    errs = np.asarray(ratio_errors, dtype=float)
+    errs = errs[np.isfinite(errs)]
+    sigma = max(float(scatter) if np.isfinite(scatter) else 0.0,
+                float(np.median(errs)) if errs.size else 0.0)
+    return float(np.sqrt(np.pi / 2.0) * sigma / np.sqrt(n_used))

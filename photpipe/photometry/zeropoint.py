@@ -29,6 +29,8 @@ class ZeroPoint:
         Catalogue band and colour index.
     aperture_correction : float
         Curve-of-growth factor applied to the star fluxes.
+    aperture_correction_err : float
+        Its relative uncertainty (included in ``zp_err``).
     """
 
     zp: float
@@ -42,6 +44,7 @@ class ZeroPoint:
     band: str = ""
     colour: str = ""
     aperture_correction: float = 1.0
+    aperture_correction_err: float = 0.0
 
     def to_dict(self):
         """Return the fields as a plain dict."""
@@ -58,7 +61,7 @@ def _weighted_fit(y, w, colour, fit_colour):
 
 def fit_zero_point(inst_mag, inst_err, cat_mag, cat_err, colour, *, fit_colour_term=False,
                    clip_sigma=3.0, max_iter=5, error_floor=0.01, band="", colour_name="",
-                   aperture_correction=1.0):
+                   aperture_correction=1.0, aperture_correction_err=0.0):
     """Sigma-clipped, weighted least-squares zero point (and optional colour term).
 
     Parameters
@@ -82,6 +85,9 @@ def fit_zero_point(inst_mag, inst_err, cat_mag, cat_err, colour, *, fit_colour_t
         Recorded in the result.
     aperture_correction : float, optional
         Recorded in the result.
+    aperture_correction_err : float, optional
+        Relative uncertainty of the aperture correction. It scales every star alike, so it adds
+        in quadrature to the zero point's error, 2.5 / ln 10 × σ_c / c (mag).
 
     Returns
     -------
@@ -148,11 +154,13 @@ def fit_zero_point(inst_mag, inst_err, cat_mag, cat_err, colour, *, fit_colour_t
     chi2_red = float(np.sum(residual[used] ** 2 / var[used]) / dof) if dof > 0 else float("nan")
     inflate = max(1.0, chi2_red) if np.isfinite(chi2_red) else 1.0
     err = np.sqrt(np.diag(cov) * inflate)
+    apcorr_err = float(aperture_correction_err) if np.isfinite(aperture_correction_err) else 0.0
     zp = ZeroPoint(
-        zp=float(beta[0]), zp_err=float(err[0]),
+        zp=float(beta[0]), zp_err=float(np.hypot(err[0], 2.5 / np.log(10.0) * apcorr_err)),
         colour_term=float(beta[1]) if fit_colour else 0.0,
         colour_term_err=float(err[1]) if fit_colour else float("nan"),
         n_stars=n, n_rejected=int(np.count_nonzero(finite) - n),
         rms=float(np.sqrt(np.mean(residual[used] ** 2))), chi2_red=chi2_red,
-        band=band, colour=colour_name, aperture_correction=float(aperture_correction))
+        band=band, colour=colour_name, aperture_correction=float(aperture_correction),
+        aperture_correction_err=apcorr_err)
     return zp, used, residual

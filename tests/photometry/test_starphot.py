@@ -90,3 +90,18 @@ def test_empty():
     t = measure_star_fluxes(np.zeros((10, 10)), np.ones((10, 10)), np.zeros((10, 10), bool),
                             [], [], radii=[2.0], annulus=(3.0, 4.0))
     assert len(t) == 0 and "flux_0" in t.colnames
+
+
+def test_aperture_correction_error_is_the_error_of_a_median():
+    # oracle: simulation. The median of n normal values scatters by sqrt(π/2) σ / √n for large n
+    # (asymptotic variance of the sample median, 1 / (4 n f(m)²); common practice)
+    from photpipe.photometry import aperture_correction_error
+
+    rng = np.random.default_rng(2)
+    n, sigma = 25, 0.04
+    medians = np.median(1.05 + sigma * rng.standard_normal((20000, n)), axis=1)
+    assert aperture_correction_error(sigma / 1.05, n) == pytest.approx(np.std(medians) / 1.05,
+                                                                rel=0.06)
+    # one or two stars: their own errors, not a scatter of nothing
+    assert aperture_correction_error(0.0, 1, [0.03]) == pytest.approx(np.sqrt(np.pi / 2) * 0.03)
+    assert np.isnan(aperture_correction_error(0.01, 0))

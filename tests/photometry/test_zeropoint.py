@@ -46,3 +46,16 @@ def test_to_dict():
     zp, _, _ = fit_zero_point([-10.0, -11.0], [0.01, 0.01], [15.0, 14.0], [0, 0], [0, 0],
                               band="R")
     assert zp.to_dict()["band"] == "R"
+
+
+def test_aperture_correction_error_adds_in_quadrature():
+    # the correction scales every star alike, so its error does not average down:
+    # σ_zp² = σ_fit² + (2.5 / ln 10 · σ_c / c)² (propagation of errors, common practice)
+    inst = np.array([-10.0, -11.0, -12.0, -9.0])
+    args = (inst, np.full(4, 0.01), inst + 25.0, np.zeros(4), np.zeros(4))
+    plain, _, _ = fit_zero_point(*args)
+    with_ap, _, _ = fit_zero_point(*args, aperture_correction_err=0.02)
+    assert with_ap.zp == plain.zp
+    assert with_ap.zp_err == pytest.approx(np.hypot(plain.zp_err, 2.5 / np.log(10) * 0.02),
+                                           rel=1e-12)
+    assert with_ap.aperture_correction_err == 0.02
