@@ -1,35 +1,21 @@
 import json
+import sys
+from pathlib import Path
 
 import pytest
 
-from photpipe.activity.synthetic import simulate_campaign_tables
 from photpipe.campaign.activity_settings import activity_settings
 from photpipe.campaign.config import ConfigError, load_config
-from photpipe.campaign.report_step import run_report_stage
 from photpipe.cli import report as cli_report
 from photpipe.cli.main import main
 
-
-def _campaign(tmp_path, activity="outburst_sigma = 5.0\n", write_tables=True, elong_limit=45.0):
-    meas, nuc, sim = simulate_campaign_tables(seed=1, frames_per_night=2, outburst_night=12,
-                                              outburst_mag=-1.2)
-    results = tmp_path / "results"
-    results.mkdir()
-    if write_tables:
-        meas.write(results / "measurements.ecsv")
-        nuc.write(results / "nucleus.ecsv")
-    cfg = tmp_path / "campaign.toml"
-    cfg.write_text(
-        '[campaign]\nname = "Invented comet, test"\nresults = "results"\n'
-        '[[night]]\npath = "night1"\n'
-        f'[target.orbit]\nperihelion_time = "{sim.perihelion_time.tdb.isot}"\n'
-        f"[geometry]\ncaution_elongation_deg = {elong_limit}\n"
-        f"[activity]\n{activity}", encoding="utf-8")
-    return cfg, results, meas, nuc, sim
+# tests/ on the path (tests/cli is not a package) for the helpers shared with tests/campaign
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from campaign._step_inputs import write_report_campaign  # noqa: E402
 
 
 def test_report_command_writes_page_and_activity(tmp_path, capsys):
-    cfg, results, _, _, sim = _campaign(tmp_path)
+    cfg, results, _, _, sim = write_report_campaign(tmp_path)
     (results / "rotation.json").write_text(json.dumps(
         {"period_h": 7.3, "period_err_h": 0.02, "amplitude_mag": 0.3, "method": "fourier"}))
     assert main(["report", str(cfg)]) == 0
@@ -46,7 +32,7 @@ def test_report_command_writes_page_and_activity(tmp_path, capsys):
 
 
 def test_report_output_option(tmp_path, capsys):
-    cfg, results, *_ = _campaign(tmp_path, elong_limit=10.0)
+    cfg, results, *_ = write_report_campaign(tmp_path, elong_limit=10.0)
     target = tmp_path / "elsewhere.html"
     assert main(["report", str(cfg), "--output", str(target)]) == 0
     assert target.is_file()
@@ -55,7 +41,7 @@ def test_report_output_option(tmp_path, capsys):
 
 
 def test_per_night_tables_are_gathered(tmp_path, capsys):
-    cfg, results, meas, nuc, _ = _campaign(tmp_path, write_tables=False)
+    cfg, results, meas, nuc, _ = write_report_campaign(tmp_path, write_tables=False)
     half = len(meas) // 2 - (len(meas) // 2) % 3
     for i, part in enumerate((slice(0, half), slice(half, None))):
         night = results / f"night{i}"
@@ -67,7 +53,7 @@ def test_per_night_tables_are_gathered(tmp_path, capsys):
 
 
 def test_no_measurements(tmp_path, capsys):
-    cfg, *_ = _campaign(tmp_path, write_tables=False)
+    cfg, *_ = write_report_campaign(tmp_path, write_tables=False)
     assert main(["report", str(cfg)]) == cli_report.NO_DATA
     assert "no measurements under" in capsys.readouterr().err
 
@@ -86,45 +72,8 @@ def test_no_measurements(tmp_path, capsys):
     ],
 )
 def test_bad_activity_settings(tmp_path, capsys, activity, match):
-    cfg, *_ = _campaign(tmp_path, activity=activity)
+    cfg, *_ = write_report_campaign(tmp_path, activity=activity)
     assert main(["report", str(cfg)]) == cli_report.CONFIG_PROBLEM
     assert match in capsys.readouterr().err
     with pytest.raises(ConfigError, match=match.replace("[", r"\[").replace("]", r"\]")):
         activity_settings(load_config(cfg))
-
-
-def test_run_stage_accepts_a_store(tmp_path):
-    cfg, results, meas, nuc, _ = _campaign(tmp_path)
-
-    # The store exports times as plain MJD numbers, without a unit.
-    meas["mjd_utc_mid"] = meas["mjd_utc_mid"].value
-    nuc["mjd_utc_mid"] = nuc["mjd_utc_mid"].value
-
-    class FakeStore:
-        path = "fake.sqlite"
-
-        def export_table(self, name):
-            return {"measurements": meas, "nucleus": nuc}[name]
-
-    path = run_report_stage(load_config(cfg), FakeStore(), results)
-    assert path == results / "report.html"
-    assert "campaign store fake.sqlite" in path.read_text(encoding="utf-8")
-
-
-def test_flagged_rows_left_out(tmp_path):
-    cfg, results, meas, nuc, _ = _campaign(tmp_path)
-    meas["flags"][:30] = "upper_limit"
-    path = run_report_stage(load_config(cfg), meas, nuc, {}, results)
-    assert "30 measurement rows flagged upper_limit, saturated were left out" in \
-        path.read_text(encoding="utf-8")
-
-
-def test_empty_store_gives_a_page_that_says_so(tmp_path):
-    from photpipe.campaign.store import CampaignStore
-
-    cfg, results, *_ = _campaign(tmp_path, write_tables=False)
-    with CampaignStore(results / "campaign.sqlite") as store:
-        path = run_report_stage(load_config(cfg), store, results)
-    page = path.read_text(encoding="utf-8")
-    assert "No measurements were found, so there is no activity trend yet." in page
-    assert not (results / "activity.json").exists()

@@ -1,70 +1,24 @@
 import argparse
 import json
-import re
+import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
 from astropy import units as u
-from astropy.table import QTable
 
-from photpipe.campaign.config import ConfigError, load_config
-from photpipe.campaign.size_step import run_size_stage
 from photpipe.cli import size as size_cli
 from photpipe.size import diameter_from_H
 
-DEMO = Path(__file__).resolve().parents[2] / "configs" / "demo.toml"
-H_TRUE, PERIOD_H = 14.0, 5.4  # synthetic nucleus (same form as the demo scenario's)
-
-
-def make_lightcurve(n=80, seed=3, flags=None):
-    rng = np.random.default_rng(seed)
-    mjd = 61010.0 + np.sort(rng.uniform(0, 3, n))
-    rh = 1.3 + 0.01 * (mjd - 61010)
-    de = 0.8 + 0.02 * (mjd - 61010)
-    ph = 35 + 0.5 * (mjd - 61010)
-    light_time = de * 499.004784  # s per AU (IAU 2012 B2 au / c)
-    rot = 2 * np.pi * (mjd - light_time / 86400 - 61010) * 24 / PERIOD_H
-    m = H_TRUE + 5 * np.log10(rh * de) + 0.035 * ph + 0.15 * np.cos(2 * rot)
-    m = m + rng.normal(0, 0.02, n)
-    return QTable({
-        "frame": [f"sci_{i:04d}" for i in range(n)], "mjd_utc_mid": mjd,
-        "nucleus_mag": m * u.mag, "nucleus_mag_err": np.full(n, 0.02) * u.mag,
-        "r_h_au": rh * u.au, "delta_au": de * u.au, "phase_deg": ph * u.deg,
-        "light_time_s": light_time * u.s, "site": ["kettle_rock"] * n, "filter": ["R"] * n,
-        "source": ["fit"] * n, "flags": flags if flags is not None else [""] * n})
-
-
-def write_config(tmp_path, size_lines):
-    text = f"""
-[campaign]
-name = "test"
-results = "{tmp_path / 'results'}"
-[[night]]
-path = "nowhere"
-[photometry]
-band = "R"
-[rotation]
-phase_coefficient_mag_per_deg = 0.035
-[size]
-{size_lines}
-"""
-    path = tmp_path / "c.toml"
-    path.write_text(text)
-    (tmp_path / "results").mkdir(exist_ok=True)
-    return path
-
-
-FULL_SIZE = """albedo = 0.04
-albedo_range = [0.02, 0.06]
-density_range_g_cm3 = [0.3, 1.0]
-mass_loss_kg_s = 150.0
-outflow_speed_m_s = 440.0
-nongrav_accel_limit_m_day2 = 15.0
-momentum_efficiency = 1.0
-composition = {H2O = 0.7, CO2 = 0.3}
-n_samples = 20000
-"""
+# tests/ on the path (tests/cli is not a package) for the helpers shared with tests/campaign
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from campaign._step_inputs import (  # noqa: E402
+    FULL_SIZE,
+    H_TRUE,
+    PERIOD_H,
+    make_lightcurve,
+    write_size_config,
+)
 
 
 def run_cli(argv):
@@ -74,7 +28,7 @@ def run_cli(argv):
 
 
 def test_writes_size_json_and_prints_summary(tmp_path, capsys):
-    cfg = write_config(tmp_path, FULL_SIZE)
+    cfg = write_size_config(tmp_path, FULL_SIZE)
     make_lightcurve().write(tmp_path / "results" / "lightcurve.ecsv")
     assert run_cli([str(cfg)]) == 0
     out = capsys.readouterr().out
@@ -94,7 +48,7 @@ def test_writes_size_json_and_prints_summary(tmp_path, capsys):
 
 
 def test_rotation_period_switches_to_harmonic_mean(tmp_path):
-    cfg = write_config(tmp_path, FULL_SIZE)
+    cfg = write_size_config(tmp_path, FULL_SIZE)
     make_lightcurve().write(tmp_path / "results" / "lightcurve.ecsv")
     (tmp_path / "results" / "rotation.json").write_text(json.dumps(
         {"period_h": PERIOD_H, "amplitude_mag": 0.30}))
@@ -103,21 +57,6 @@ def test_rotation_period_switches_to_harmonic_mean(tmp_path):
     assert data["H_method"] == "harmonic"
     assert data["H_mag"] == pytest.approx(H_TRUE - 0.005, abs=3 * data["H_err_mag"] + 0.002)
     assert any("amplitude 0.3 mag" in a for a in data["assumptions"])
-
-
-def test_demo_config_size_section(tmp_path):
-    config = load_config(DEMO)
-    out = run_size_stage(config, make_lightcurve(), tmp_path)
-    assert Path(out["path"]).is_file()
-    assert out["albedo"] == 0.04 and out["composition"] == {"H2O": 0.7, "CO2": 0.3}
-    assert out["bound_consistent"] is True
-
-
-def test_upper_limits_are_left_out(tmp_path):
-    flags = ["upper_limit"] * 30 + [""] * 50
-    out = run_size_stage(load_config(write_config(tmp_path, FULL_SIZE)),
-                                  make_lightcurve(flags=flags), tmp_path / "results")
-    assert out["n_points"] == 50
 
 
 @pytest.mark.parametrize("line, message", [
@@ -135,21 +74,21 @@ def test_upper_limits_are_left_out(tmp_path):
     pytest.param("albedo = \"dark\"", "[size] albedo must be a number", id="albedo-text"),
 ])
 def test_bad_config_values(tmp_path, capsys, line, message):
-    cfg = write_config(tmp_path, line)
+    cfg = write_size_config(tmp_path, line)
     make_lightcurve().write(tmp_path / "results" / "lightcurve.ecsv")
     assert run_cli([str(cfg)]) == 2  # a configuration problem, as for every command
     assert message in capsys.readouterr().err
 
 
 def test_no_lightcurve_behind_h(tmp_path, capsys):
-    cfg = write_config(tmp_path, FULL_SIZE)
+    cfg = write_size_config(tmp_path, FULL_SIZE)
     assert run_cli([str(cfg)]) == 1
     assert "an H needs a lightcurve behind it" in capsys.readouterr().err
     assert not (tmp_path / "results" / "size.json").exists()
 
 
 def test_lightcurve_without_usable_rows(tmp_path, capsys):
-    cfg = write_config(tmp_path, FULL_SIZE)
+    cfg = write_size_config(tmp_path, FULL_SIZE)
     lc = make_lightcurve(n=5)
     lc["nucleus_mag"] = np.full(5, np.nan) * u.mag
     path = tmp_path / "elsewhere.ecsv"
@@ -160,25 +99,8 @@ def test_lightcurve_without_usable_rows(tmp_path, capsys):
 
 
 def test_broken_lightcurve_file(tmp_path, capsys):
-    cfg = write_config(tmp_path, FULL_SIZE)
+    cfg = write_size_config(tmp_path, FULL_SIZE)
     path = tmp_path / "results" / "lightcurve.ecsv"
     path.write_text("# %ECSV 1.0\n# ---\nnot a table\x00")
     assert run_cli([str(cfg)]) == 1
     assert "cannot read the lightcurve" in capsys.readouterr().err
-
-
-def test_stage_refuses_missing_table_and_columns(tmp_path):
-    config = load_config(write_config(tmp_path, FULL_SIZE))
-    with pytest.raises(ValueError, match="an H needs a lightcurve behind it"):
-        run_size_stage(config, None, tmp_path)
-    lc = make_lightcurve()
-    lc.remove_column("nucleus_mag_err")
-    with pytest.raises(ValueError, match=re.escape("lacks column(s) ['nucleus_mag_err']")):
-        run_size_stage(config, lc, tmp_path)
-
-
-def test_two_acceleration_units_refused(tmp_path):
-    config = load_config(write_config(
-        tmp_path, FULL_SIZE + "nongrav_accel_limit_m_s2 = 1e-9\n"))
-    with pytest.raises(ConfigError, match="give one acceleration limit"):
-        run_size_stage(config, make_lightcurve(), tmp_path)

@@ -1,0 +1,41 @@
+from photpipe.campaign.config import load_config
+from photpipe.campaign.report_step import run_report_stage
+
+from ._step_inputs import write_report_campaign
+
+
+def test_run_stage_accepts_a_store(tmp_path):
+    cfg, results, meas, nuc, _ = write_report_campaign(tmp_path)
+
+    # The store exports times as plain MJD numbers, without a unit.
+    meas["mjd_utc_mid"] = meas["mjd_utc_mid"].value
+    nuc["mjd_utc_mid"] = nuc["mjd_utc_mid"].value
+
+    class FakeStore:
+        path = "fake.sqlite"
+
+        def export_table(self, name):
+            return {"measurements": meas, "nucleus": nuc}[name]
+
+    path = run_report_stage(load_config(cfg), FakeStore(), results)
+    assert path == results / "report.html"
+    assert "campaign store fake.sqlite" in path.read_text(encoding="utf-8")
+
+
+def test_flagged_rows_left_out(tmp_path):
+    cfg, results, meas, nuc, _ = write_report_campaign(tmp_path)
+    meas["flags"][:30] = "upper_limit"
+    path = run_report_stage(load_config(cfg), meas, nuc, {}, results)
+    assert "30 measurement rows flagged upper_limit, saturated were left out" in \
+        path.read_text(encoding="utf-8")
+
+
+def test_empty_store_gives_a_page_that_says_so(tmp_path):
+    from photpipe.campaign.store import CampaignStore
+
+    cfg, results, *_ = write_report_campaign(tmp_path, write_tables=False)
+    with CampaignStore(results / "campaign.sqlite") as store:
+        path = run_report_stage(load_config(cfg), store, results)
+    page = path.read_text(encoding="utf-8")
+    assert "No measurements were found, so there is no activity trend yet." in page
+    assert not (results / "activity.json").exists()
