@@ -1,17 +1,12 @@
 import json
-import sys
-from pathlib import Path
 
 import pytest
+from campaign._step_inputs import write_report_campaign
 
 from photpipe.campaign.activity_settings import activity_settings
 from photpipe.campaign.config import ConfigError, load_config
 from photpipe.cli import report as cli_report
 from photpipe.cli.main import main
-
-# tests/ on the path (tests/cli is not a package) for the helpers shared with tests/campaign
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from campaign._step_inputs import write_report_campaign  # noqa: E402
 
 
 def test_report_command_writes_page_and_activity(tmp_path, capsys):

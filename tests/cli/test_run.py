@@ -1,4 +1,3 @@
-import importlib.util
 import os
 import signal
 import sqlite3
@@ -9,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from campaign import _nights as nights  # tests/ is on the path (pyproject pythonpath)
 
 from photpipe.campaign import CampaignStore
 from photpipe.cli.main import main
@@ -16,15 +16,6 @@ from photpipe.cli.main import main
 ROOT = Path(__file__).resolve().parents[2]
 
 
-def _load(name):
-    spec = importlib.util.spec_from_file_location(f"_campaign_{name}",
-                                                  ROOT / "tests" / "campaign" / f"{name}.py")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
-nights = _load("_nights")
 
 def _measured(store):
     if not store.exists():

@@ -1,24 +1,19 @@
 import argparse
 import json
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
 from astropy import units as u
-
-from photpipe.cli import size as size_cli
-from photpipe.size import diameter_from_H
-
-# tests/ on the path (tests/cli is not a package) for the helpers shared with tests/campaign
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from campaign._step_inputs import (  # noqa: E402
+from campaign._step_inputs import (
     FULL_SIZE,
     H_TRUE,
     PERIOD_H,
     make_lightcurve,
     write_size_config,
 )
+
+from photpipe.cli import size as size_cli
+from photpipe.size import diameter_from_H
 
 
 def run_cli(argv):
