@@ -87,7 +87,7 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ra
     var = np.pad(var, pad, mode="symmetric").astype(np.float32)
     padmask = np.pad(bad, pad, mode="symmetric")
     mask = laplacian_cosmics(clean, var, padmask, **opts)
-    mask = np.asarray(mask, dtype=bool)[pad:-pad, pad:-pad] if pad else np.asarray(mask, bool)
+    mask = mask[pad:-pad, pad:-pad] if pad else mask
     mask &= ~bad
     if star_ratio is not None and star_ratio > 0:
         mask = _drop_star_like(mask, np.where(bad, np.nan, data), star_ratio)
