@@ -164,7 +164,6 @@ class TaskRunner:
         self.scheduler = scheduler
         self.progress = progress
         self.connect_timeout = float(connect_timeout)
-        self.peak_memory_mb = {}
         self.memory_track = {}
         self.task_seconds = []
         self.task_cpu_seconds = []
@@ -173,6 +172,11 @@ class TaskRunner:
         self.bytes_received = 0
         self._client = None
         self._cluster = None
+
+    @property
+    def peak_memory_mb(self):
+        """Peak resident memory of each worker process (pid -> MB) over the tasks run."""
+        return {pid: max(track) for pid, track in self.memory_track.items()}
 
     @property
     def description(self):
@@ -327,8 +331,6 @@ class TaskRunner:
         for text in outcome.warnings:
             log.warning("%s: %s", name, text)
         if outcome.pid:
-            self.peak_memory_mb[outcome.pid] = max(self.peak_memory_mb.get(outcome.pid, 0.0),
-                                                   outcome.peak_rss_mb)
             self.memory_track.setdefault(outcome.pid, []).append(outcome.peak_rss_mb)
             self.task_seconds.append(outcome.seconds)
             self.task_cpu_seconds.append(outcome.cpu_seconds)
