@@ -173,8 +173,12 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     """The measurement rows with the coma's own Afρ beside the totals' (the nucleus taken out)."""
     if len(comet) == 0:
         return comet
-    # an undetected nucleus (flux at or below zero) takes nothing out
-    flux = np.clip(fit.nucleus_flux_e_s, 0.0, None) * u.electron / u.s
+    # the fitted flux (not a limit) is taken out, none when at or below zero; a nucleus left
+    # out (core unusable) leaves the coma's own light unknown
+    if not np.isfinite(fit.nucleus_flux_e):
+        msg = f"the nucleus was left out ({','.join(fit.flags)})"
+        raise ValueError(msg)
+    flux = max(fit.nucleus_flux_e, 0.0) / fit.exptime_s * u.electron / u.s
     flux_err = fit.nucleus_flux_err_e / fit.exptime_s * u.electron / u.s
     coma = stage_function("nucleus", "coma_only_afrho")(comet, flux, fit.psf,
                                                           pixel_scale=pixel_scale,
@@ -242,6 +246,18 @@ def _seed(text):
     return int(hashlib.sha256(text.encode()).hexdigest()[:16], 16)
 
 
+def _exposure_trails(wcs, geometry_row, frame, tracking):
+    """The comet's and the stars' motion during the exposure, pixels (none without a rate)."""
+    from photpipe.nucleus import exposure_trails
+
+    if geometry_row is None or "ra_rate" not in geometry_row.colnames:
+        return (0.0, 0.0), (0.0, 0.0)
+    row = geometry_row[0]
+    return exposure_trails(wcs, u.Quantity(row["ra"]), u.Quantity(row["dec"]),
+                           u.Quantity(row["ra_rate"]), u.Quantity(row["dec_rate"]),
+                           frame.info.exptime, tracking=tracking)
+
+
 def _run_nucleus(frame, photometry, item, shared):
     options = dict(shared.get("nucleus", {}))
     comet = photometry.comet
@@ -262,11 +278,13 @@ def _run_nucleus(frame, photometry, item, shared):
     fwhm_pix = photometry.details.get("fwhm_pix")
     if fwhm_pix is not None and np.isfinite(fwhm_pix):
         psf_options.setdefault("fallback_fwhm", float(fwhm_pix))
+    trails = _exposure_trails(photometry.wcs or frame.wcs, item.get("geometry"), frame,
+                              options.pop("tracking", "sidereal"))
     psf = stage_function("nucleus", "measure_psf")(frame, star_xy, exclude_xy=(x0, y0),
-                                                    **psf_options)
+                                                    star_trail=trails[1], **psf_options)
     zp = photometry.zero_point
     fit = stage_function("nucleus", "fit_nucleus")(
         frame, x0, y0, psf, pixel_scale=pixel_scale, zero_point=zp.zp,
-        zero_point_err=zp.zp_err, star_xy=star_xy,
+        zero_point_err=zp.zp_err, star_xy=star_xy, comet_trail=trails[0], star_trail=trails[1],
         rng=np.random.default_rng(_seed(item["content_hash"])), **options)
     return fit, pixel_scale

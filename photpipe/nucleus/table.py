@@ -4,7 +4,7 @@ import numpy as np
 from astropy import units as u
 from astropy.table import QTable
 
-from .fit import NUCLEUS_COLUMNS
+from .result import NUCLEUS_COLUMNS
 
 __all__ = ["nucleus_table"]
 

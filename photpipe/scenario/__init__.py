@@ -4,6 +4,8 @@ Tests use it to check that each stage recovers known values; ``sample_frames/`` 
 with it (see :mod:`photpipe.scenario.demo`).
 """
 
+from .cases import *  # noqa: F401,F403
+from .cases import __all__ as _cases_all
 from .comet import *  # noqa: F401,F403
 from .comet import __all__ as _comet_all
 from .instrument import *  # noqa: F401,F403
@@ -17,4 +19,5 @@ from .render import __all__ as _render_all
 from .stars import *  # noqa: F401,F403
 from .stars import __all__ as _stars_all
 
-__all__ = (_comet_all + _instrument_all + _night_all + _psf_all + _render_all + _stars_all)
+__all__ = (_cases_all + _comet_all + _instrument_all + _night_all + _psf_all + _render_all
+           + _stars_all)
