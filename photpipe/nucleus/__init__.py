@@ -16,9 +16,9 @@ from .fit import __all__ as _fit_all
 from .models import *  # noqa: F403
 from .models import __all__ as _models_all
 from .moffat import *  # noqa: F403
+from .moffat import __all__ as _moffat_all
 from .motion import *  # noqa: F403
 from .motion import __all__ as _motion_all
-from .moffat import __all__ as _moffat_all
 from .plot import *  # noqa: F403
 from .plot import __all__ as _plot_all
 from .profile import *  # noqa: F403
@@ -30,5 +30,5 @@ from .result import __all__ as _result_all
 from .table import *  # noqa: F403
 from .table import __all__ as _table_all
 
-__all__ = (_coma_all + _coma_afrho_all + _fisher_all + _fit_all + _models_all + _moffat_all + _motion_all
-           + _plot_all + _profile_all + _psf_all + _result_all + _table_all)
+__all__ = (_coma_all + _coma_afrho_all + _fisher_all + _fit_all + _models_all + _moffat_all
+           + _motion_all + _plot_all + _profile_all + _psf_all + _result_all + _table_all)

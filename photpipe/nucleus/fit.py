@@ -151,8 +151,11 @@ def _start_position(frame, x0, y0, psf, star_xy, opt):
     """
     r = int(np.ceil(opt.search_radius + 2 * psf.fwhm_pix))
     box = cut_comet_box(frame, x0, y0, 2 * r + 1, star_radius=0.0, keep_radius=0.0)
-    avoid = [] if star_xy is None else [(sx - box.x_origin, sy - box.y_origin)
-                                        for sx, sy in np.asarray(star_xy, float).reshape(-1, 2)]
+    # a catalogued star on the start itself is not avoided: the box flags it (star_near_nucleus)
+    avoid = [] if star_xy is None else [
+        (sx - box.x_origin, sy - box.y_origin)
+        for sx, sy in np.asarray(star_xy, float).reshape(-1, 2)
+        if np.hypot(sx - x0, sy - y0) > 2.0 * psf.fwhm_pix]
     xs, ys = find_peak(box.data, box.good, x0 - box.x_origin, y0 - box.y_origin,
                        radius=opt.search_radius, fwhm=max(psf.fwhm_pix, 1.0),
                        avoid_xy=avoid, avoid_radius=2.0 * psf.fwhm_pix)

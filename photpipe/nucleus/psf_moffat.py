@@ -11,6 +11,7 @@ __all__ = ["fit_moffat_shape", "shape_from_q", "trail_points"]
 
 
 def shape_from_q(q1, q2):
+    """Ellipticity and major-axis angle (radians) from q = e (cos 2θ, sin 2θ)."""
     e = float(np.hypot(q1, q2))
     angle = 0.5 * float(np.arctan2(q2, q1))
     return e, angle

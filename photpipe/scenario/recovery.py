@@ -35,6 +35,8 @@ def robust_sigma(values):
 def fit_case_frame(cf, *, cutout=81, **options):
     """Measure the PSF and fit the nucleus of one `CaseFrame` as the campaign does.
 
+    The PSF is the Moffat alone: the cases' stars are Moffat profiles, so the ePSF could only
+    fit noise, and building it (photutils, 5-30 s on some frames) would dominate the run.
     The stars' trail, the comet's rate and the exposure time go in when the fitter takes them.
     Returns the `~photpipe.nucleus.NucleusFit` (or the exception's text as a string).
     """
@@ -50,7 +52,8 @@ def fit_case_frame(cf, *, cutout=81, **options):
         warnings.simplefilter("ignore", PoorResultWarning)
         try:
             psf = measure_psf(cf.frame, cf.star_xy, exclude_xy=(cf.x_start, cf.y_start),
-                              exclude_radius=20.0, fallback_fwhm=cf.fwhm_pix, **psf_kw)
+                              exclude_radius=20.0, fallback_fwhm=cf.fwhm_pix,
+                              methods=("moffat",), **psf_kw)
             return fit_nucleus(cf.frame, cf.x_start, cf.y_start, psf,
                                pixel_scale=cf.pixel_scale_arcsec * u.arcsec / u.pix,
                                cutout=cutout, star_xy=cf.star_xy, profile=False,

@@ -101,8 +101,10 @@ def test_position_at_bound_and_no_convergence_are_flagged(oracle, make_frame):
     frame = make_frame(_signal(oracle, flux=3e4, k=100.0), np.random.default_rng(2))
     with pytest.warns(PoorResultWarning, match="fit_at_bound"):
         fit = fit_nucleus(frame, 58.5, 60.0, PSF, pixel_scale=SCALE, gamma=1.0, bootstrap=0,
-                          max_shift=0.5)
-    assert "fit_at_bound" in fit.flags
+                          max_shift=0.5, search_radius=0.0)
+    # a centre held off the nucleus cannot give its flux: the value is a limit
+    assert "fit_at_bound" in fit.flags and fit.is_upper_limit
+    assert fit.upper_limit_e > fit.nucleus_flux_e
     with pytest.warns(PoorResultWarning, match="no_convergence"):
         fit = fit_nucleus(frame, 59.0, 61.0, PSF, pixel_scale=SCALE, gamma="free",
                           bootstrap=0, max_nfev=3)
