@@ -329,7 +329,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
     Parameters
     ----------
     config : dict
-        As returned by :func:`photpipe.campaign.config.load_config`.
+        As returned by :func:`photpipe.config.load_config`.
     workers : int, optional
         Local worker processes (default ``[run] workers``, else 1; 0 runs in this process).
     scheduler : str, optional
