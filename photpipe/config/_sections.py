@@ -166,8 +166,8 @@ NUCLEUS = Section("nucleus", (
         "limit", low=0.0),
     Key("profile", "boolean", True, "also fit the 1-D radial profile as a check"),
     Key("tracking", "text", "sidereal", '"sidereal": the comet trails; "comet": the stars '
-        "trail (the motion is the orbit's rate times the exposure)",
-        choices=("sidereal", "comet")),
+        "trail (the orbit's rate times the exposure); \"none\": motion not modelled",
+        choices=("sidereal", "comet", "none")),
     Key("psf_cutout_pix", "integer", 25, "side of the star stamps of the PSF", unit="pix",
         low=3, low_open=False),
     Key("psf_min_stars", "integer", 5, "fewest stars for a measured PSF", low=1,

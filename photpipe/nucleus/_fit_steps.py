@@ -102,6 +102,7 @@ def core_bad_share(good, x0, y0, radius):
 
 #: Resamples of the PSF stars for the PSF part of the nucleus error.
 PSF_RESAMPLES = 24
+_MEDIAN_EFFICIENCY = 1.2533
 
 
 def psf_shape_error(solve_flux, psf, *, n_resample=PSF_RESAMPLES, fallback_fwhm_share=0.1,
@@ -110,10 +111,11 @@ def psf_shape_error(solve_flux, psf, *, n_resample=PSF_RESAMPLES, fallback_fwhm_
 
     ``solve_flux(psf) -> float`` refits the amplitudes (nucleus, coma, sky) with the centre and
     γ held at the best fit. When the star-by-star Moffat fits are known (``psf.star_shapes``),
-    the stars are resampled with replacement (bootstrap; Efron & Tibshirani 1993, ch. 6), the
-    frame's shape is formed again as the median of each resample (FWHM, β and both ellipticity
-    components together, so their correlations are kept), and the error is the standard
-    deviation of the refitted fluxes. Without them (a fallback PSF, an ePSF), the FWHM is moved
+    the stars are resampled with replacement (bootstrap; Efron & Tibshirani 1993, ch. 6); each
+    resample moves the frame's shape (the median of the stars) by the shift of its mean times
+    1.2533, the ratio of the median's standard error to the mean's for a normal sample
+    (Kendall & Stuart 1977, 10.10), all four parameters together so that their correlations
+    are kept; the error is the standard deviation of the refitted fluxes. Without them (a fallback PSF, an ePSF), the FWHM is moved
     by ``fallback_fwhm_share`` of itself and β by ``fallback_beta_err`` and the two
     half-differences are added in quadrature (linear propagation by central differences,
     Bevington & Robinson 2003, eq. 3.14); an ePSF's own uncertainty shows in the residuals.
@@ -127,9 +129,15 @@ def psf_shape_error(solve_flux, psf, *, n_resample=PSF_RESAMPLES, fallback_fwhm_
     shapes = psf.star_shapes
     if shapes is not None and len(shapes) >= 3 and "psf_fallback" not in psf.flags:
         rng = np.random.default_rng(len(shapes))  # reproducible: same frame, same error
+        centre = np.median(shapes, axis=0)
+        mean = np.mean(shapes, axis=0)
         fluxes = []
         for _ in range(n_resample):
-            med = np.median(shapes[rng.integers(0, len(shapes), len(shapes))], axis=0)
+            # the shift of the resample's mean, scaled to the median's larger spread: the
+            # medians of single columns would pair one star's FWHM with another's β and break
+            # their strong correlation, which the flux follows
+            pick = shapes[rng.integers(0, len(shapes), len(shapes))]
+            med = centre + _MEDIAN_EFFICIENCY * (np.mean(pick, axis=0) - mean)
             e, ang = shape_from_q(med[2], med[3])
             variant = replace(psf, fwhm_major_pix=float(med[0]), beta=float(max(med[1], 1.2)),
                               ellipticity=float(min(e, 0.9)),

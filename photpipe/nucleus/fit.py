@@ -400,7 +400,7 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     quadrature. A residual bootstrap alone would miss that second part (it resamples the
     residuals of a fit made with the same PSF), and was the stage's main cost; it stays as an
     option. The pulls (F - F_true)/σ_F have a robust σ of 0.8-1.25 on every named case of
-    `photpipe.scenario.NIGHT_CASES` (tests/nucleus/test_cases.py).
+    `photpipe.scenario.NIGHT_CASES` (tests/nucleus/test_case_pulls.py).
 
     Examples
     --------

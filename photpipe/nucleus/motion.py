@@ -8,8 +8,10 @@ from photpipe._quantity import as_value
 
 __all__ = ["TRACKING_MODES", "exposure_trails"]
 
-#: How the telescope tracked: on the stars (the comet trails) or on the comet (the stars trail).
-TRACKING_MODES = ("sidereal", "comet")
+#: How the telescope tracked: on the stars (the comet trails), on the comet (the stars trail),
+#: or "none": the motion is not modelled (exposures too short for it to matter, or synthetic
+#: frames rendered without it).
+TRACKING_MODES = ("sidereal", "comet", "none")
 
 
 def exposure_trails(wcs, ra, dec, ra_rate, dec_rate, exptime, *, tracking="sidereal"):
@@ -24,9 +26,9 @@ def exposure_trails(wcs, ra, dec, ra_rate, dec_rate, exptime, *, tracking="sider
     ra_rate, dec_rate : `~astropy.units.Quantity` [angle / time]
         Its sky-plane rate (the RA rate including cos δ, as `photpipe.geometry` gives it).
     exptime : `~astropy.units.Quantity` ['time']
-    tracking : {"sidereal", "comet"}, optional
+    tracking : {"sidereal", "comet", "none"}, optional
         Sidereal: the stars are points and the comet moves by rate × exptime; comet: the
-        comet is a point and the stars move by the opposite amount.
+        comet is a point and the stars move by the opposite amount; none: both are points.
 
     Returns
     -------
@@ -57,6 +59,8 @@ def exposure_trails(wcs, ra, dec, ra_rate, dec_rate, exptime, *, tracking="sider
     (x0, x1), (y0, y1) = (np.asarray(v, float) for v in wcs.celestial.world_to_pixel(
         SkyCoord([e.ra for e in ends], [e.dec for e in ends])))
     motion = (float(x1 - x0), float(y1 - y0))
+    if tracking == "none":
+        return (0.0, 0.0), (0.0, 0.0)
     if tracking == "comet":
         return (0.0, 0.0), (-motion[0], -motion[1])
     return motion, (0.0, 0.0)

@@ -1,6 +1,6 @@
 """Recovery of the named night cases: the nucleus path run on each frame, scored against the truth.
 
-The same code serves tests (tests/nucleus/test_cases.py) and the benchmark
+The same code serves tests (tests/nucleus/test_case_pulls.py) and the benchmark
 (``benchmarks/recovery.py``), so both judge the fit the same way.
 """
 
@@ -85,8 +85,8 @@ def recover_case(name, seeds, *, shape=(161, 161), **options):
 def summarise_recovery(rows):
     """Bias (mag), scatter (mag), robust pull σ, upper-limit share and coma K ratio of a case.
 
-    The bias and scatter are in magnitudes over the detections (NaN without a nucleus); the
-    pull (F - F_true) / σ_F is over every frame with a finite error, detected or not, since an
+    The bias and scatter are in magnitudes, from the fitted fluxes over the truth of every
+    frame, detected or not (NaN without a nucleus); the pull (F - F_true) / σ_F is over every frame with a finite error, detected or not, since an
     error bar must hold whether or not the value is then shown as a limit. A "limit_violations"
     count is the frames whose upper limit lies below the true flux.
     """
@@ -97,14 +97,16 @@ def summarise_recovery(rows):
     limit = np.array([r.get("limit_e", np.nan) for r in rows], float)
     ok = np.isfinite(flux) & np.isfinite(err) & (err > 0)
     pull = (flux[ok] - truth[ok]) / err[ok]
-    det = ok & ~ul & (truth > 0) & (flux > 0)
-    dmag = -2.5 * np.log10(flux[det] / truth[det])
+    # over every fitted frame, detected or not (the detections alone are a biased selection
+    # near the limit): the median flux ratio in magnitudes, the scatter from its robust σ
+    has = ok & (truth > 0)
+    ratio = flux[has] / truth[has]
     k = np.array([r["coma_k"] for r in rows], float)
     kt = np.array([r["coma_k_true"] for r in rows], float)
     kr = k[kt > 0] / kt[kt > 0]
     return {"n": len(rows), "n_failed": int(np.sum(~np.isfinite(flux))),
-            "bias_mag": float(np.median(dmag)) if dmag.size else np.nan,
-            "scatter_mag": robust_sigma(dmag) if dmag.size > 2 else np.nan,
+            "bias_mag": float(-2.5 * np.log10(np.median(ratio))) if ratio.size else np.nan,
+            "scatter_mag": 2.5 / np.log(10) * robust_sigma(ratio) if ratio.size > 2 else np.nan,
             "pull_sigma": robust_sigma(pull) if pull.size > 2 else np.nan,
             "pull_median": float(np.median(pull)) if pull.size else np.nan,
             "upper_limit_fraction": float(np.mean(ul)),
