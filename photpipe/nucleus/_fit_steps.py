@@ -115,10 +115,11 @@ def psf_shape_error(solve_flux, psf, *, n_resample=PSF_RESAMPLES, fallback_fwhm_
     resample moves the frame's shape (the median of the stars) by the shift of its mean times
     1.2533, the ratio of the median's standard error to the mean's for a normal sample
     (Kendall & Stuart 1977, 10.10), all four parameters together so that their correlations
-    are kept; the error is the standard deviation of the refitted fluxes. Without them (a fallback PSF, an ePSF), the FWHM is moved
-    by ``fallback_fwhm_share`` of itself and β by ``fallback_beta_err`` and the two
-    half-differences are added in quadrature (linear propagation by central differences,
-    Bevington & Robinson 2003, eq. 3.14); an ePSF's own uncertainty shows in the residuals.
+    are kept; the error is the standard deviation of the refitted fluxes. Without them (a
+    fallback PSF), the FWHM is moved by ``fallback_fwhm_share`` of itself and β by
+    ``fallback_beta_err`` and the two half-differences are added in quadrature (linear
+    propagation by central differences, Bevington & Robinson 2003, eq. 3.14); an ePSF's own
+    uncertainty shows in the residuals.
 
     Returns the error (same unit as the flux).
     """
@@ -130,6 +131,10 @@ def psf_shape_error(solve_flux, psf, *, n_resample=PSF_RESAMPLES, fallback_fwhm_
     if shapes is not None and len(shapes) >= 3 and "psf_fallback" not in psf.flags:
         rng = np.random.default_rng(len(shapes))  # reproducible: same frame, same error
         centre = np.median(shapes, axis=0)
+        # a star spoilt by a neighbour would dominate the means: each column is clipped at
+        # 3 robust σ (1.4826 MAD, common practice) around the median first
+        mad = 1.4826 * np.median(np.abs(shapes - centre), axis=0)
+        shapes = np.clip(shapes, centre - 3 * mad, centre + 3 * mad)
         mean = np.mean(shapes, axis=0)
         fluxes = []
         for _ in range(n_resample):

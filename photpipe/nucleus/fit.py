@@ -429,37 +429,53 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
                          search_radius=search_radius, detection_sigma=detection_sigma,
                          fraction_radius=fraction_radius, star_mask_radius=star_mask_radius,
                          max_nfev=max_nfev)
-    rng = np.random.default_rng() if rng is None else rng
     psf_comet = psf.with_trail(comet_trail) if any(comet_trail) else psf
     psf_star = psf.with_trail(star_trail) if any(star_trail) else psf
-    fwhm = float(psf.fwhm_pix)
+    box, xl, yl, flags = _prepare_box(frame, x0, y0, psf, psf_comet, psf_star, star_xy, opt)
+    fit = _fit_with_sources(box, psf_comet, psf_star, xl, yl, opt, flags)
+    errors = _errors(fit, box, psf_comet, opt, flags, bootstrap,
+                     np.random.default_rng() if rng is None else rng)
+    images = _images(fit, box.good)
+    prof = _profile_check(fit, box, errors, flags) if profile else None
+    reported, upper = _decide(fit.res.values["nucleus_flux"], errors["err"], flags, opt)
+    flags = list(dict.fromkeys(flags))
+    if any(f in flags for f in WARN_FLAGS):
+        warnings.warn(f"frame {opt.name!r}: nucleus fit flagged {','.join(flags)}",
+                      PoorResultWarning, stacklevel=2)
+    return _assemble(frame, psf, psf_comet, opt, box, fit, errors, images, prof, reported,
+                     upper, flags)
 
+
+def _prepare_box(frame, x0, y0, psf, psf_comet, psf_star, star_xy, opt):
+    """The start position, the cutout with catalogued stars masked, and the first flags."""
+    fwhm = float(psf.fwhm_pix)
     xs, ys = _start_position(frame, float(x0), float(y0), psf_comet, star_xy, opt)
     box = cut_comet_box(frame, xs, ys, opt.cutout, star_xy=star_xy,
                         star_radius=opt.star_radius + 0.5 * psf_star.trail_length_pix,
                         keep_radius=2.0 * fwhm)
-    good = box.good
-    if good.mean() < 0.5:
-        msg = (f"frame {opt.name!r}: only {good.mean():.0%} of the {opt.cutout}x{opt.cutout} box "
-               "around the nucleus is usable")
+    if box.good.mean() < 0.5:
+        msg = (f"frame {opt.name!r}: only {box.good.mean():.0%} of the {opt.cutout}x"
+               f"{opt.cutout} box around the nucleus is usable")
         raise ValueError(msg)
     flags = list(psf.flags) + list(box.flags)
     xl, yl = xs - box.x_origin, ys - box.y_origin
-    if core_bad_share(good, xl, yl, fwhm) > _CORE_BAD_SHARE:
+    if core_bad_share(box.good, xl, yl, fwhm) > _CORE_BAD_SHARE:
         flags.append("core_masked")
+    return box, xl, yl, flags
 
-    fit = _fit_with_sources(box, psf_comet, psf_star, xl, yl, opt, flags)
+
+def _errors(fit, box, psf_comet, opt, flags, bootstrap, rng):
+    """Errors of flux, K and γ (the optional bootstrap can only raise them); fit flags."""
     res, v = fit.res, fit.res.values
     if not res.success:
         flags.append("no_convergence")
     if any(k in res.at_bound for k in ("x0", "y0")):
         flags.append("fit_at_bound")
-
-    flux = v["nucleus_flux"]
     err, err_cov, err_psf, scale2 = _nucleus_error(fit, box, psf_comet, opt, opt.free_gamma)
-    k_err = res.sigma("coma_k", scale=False) * np.sqrt(scale2)
-    g_err = res.sigma("gamma", scale=False) * np.sqrt(scale2) if "gamma" in res.names else 0.0
-    err_boot = np.nan
+    out = {"err": err, "err_cov": err_cov, "err_psf": err_psf, "err_boot": np.nan,
+           "k_err": res.sigma("coma_k", scale=False) * np.sqrt(scale2),
+           "g_err": res.sigma("gamma", scale=False) * np.sqrt(scale2)
+           if "gamma" in res.names else 0.0}
     if bootstrap and bootstrap > 1:
         best = fit.params.copy()
         for key in ("x0", "y0", "gamma"):
@@ -467,12 +483,17 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
         best["gamma"].vary = "gamma" in res.names
         boot = _bootstrap(fit.d, fit.s, res.model, fit.basis_fn, best, fit.names,
                           int(bootstrap), rng)
-        err_boot = float(np.std(boot[:, 0], ddof=1))
-        k_err = max(k_err, float(np.std(boot[:, 1], ddof=1)))
+        out["err_boot"] = float(np.std(boot[:, 0], ddof=1))
+        out["k_err"] = max(out["k_err"], float(np.std(boot[:, 1], ddof=1)))
         if "gamma" in res.names:
-            g_err = max(g_err, float(np.std(boot[:, 2], ddof=1)))
-        err = float(np.nanmax([err, err_boot]))
+            out["g_err"] = max(out["g_err"], float(np.std(boot[:, 2], ddof=1)))
+        out["err"] = float(np.nanmax([err, out["err_boot"]]))
+    return out
 
+
+def _images(fit, good):
+    """Model (with any fitted uncatalogued stars), unit point source and coma images."""
+    v = fit.res.values
     renderer = fit.renderer
     n_amp = len(renderer.names)
     comps = renderer.components(v["x0"], v["y0"], v["gamma"])
@@ -482,47 +503,55 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
         extra_img = np.zeros(good.size)
         extra_img[good.ravel()] = np.array([v[n] for n in fit.names[n_amp:]]) @ fit.extra
         model_img = model_img + extra_img.reshape(good.shape)
-    coma_img = np.tensordot(amps[1:-1], comps[1:-1], axes=1)
+    return {"model": model_img, "point": comps[0],
+            "coma": np.tensordot(amps[1:-1], comps[1:-1], axes=1)}
 
-    prof = None
-    if profile:
-        prof = fit_radial_profile(box.data, box.variance, good, v["x0"], v["y0"], renderer,
-                                  gamma="free" if "gamma" in res.names else float(v["gamma"]),
-                                  gamma_bounds=GAMMA_BOUNDS)
-        tol = 3.0 * np.hypot(err, prof.nucleus_flux_err)
-        if not np.isfinite(tol) or abs(flux - prof.nucleus_flux) > tol:
-            flags.append("profile_disagrees")
 
-    reported, upper = _decide(flux, err, flags, opt)
-    mag, mag_err = _magnitude(reported, flux, err, "upper_limit" in flags, opt)
+def _profile_check(fit, box, errors, flags):
+    """The 1-D profile estimate; flag ``profile_disagrees`` beyond 3σ of the 2-D fit."""
+    v = fit.res.values
+    prof = fit_radial_profile(box.data, box.variance, box.good, v["x0"], v["y0"], fit.renderer,
+                              gamma="free" if "gamma" in fit.res.names else float(v["gamma"]),
+                              gamma_bounds=GAMMA_BOUNDS)
+    tol = 3.0 * np.hypot(errors["err"], prof.nucleus_flux_err)
+    if not np.isfinite(tol) or abs(v["nucleus_flux"] - prof.nucleus_flux) > tol:
+        flags.append("profile_disagrees")
+    return prof
+
+
+def _assemble(frame, psf, psf_comet, opt, box, fit, errors, images, prof, reported, upper,
+              flags):
+    """The `NucleusFit`: magnitudes, the nucleus's share of the light and every value."""
+    res, v = fit.res, fit.res.values
+    good = box.good
+    flux = v["nucleus_flux"]
+    fwhm = float(psf.fwhm_pix)
+    mag, mag_err = _magnitude(reported, flux, errors["err"], "upper_limit" in flags, opt)
     w = _aperture_weights(good.shape, v["x0"], v["y0"], opt.fraction_radius * fwhm)
-    pn = np.sum(w * max(flux, 0.0) * comps[0])
-    pc = np.sum(w * coma_img)
+    pn = np.sum(w * max(flux, 0.0) * images["point"])
+    pc = np.sum(w * images["coma"])
     fraction = float(pn / (pn + pc)) if (pn + pc) > 0 else np.nan
     modul = {}
     for m in range(1, opt.modulation + 1):
         for tag, key in (("a", f"coma_k_cos{m}"), ("b", f"coma_k_sin{m}")):
             modul[f"{tag}{m}"] = v[key] / v["coma_k"] if v["coma_k"] != 0 else np.nan
-
-    flags = list(dict.fromkeys(flags))
-    if any(f in flags for f in WARN_FLAGS):
-        warnings.warn(f"frame {opt.name!r}: nucleus fit flagged {','.join(flags)}",
-                      PoorResultWarning, stacklevel=2)
+    model_img = images["model"]
     return NucleusFit(
         frame=opt.name, mjd_utc_mid=float(frame.info.time_mid.utc.mjd),
-        nucleus_flux_e=float(flux), nucleus_flux_err_e=float(err),
-        nucleus_flux_err_cov_e=float(err_cov), nucleus_flux_err_boot_e=float(err_boot),
-        nucleus_flux_err_psf_e=float(err_psf), upper_limit_e=float(upper),
+        nucleus_flux_e=float(flux), nucleus_flux_err_e=float(errors["err"]),
+        nucleus_flux_err_cov_e=float(errors["err_cov"]),
+        nucleus_flux_err_boot_e=float(errors["err_boot"]),
+        nucleus_flux_err_psf_e=float(errors["err_psf"]), upper_limit_e=float(upper),
         nucleus_flux_e_s=float(reported / opt.exptime), nucleus_mag=float(mag),
         nucleus_mag_err=float(mag_err), coma_k_e_s=float(v["coma_k"] / opt.exptime),
-        coma_k_err_e_s=float(k_err / opt.exptime), coma_gamma=float(v["gamma"]),
-        coma_gamma_err=float(g_err), modulation=modul, x=float(v["x0"] + box.x_origin),
-        y=float(v["y0"] + box.y_origin), sky=float(v["sky"]), chi2_red=float(res.chi2_red),
-        fwhm_arcsec=float(fwhm * opt.scale), nucleus_fraction=fraction,
-        method=f"2d:{psf.method}", flags=tuple(flags), nfev=res.nfev,
-        n_model_evaluations=renderer.n_evaluations, exptime_s=float(opt.exptime),
-        profile=prof, data=np.where(good, box.data, np.nan), model=model_img,
-        residual=np.where(good, box.data - model_img, np.nan), good=good,
+        coma_k_err_e_s=float(errors["k_err"] / opt.exptime), coma_gamma=float(v["gamma"]),
+        coma_gamma_err=float(errors["g_err"]), modulation=modul,
+        x=float(v["x0"] + box.x_origin), y=float(v["y0"] + box.y_origin), sky=float(v["sky"]),
+        chi2_red=float(res.chi2_red), fwhm_arcsec=float(fwhm * opt.scale),
+        nucleus_fraction=fraction, method=f"2d:{psf.method}", flags=tuple(flags),
+        nfev=res.nfev, n_model_evaluations=fit.renderer.n_evaluations,
+        exptime_s=float(opt.exptime), profile=prof, data=np.where(good, box.data, np.nan),
+        model=model_img, residual=np.where(good, box.data - model_img, np.nan), good=good,
         x_origin=box.x_origin, y_origin=box.y_origin, psf=psf_comet)
 
 

@@ -117,8 +117,8 @@ class PSFModel:
 
         Examples
         --------
-        >>> PSFModel.from_moffat(3.0).with_trail((1.0, 0.0)).trail_offsets(step=0.5).tolist()
-        [[-0.25, 0.0], [0.25, 0.0]]
+        >>> PSFModel.from_moffat(3.0).with_trail((1.0, 0.0)).trail_offsets(step=0.5)[:, 0].tolist()
+        [-0.25, 0.25]
         """
         n = max(1, int(np.ceil(self.trail_length_pix / step)))
         t = (np.arange(n) + 0.5) / n - 0.5

@@ -4,7 +4,7 @@ import numpy as np
 from scipy import ndimage
 from scipy.optimize import least_squares
 
-from ._stamps import fit_linear
+from ._stamps import fit_linear, sky_plane
 from .moffat import moffat_pixel_image
 
 __all__ = ["fit_moffat_shape", "shape_from_q", "trail_points"]
@@ -49,7 +49,7 @@ def _fit_one(stamp, *, fwhm_guess, beta_guess, offsets):
         g = good
         d = stamp.data[g]
         s = stamp.sigma[g]
-        ones = np.ones(d.size)
+        ones = sky_plane(g)
 
         def resid(p, g=g, d=d, s=s, ones=ones):
             x, y, fwhm, beta, q1, q2 = p

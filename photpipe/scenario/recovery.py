@@ -86,9 +86,10 @@ def summarise_recovery(rows):
     """Bias (mag), scatter (mag), robust pull σ, upper-limit share and coma K ratio of a case.
 
     The bias and scatter are in magnitudes, from the fitted fluxes over the truth of every
-    frame, detected or not (NaN without a nucleus); the pull (F - F_true) / σ_F is over every frame with a finite error, detected or not, since an
-    error bar must hold whether or not the value is then shown as a limit. A "limit_violations"
-    count is the frames whose upper limit lies below the true flux.
+    frame, detected or not (NaN without a nucleus); the pull (F - F_true) / σ_F is over
+    every frame with a finite error, detected or not, since an error bar must hold whether or
+    not the value is then shown as a limit. "limit_violations" counts the frames whose upper
+    limit lies below the true flux.
     """
     flux = np.array([r["flux_e"] for r in rows], float)
     err = np.array([r["err_e"] for r in rows], float)
