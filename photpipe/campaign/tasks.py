@@ -223,7 +223,7 @@ def _zero_point_row(photometry):
     fwhm_pix = photometry.details.get("fwhm_pix")
     scale = _pixel_scale_arcsec(photometry.wcs)
     if fwhm_pix is not None and scale is not None:
-        row["fwhm_arcsec"] = float(fwhm_pix) * scale
+        row["gauss_fwhm_arcsec"] = float(fwhm_pix) * scale
     if len(photometry.comet) and "airmass" in photometry.comet.colnames:
         row["airmass"] = photometry.comet["airmass"][0]
     return row
