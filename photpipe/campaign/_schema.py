@@ -19,7 +19,7 @@ NAMING_RULE = ("lower-case snake_case; a quantity with a unit ends in that unit:
                "with _err before the unit (afrho_err_cm, zp_err_mag)")
 
 #: Version of the layout below; stored in the ``schema_version`` table of every store.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 
 @dataclass(frozen=True)
@@ -77,6 +77,7 @@ MEASUREMENT_COLUMNS = (
     _c("a0frho_cm", unit=u.cm, description="Afrho corrected to 0 deg phase"),
     _c("a0frho_err_cm", unit=u.cm),
     _c("coma_slope"),
+    _c("coma_slope_err", description="1-sigma error of coma_slope from the profile fit"),
     _c("coma_apcorr_mag", unit=_MAG,
        description="aperture correction of the PSF-blurred coma applied to the sum"),
     _c("nucleus_share", description="share of the aperture's light from the fitted nucleus"),
@@ -201,7 +202,8 @@ LABELS = {
     "rho_arcsec": "aperture radius on the sky", "mag": "magnitude in the aperture",
     "mag_err": "magnitude error", "afrho_cm": "Afρ", "afrho_err_cm": "Afρ error",
     "a0frho_cm": "A(0°)fρ", "a0frho_err_cm": "A(0°)fρ error",
-    "coma_slope": "coma slope d ln Σ / d ln ρ", "coma_apcorr_mag": "coma aperture correction",
+    "coma_slope": "coma slope d ln Σ / d ln ρ",
+    "coma_slope_err": "coma slope error", "coma_apcorr_mag": "coma aperture correction",
     "nucleus_share": "nucleus share of the aperture", "afrho_coma_cm": "Afρ of the coma",
     "afrho_coma_err_cm": "Afρ of the coma, error", "a0frho_coma_cm": "A(0°)fρ of the coma",
     "a0frho_coma_err_cm": "A(0°)fρ of the coma, error", "flags": "flags",

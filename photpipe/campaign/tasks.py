@@ -153,6 +153,7 @@ def process_frame(item, shared):
         except Exception as exc:  # noqa: BLE001
             problems.append(("photometry", _reason(exc, info)))
         else:
+            photometry.comet["coma_slope_err"] = photometry.details.get("coma_slope_err", np.nan)
             record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
                           zero_point=_zero_point_row(photometry))
     if "nucleus" in stages and photometry is not None:

@@ -13,7 +13,7 @@ from astropy import units as u
 from astropy.table import QTable, Table
 from astropy.time import Time
 
-from photpipe.report.headline import headline_lines, nightly_afrho
+from photpipe.report.headline import headline_lines, night_date, nightly_afrho
 from photpipe.report.numbers import value_range, with_error
 
 __all__ = ["column_values", "fit_activity", "result_tables", "summary_items", "draw_figures",
@@ -304,7 +304,7 @@ def nights_observed(measurements, nucleus):
     rows = []
     for n in np.unique(night[np.isfinite(night)]):
         sel = night == n
-        date = Time(n + 0.5, format="mjd").utc.iso[:10]
+        date = night_date(mjd[sel])
         rh = column_values(measurements, "r_h_au", u.au).value[sel]
         dl = column_values(measurements, "delta_au", u.au).value[sel]
         ph = column_values(measurements, "phase_deg", u.deg).value[sel]
@@ -332,9 +332,9 @@ def nights_observed(measurements, nucleus):
                       ("a0frho_cm", u.cm), ("a0frho_err_cm", u.cm), ("rho_km", u.km),
                       ("zp_mag", u.mag)):
         t[col].unit = unit
-    for col, dec in (("r_h_au", 3), ("delta_au", 3), ("phase_deg", 1), ("zp_mag", 3)):
-        t[col] = np.round(np.asarray(t[col], dtype=float), dec)
-        t[col].unit = dict(r_h_au=u.au, delta_au=u.au, phase_deg=u.deg, zp_mag=u.mag)[col]
+    for col, fmt in (("r_h_au", ".3f"), ("delta_au", ".3f"), ("phase_deg", ".1f"),
+                     ("zp_mag", ".3f"), ("rho_km", ".0f")):
+        t[col].info.format = fmt
     return t
 
 
@@ -380,7 +380,7 @@ def result_tables(analysis, extra, measurements=None, nucleus=None):
     if analysis is not None:
         tables["Activity trend"] = _trend_table(analysis.trend)
         tables["Outbursts"] = _outburst_table(analysis.outbursts)
-        tables["Nights"] = _nights_table(analysis.trend, analysis.outburst_nights)
+        tables["Night means for the trend"] = _nights_table(analysis.trend, analysis.outburst_nights)
     rot = extra.get("rotation")
     if rot:
         tables["Rotation"] = _rotation_table(rot)
@@ -420,6 +420,7 @@ def page_extras(measurements, nucleus, analysis, extra, *, report=None):
             "No power law could be fitted: each side of perihelion needs at least 3 nights "
             f"(this campaign has {len(analysis.trend.nights)} night(s)). The night means are "
             "shown; the departures panel stays empty until a trend exists.")
+        reasons["Activity trend"] = "No branch fitted (see above)."
     if analysis is not None and len(analysis.outbursts) == 0:
         reasons["Outbursts"] = "No outburst passed the detection test."
     if not extra.get("rotation"):

@@ -424,10 +424,13 @@ def outburst_figure(trend, outbursts=None, *, sigma=5.0):
         _mark_outbursts(ax, outbursts)
         ax.invert_yaxis()
     else:
+        ax.set_xticks([])
+        ax.set_yticks([])
         _say_empty(ax, "No night departures to show: no branch of the activity trend could\n"
                        f"be fitted ({len(nights)} night(s); at least 3 on one side of "
                        "perihelion are needed).")
-    label_axes(ax, xlabel=date_axis(ax), ylabel="Δm from trend (mag)",
+    label_axes(ax, xlabel=date_axis(ax) if np.any(finite) else "date (UTC)",
+               ylabel="Δm from trend (mag)",
                title="Departures from the activity trend (outbursts shaded)")
     return fig
 
@@ -462,11 +465,13 @@ def afrho_aperture_figure(measurements, *, column="a0frho_cm"):
     colours = _night_colours(len(nights))
     for k, n in enumerate(nights):
         radii, means, errs = [], [], []
-        for r in np.unique(rho[night == n]):
-            sel = (night == n) & (rho == r) & np.isfinite(a) & (ae > 0)
+        in_night = night == n
+        groups = _aperture_groups(rho, in_night)
+        for g in np.unique(groups[in_night]):
+            sel = in_night & (groups == g) & np.isfinite(a) & (ae > 0)
             if np.any(sel):
                 w = 1.0 / ae[sel] ** 2
-                radii.append(r)
+                radii.append(np.median(rho[sel]))
                 means.append(np.sum(w * a[sel]) / np.sum(w))
                 errs.append(1.0 / np.sqrt(np.sum(w)))
         if radii:
@@ -480,6 +485,25 @@ def afrho_aperture_figure(measurements, *, column="a0frho_cm"):
     label_axes(ax, xlabel="aperture radius ρ at the comet (km)", ylabel=_afrho_label(column),
                title=f"{_afrho_name(column)} against aperture: flat for a steady 1/ρ coma")
     return fig
+
+
+def _aperture_groups(rho, rows):
+    """Group label per row: radii within 5 % of their neighbour share a group.
+
+    Apertures fixed on the sky change their size at the comet from frame to frame; this
+    gathers them with the ones fixed in km that they resemble within a night.
+    """
+    groups = np.full(rho.size, -1)
+    idx = np.flatnonzero(rows & np.isfinite(rho))
+    order = idx[np.argsort(rho[idx])]
+    label = 0
+    for i, j in zip(order[:-1], order[1:]):
+        groups[i] = label
+        if rho[j] > 1.05 * rho[i]:
+            label += 1
+    if order.size:
+        groups[order[-1]] = label
+    return groups
 
 
 def _night_colours(n):

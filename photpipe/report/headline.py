@@ -12,7 +12,7 @@ from astropy.time import Time
 from photpipe.flags import INFORMATIONAL, split_flags
 from photpipe.report.numbers import value_range, with_error
 
-__all__ = ["headline_lines", "nightly_afrho", "REFERENCE_RHO"]
+__all__ = ["headline_lines", "nightly_afrho", "night_date", "REFERENCE_RHO"]
 
 #: Aperture radius at which A(0)fρ is quoted (the aperture nearest to it is used).
 REFERENCE_RHO = 10_000 * u.km
@@ -28,6 +28,17 @@ def _floats(table, name, unit=None):
     return values
 
 
+def night_date(mjd):
+    """The UTC date (YYYY-MM-DD) of the middle of a night's frames.
+
+    Examples
+    --------
+    >>> night_date([61375.09, 61375.27])
+    '2026-12-01'
+    """
+    return Time(float(np.median(mjd)), format="mjd", scale="utc").iso[:10]
+
+
 def nightly_afrho(measurements, *, rho=REFERENCE_RHO, column="a0frho_cm"):
     """Weighted mean Afρ per night in the aperture nearest ``rho``.
 
@@ -37,7 +48,8 @@ def nightly_afrho(measurements, *, rho=REFERENCE_RHO, column="a0frho_cm"):
     Returns
     -------
     rows : list of (str, float, float, float, int)
-        Night date (UTC, noon to noon), Afρ (cm), its error (cm), aperture (km), frames.
+        Night date (UTC date of its middle frame; nights split at 12 h UTC), Afρ (cm), its
+        error (cm), aperture (km), frames.
 
     Examples
     --------
@@ -54,7 +66,8 @@ def nightly_afrho(measurements, *, rho=REFERENCE_RHO, column="a0frho_cm"):
     rows = np.abs(rho_all - chosen) <= 1e-3 * chosen
     a = _floats(measurements, column, u.cm)[rows]
     ae = _floats(measurements, column.replace("_cm", "_err_cm"), u.cm)[rows]
-    night = np.floor(_floats(measurements, "mjd_utc_mid", u.day)[rows] - 0.5)
+    mjd = _floats(measurements, "mjd_utc_mid", u.day)[rows]
+    night = np.floor(mjd - 0.5)
     out = []
     for n in np.unique(night[np.isfinite(night)]):
         sel = (night == n) & np.isfinite(a) & np.isfinite(ae) & (ae > 0)
@@ -67,7 +80,7 @@ def nightly_afrho(measurements, *, rho=REFERENCE_RHO, column="a0frho_cm"):
         if k > 1:
             chi2 = float(np.sum(w * (a[sel] - mean) ** 2)) / (k - 1)
             err *= max(1.0, np.sqrt(chi2))
-        out.append((Time(n + 0.5, format="mjd").utc.iso[:10], mean, err, float(chosen), k))
+        out.append((night_date(mjd[night == n]), mean, err, float(chosen), k))
     return out
 
 

@@ -211,7 +211,13 @@ def _table_html(name, table, max_rows, *, empty=None):
         cells = []
         for col in table.colnames:
             dec = decimals.get(col, [None] * (i + 1))[i]
-            text, is_text = _format_cell(row[col], dec)
+            fmt = table[col].info.format
+            if dec is None and isinstance(fmt, str) and fmt.startswith(".") \
+                    and isinstance(row[col], (float, np.floating, u.Quantity)):
+                value = row[col].value if isinstance(row[col], u.Quantity) else row[col]
+                text, is_text = ("—" if not np.isfinite(value) else format(value, fmt)), False
+            else:
+                text, is_text = _format_cell(row[col], dec)
             cells.append(f'<td class="text">{text}</td>' if is_text else f"<td>{text}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
     out = [f'<div class="scroll"><table><thead><tr>{"".join(head)}</tr></thead>'
@@ -251,7 +257,7 @@ SECTIONS = (
     ("nucleus", "Nucleus", ("nucleus", "nucleus_images"), ()),
     ("activity", "Activity: Afρ against r_h and outbursts",
      ("activity_time", "activity_rh", "outbursts"),
-     ("Activity trend", "Outbursts", "Nights", "Outbursts within a night")),
+     ("Activity trend", "Outbursts", "Night means for the trend", "Outbursts within a night")),
     ("rotation", "Rotation", ("rotation_periodograms", "rotation_phased", "rotation_residuals"),
      ("Rotation", "Rotation candidates")),
     ("size", "Nucleus size and mass", (), ("Nucleus size and mass",)),
