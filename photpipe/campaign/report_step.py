@@ -14,8 +14,9 @@ from astropy import units as u
 from astropy.table import Table
 
 from photpipe.report import content
-from .activity_settings import activity_settings
 from photpipe.report.page import write_report
+
+from .activity_settings import activity_settings
 from .report_inputs import from_store, stage_results
 from .result_files import write_text
 

@@ -380,7 +380,8 @@ def result_tables(analysis, extra, measurements=None, nucleus=None):
     if analysis is not None:
         tables["Activity trend"] = _trend_table(analysis.trend)
         tables["Outbursts"] = _outburst_table(analysis.outbursts)
-        tables["Night means for the trend"] = _nights_table(analysis.trend, analysis.outburst_nights)
+        tables["Night means for the trend"] = _nights_table(analysis.trend,
+                                                            analysis.outburst_nights)
     rot = extra.get("rotation")
     if rot:
         tables["Rotation"] = _rotation_table(rot)

@@ -134,7 +134,8 @@ def test_export_writes_ecsv_with_units(store, tmp_path):
         "n_stars", "x_pix", "y_pix", "ra_deg", "dec_deg", "r_h_au", "delta_au", "phase_deg",
         "elong_deg", "rho_km", "rho_arcsec", "mag", "mag_err", "afrho_cm", "afrho_err_cm",
         "a0frho_cm", "a0frho_err_cm", "coma_slope", "coma_slope_err", "coma_apcorr_mag",
-        "nucleus_share", "afrho_coma_cm", "afrho_coma_err_cm", "a0frho_coma_cm", "a0frho_coma_err_cm", "flags"]
+        "nucleus_share", "afrho_coma_cm", "afrho_coma_err_cm", "a0frho_coma_cm",
+        "a0frho_coma_err_cm", "flags"]
     nucleus = store.export_table("nucleus", night="2026-12-01")
     # The nucleus.ecsv contract columns, in order (DEVELOPERS.md, Nucleus).
     assert nucleus.colnames == [
