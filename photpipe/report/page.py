@@ -68,7 +68,8 @@ th small { font-weight: normal; color: #555; }
 td.text { text-align: left; }
 .note { color: #555; font-size: 0.82rem; margin: 0.1rem 0 0.8rem; }
 figure { margin: 1rem 0; }
-figure img { max-width: 100%; height: auto; border: 1px solid #ddd; background: white; }
+figure img { max-width: 100%; height: auto; border: 1px solid #ddd; background: white;
+             box-sizing: border-box; }
 figcaption { font-size: 0.85rem; color: #444; }
 ul.notes li { margin-bottom: 0.3rem; }
 footer { margin-top: 2.5rem; font-size: 0.8rem; color: #666; }
