@@ -11,8 +11,8 @@ import shutil
 import subprocess
 
 import pytest
-
 from campaign._step_inputs import write_report_campaign
+
 from photpipe.campaign.config import load_config
 from photpipe.campaign.report_step import run_report_stage
 
@@ -32,7 +32,8 @@ window.addEventListener("load", () => {
   for (const el of document.querySelectorAll("main *")) {
     if (el.closest("div.scroll") || el.tagName === "SCRIPT") continue;
     if (el.scrollWidth > el.clientWidth + 1 && el.clientWidth > 0)
-      over.push(el.tagName + "." + el.className + " " + el.scrollWidth + ">" + el.clientWidth + ": " + (el.textContent || "").slice(0, 40));
+      over.push(el.tagName + " " + el.scrollWidth + ">" + el.clientWidth + ": " +
+                (el.textContent || "").slice(0, 40));
   }
   const wide = document.documentElement.scrollWidth > window.innerWidth + 1;
   const imgWide = imgs.filter(i => i.getBoundingClientRect().right >

@@ -38,7 +38,7 @@ def test_headline_names_caveats_and_where_to_look():
                            report="results/report.html")
     text = "\n".join(lines)
     assert "A(0°)fρ 2026-12-01 (ρ = 10000 km, 2 frames): 102.0 ± 4.5 cm" in text
-    assert "nucleus magnitude: 15.2–15.4 mag over 2 frames; 1 frame(s) give only an upper " \
+    assert "nucleus magnitude: 15.20–15.40 mag over 2 frames; 1 frame(s) give only an upper " \
            "limit" in text
     assert "rotation period: none found (weak detection)" in text
     assert "nucleus radius: 4.4 km (68 % interval 3.8–5.5 km)" in text
