@@ -21,3 +21,9 @@ def test_meanings_and_splitting():
     assert split_flags("few_stars,,edge") == ["few_stars", "edge"]
     assert "upper limit" in meaning("upper_limit")
     assert describe_flags({"edge": 1}) == ["edge (1 row): " + meaning("edge")]
+
+
+def test_the_readme_lists_every_flag_with_its_meaning():
+    readme = (SOURCE.parent / "README.md").read_text(encoding="utf-8")
+    for word, (stage, text) in FLAGS.items():
+        assert f"| `{word}` | {stage} | {text} |" in readme
