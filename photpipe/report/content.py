@@ -16,7 +16,7 @@ from astropy.time import Time
 from photpipe.report.headline import headline_lines, night_date, nightly_afrho
 from photpipe.report.numbers import value_range, with_error
 
-__all__ = ["column_values", "fit_activity", "result_tables", "summary_items", "draw_figures",
+__all__ = ["column_values", "result_tables", "summary_items", "draw_figures",
            "page_extras", "nights_observed"]
 
 
@@ -33,15 +33,6 @@ def column_values(table, name, unit=None):
         return values
     col_unit = getattr(col, "unit", None)
     return (values * col_unit).to(unit) if col_unit is not None else values * u.Unit(unit)
-
-
-def _flag_mask(table, words):
-    if "flags" not in table.colnames or not words:
-        return np.zeros(len(table), dtype=bool)
-    out = np.zeros(len(table), dtype=bool)
-    for i, text in enumerate(np.asarray(table["flags"]).astype(str)):
-        out[i] = bool(set(w.strip() for w in text.split(",")) & set(words))
-    return out
 
 
 def _one_row(d, keys):
@@ -78,56 +69,6 @@ def _outburst_table(outbursts):
     keep = ["onset_after", "onset_before", "r_h", "delta_mag", "delta_mag_err", "significance",
             "jump_significance", "false_alarm", "peak_delta_mag", "n_nights", "branch", "flags"]
     return outbursts[keep]
-
-
-def fit_activity(measurements, settings, notes):
-    """Fit the Afρ(r_h) trend and search for outbursts (`photpipe.activity.analyse_activity`).
-
-    Rows flagged with ``settings["exclude_flags"]`` are left out; what was done and every
-    warning raised are appended to ``notes``.
-
-    Raises
-    ------
-    ValueError
-        If the measurements lack a column the fit needs.
-    """
-    from photpipe.activity import analyse_activity
-
-    column = settings["column"]
-    err_column = column.replace("_cm", "_err_cm")
-    for name in ("mjd_utc_mid", "r_h_au", "rho_km", column, err_column):
-        if name not in measurements.colnames:
-            msg = f"the measurements table has no column {name!r}"
-            raise ValueError(msg)
-    flagged = _flag_mask(measurements, settings["exclude_flags"])
-    if np.any(flagged):
-        notes.append(f"{np.count_nonzero(flagged)} measurement rows flagged "
-                     f"{', '.join(settings['exclude_flags'])} were left out of the trend.")
-    rows = measurements[~flagged]
-    time = Time(column_values(rows, "mjd_utc_mid", u.day).value, format="mjd", scale="utc")
-    perihelion = settings["perihelion_time"]
-    if perihelion is None:
-        rh = column_values(rows, "r_h_au", u.au).value
-        perihelion = time[int(np.nanargmin(rh))]
-        notes.append("No perihelion time was configured: the time of the smallest observed r_h "
-                     f"({perihelion.utc.iso[:16]} UTC) splits the two branches.")
-    else:
-        notes.append(f"Perihelion {perihelion.utc.iso[:16]} UTC "
-                     f"(from {settings['perihelion_source']}) splits the two branches.")
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        analysis = analyse_activity(
-            time, column_values(rows, "r_h_au", u.au), column_values(rows, column, u.cm),
-            column_values(rows, err_column, u.cm), perihelion_time=perihelion,
-            rho=column_values(rows, "rho_km", u.km), aperture=settings["aperture"],
-            sigma=settings["sigma"], jump_sigma=settings["jump_sigma"],
-            quiet_sigma=settings["quiet_sigma"], max_false_alarm=settings["max_false_alarm"],
-            method=settings["method"], night_gap=settings["night_gap"])
-    for w in caught:
-        text = f"{w.category.__name__}: {w.message}"
-        if text not in notes:
-            notes.append(text)
-    return analysis
 
 
 def summary_items(config, measurements, nucleus, analysis, extra, settings):
