@@ -13,7 +13,7 @@ import subprocess
 import pytest
 from campaign._step_inputs import write_report_campaign
 
-from photpipe.campaign.config import load_config
+from photpipe.config import load_config
 from photpipe.campaign.report_step import run_report_stage
 
 BROWSER = next((shutil.which(n) for n in ("chromium", "chromium-browser", "google-chrome")
