@@ -27,6 +27,7 @@ PALETTE = {
     "nucleus": "#009E73",     # bluish green
     "reference": "#E69F00",   # orange
     "limit": "#999999",       # grey: upper limits, false-alarm levels
+    "sun": "#F0E442",         # yellow: the direction to the Sun on images
 }
 
 #: Width of every figure in inches (one column of the report page).

@@ -201,6 +201,69 @@ def _rotation_images(extra, out_dir):
     return found
 
 
+def _frame_file(out_dir, frame):
+    if out_dir is None:
+        return None
+    found = sorted(Path(out_dir).glob(f"*/calibrated/{frame}.fits"))
+    return found[0] if found else None
+
+
+def _cutout(path, rows):
+    """The cut-out of one calibrated frame with its apertures and the sunward direction."""
+    from astropy.coordinates import SkyCoord, get_sun
+    from astropy.io import fits
+    from astropy.wcs import WCS
+    from astropy.wcs.utils import proj_plane_pixel_scales
+
+    from photpipe.report.images import cutout_figure
+
+    with fits.open(path, memmap=False) as hdul:
+        data = np.asarray(hdul["DATA"].data, dtype=float)
+        wcs = WCS(hdul["DATA"].header)
+    scale = float(np.mean(proj_plane_pixel_scales(wcs.celestial)) * 3600.0)
+    mjd = float(column_values(rows, "mjd_utc_mid", u.day).value[0])
+    comet = SkyCoord(column_values(rows, "ra_deg", u.deg)[0],
+                     column_values(rows, "dec_deg", u.deg)[0])
+    sun = get_sun(Time(mjd, format="mjd", scale="utc"))
+    # the projected comet-to-Sun direction lies on the great circle toward the Sun's place
+    pa_sun = comet.position_angle(SkyCoord(sun.ra, sun.dec)).to(u.deg)
+    rho_km = column_values(rows, "rho_km", u.km).value
+    order = np.argsort(rho_km)
+    radii = column_values(rows, "rho_arcsec", u.arcsec).value[order] / scale
+    when = Time(mjd, format="mjd").utc.iso[:16]
+    return cutout_figure(data, x=float(column_values(rows, "x_pix", u.pix).value[0]),
+                         y=float(column_values(rows, "y_pix", u.pix).value[0]),
+                         radii_pix=radii, wcs=wcs, pa_sun=pa_sun,
+                         labels=[f"ρ = {r:.0f} km" for r in rho_km[order]],
+                         title=f"{Path(path).stem}, {when} UTC")
+
+
+def _cutout_jobs(measurements, out_dir, max_nights=3):
+    """One cut-out per night (its middle frame), for the first, middle and last nights."""
+    if measurements is None or len(measurements) == 0 or out_dir is None:
+        return {}
+    mjd = column_values(measurements, "mjd_utc_mid", u.day).value
+    night = np.floor(mjd - 0.5)
+    nights = np.unique(night[np.isfinite(night)])
+    if nights.size > max_nights:
+        nights = nights[[0, nights.size // 2, -1]]
+    frames = np.asarray(measurements["frame"]).astype(str)
+    jobs = {}
+    for n in nights:
+        sel = np.flatnonzero(night == n)
+        middle = sel[np.argsort(mjd[sel])][sel.size // 2]
+        path = _frame_file(out_dir, frames[middle])
+        if path is None:
+            continue
+        rows = measurements[frames == frames[middle]]
+        date = night_date(mjd[sel])
+        jobs[f"cutouts_{date}"] = (
+            f"Frame {frames[middle]} of {date} around the comet (asinh stretch): the apertures "
+            "fixed in km and on the sky, the projected direction to the Sun, north and east.",
+            lambda path=path, rows=rows: _cutout(path, rows))
+    return jobs
+
+
 def draw_figures(measurements, nucleus, analysis, settings, notes, *, extra=None,
                  out_dir=None):
     """Draw the campaign figures there is data for; return (figures, captions) by name.
@@ -209,8 +272,9 @@ def draw_figures(measurements, nucleus, analysis, settings, notes, *, extra=None
     left out and the reason appended to ``notes``.
     """
     figures, captions = {}, {}
-    for name, (caption, build) in _figure_jobs(measurements, nucleus, analysis,
-                                               settings).items():
+    jobs = {**_cutout_jobs(measurements, out_dir),
+            **_figure_jobs(measurements, nucleus, analysis, settings)}
+    for name, (caption, build) in jobs.items():
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")  # a figure's drawing warnings are not results

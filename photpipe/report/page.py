@@ -282,8 +282,8 @@ def _sections_html(figures, tables, captions, reasons, max_rows):
     parts, used_f, used_t = [], set(), set()
     for key, title, fig_names, table_names in SECTIONS:
         body = []
-        for name in fig_names:
-            if name in figures:
+        for stem in fig_names:
+            for name in [n for n in figures if n == stem or n.startswith(stem + "_")]:
                 body.append(_figure_html(name, figures[name], captions))
                 used_f.add(name)
         for name in table_names:

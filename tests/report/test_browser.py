@@ -13,8 +13,8 @@ import subprocess
 import pytest
 from campaign._step_inputs import write_report_campaign
 
-from photpipe.config import load_config
 from photpipe.campaign.report_step import run_report_stage
+from photpipe.config import load_config
 
 BROWSER = next((shutil.which(n) for n in ("chromium", "chromium-browser", "google-chrome")
                 if shutil.which(n)), None)
