@@ -91,12 +91,19 @@ def nongrav_acceleration(r_helio, v_helio, a123, g_law=water_g):
     """
     r = np.asarray(r_helio, dtype=float)
     v = np.asarray(v_helio, dtype=float)
-    rn = np.sqrt(np.sum(r * r, axis=0))
-    h = np.cross(r, v, axis=0)
-    n_hat = h / np.sqrt(np.sum(h * h, axis=0))
+    rn = np.sqrt(r[0] ** 2 + r[1] ** 2 + r[2] ** 2)
+    h = _cross(r, v)
+    n_hat = h / np.sqrt(h[0] ** 2 + h[1] ** 2 + h[2] ** 2)
     r_hat = r / rn
-    t_hat = np.cross(n_hat, r_hat, axis=0)
+    t_hat = _cross(n_hat, r_hat)
     g = g_law(rn)
     basis = g * np.stack([r_hat, t_hat, n_hat])
-    a = np.tensordot(np.asarray(a123, dtype=float), basis, axes=(0, 0))
+    a123 = np.asarray(a123, dtype=float)
+    a = a123[0] * basis[0] + a123[1] * basis[1] + a123[2] * basis[2]
     return a, basis
+
+
+def _cross(a, b):
+    # along the first axis, written out: np.cross moves axes and is slow on small arrays
+    return np.stack([a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2],
+                     a[0] * b[1] - a[1] * b[0]])
