@@ -174,7 +174,7 @@ def _drop_duplicates(rows, problems):
 
 
 def read_ades(paths, *, default_rms_arcsec=None):
-    """Read optical observations from ADES files (PSV or XML, told apart by their content).
+    r"""Read optical observations from ADES files (PSV or XML, told apart by their content).
 
     Parameters
     ----------
@@ -193,10 +193,10 @@ def read_ades(paths, *, default_rms_arcsec=None):
     Examples
     --------
     >>> import os, tempfile
-    >>> text = ("# version=2017\\n"
-    ...         "permID|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|astCat\\n"
-    ...         "C1|CCD|Z01|2026-01-05T03:00:00.0Z|120.5|10.25|0.3|0.3|Gaia3\\n"
-    ...         "C1|CCD|Z01|2026-01-05T03:10:00.0Z|120.6|abc|0.3|0.3|Gaia3\\n")
+    >>> text = ("# version=2017\n"
+    ...         "permID|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|astCat\n"
+    ...         "C1|CCD|Z01|2026-01-05T03:00:00.0Z|120.5|10.25|0.3|0.3|Gaia3\n"
+    ...         "C1|CCD|Z01|2026-01-05T03:10:00.0Z|120.6|abc|0.3|0.3|Gaia3\n")
     >>> with tempfile.TemporaryDirectory() as d:
     ...     p = os.path.join(d, "night.psv")
     ...     _ = open(p, "w").write(text)

@@ -11,7 +11,6 @@ import numpy as np
 from astropy import units as u
 from astropy.time import Time
 
-from photpipe.geometry.orbit import Orbit
 from photpipe.orbit._bodies import BodyTrack, body_states
 from photpipe.orbit._lsq import FitData, OrbitFitError, correct
 from photpipe.orbit._robust import robust_fit
@@ -20,7 +19,7 @@ from photpipe.orbit.limits import acceleration_verdict
 from photpipe.orbit.nongrav import G_LAWS
 from photpipe.orbit.observe import observer_positions
 from photpipe.orbit.propagate import ForceModel, integrate
-from photpipe.orbit.result import OrbitSolution, nongrav_not_formed, solution_from_fit
+from photpipe.orbit.result import nongrav_not_formed, solution_from_fit
 from photpipe.orbit.sites import site_vectors
 
 __all__ = ["OrbitFitOptions", "fit_orbit", "OrbitFitError", "prepare_observations"]
@@ -71,6 +70,10 @@ def prepare_observations(table, sites=None):
     """
     xyz, problems = site_vectors(table, sites)
     kept = np.flatnonzero(np.all(np.isfinite(xyz), axis=0))
+    if kept.size < 6:
+        msg = (f"{kept.size} usable observations; an orbit needs at least 6 (3 positions)"
+               + (f"; first problem: {problems[0]}" if problems else ""))
+        raise OrbitFitError(msg)
     sub = table[kept]
     jd, obs_pos = observer_positions(sub["time"], xyz[:, kept])
     data = FitData(jd=jd, obs_pos=obs_pos,
@@ -103,12 +106,16 @@ def _move_state(state, jd_from, jd_to, track):
 def _gauss_start(data, track, model):
     """First orbit: Gauss on a short stretch, then the stretch doubled until it is the arc."""
     t0, t_end = data.jd.min(), data.jd.max()
-    window = min(max(10.0, (t_end - t0) / 16.0), t_end - t0)
+    nights = np.unique(np.floor(data.jd - 0.5))
+    # the shortest stretch from the start with three nights, and at least 10 days if there
+    window = max(min(10.0, t_end - t0), nights[min(2, nights.size - 1)] + 1.0 - t0)
+    window = min(window, t_end - t0)
     best = None
     while True:
         sel = data.jd <= t0 + window
         idx = np.flatnonzero(sel)
-        picks = [idx[0], idx[np.argmin(np.abs(data.jd[idx] - data.jd[idx].mean()))], idx[-1]]
+        middle = idx[np.argmin(np.abs(data.jd[idx] - 0.5 * (data.jd[idx[0]] + data.jd[idx[-1]])))]
+        picks = [idx[0], middle, idx[-1]]
         best = _best_candidate(data, picks, sel, track, model) if best is None else \
             _refit(data, best, sel, track, model)
         if window >= t_end - t0:
@@ -180,9 +187,6 @@ def fit_orbit(table, *, sites=None, elements=None, epoch=None, options=OrbitFitO
         converge (a non-gravitational fit that fails only makes its result "not formed").
     """
     data, kept, problems = prepare_observations(table, sites)
-    if data.size < 6:
-        msg = f"{data.size} usable observations; an orbit needs at least 6 (3 positions)"
-        raise OrbitFitError(msg)
     jd_epoch = (np.floor(np.median(data.jd) - 0.5) + 0.5) if epoch is None else \
         float(epoch.tdb.jd1 + epoch.tdb.jd2)
     track = BodyTrack(min(data.jd.min(), jd_epoch) - 2.0, max(data.jd.max(), jd_epoch) + 2.0)

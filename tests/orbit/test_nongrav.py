@@ -2,8 +2,8 @@ import numpy as np
 import pytest
 
 from photpipe.orbit.limits import acceleration_verdict
-from photpipe.orbit.nongrav import (WATER_CONSTANTS, inverse_square_g, nongrav_acceleration,
-                                    water_g)
+from photpipe.orbit import nongrav_acceleration
+from photpipe.orbit.nongrav import WATER_CONSTANTS, inverse_square_g, water_g
 
 
 def test_water_law_is_normalised_at_one_au():
