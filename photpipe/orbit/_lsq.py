@@ -78,7 +78,10 @@ def _normal_solution(xi, b, used):
     rhs = xi[used].ravel()
     scale = np.sqrt(np.sum(jac * jac, axis=0))
     scale[scale == 0] = 1.0
-    u_, s, vt = np.linalg.svd(jac / scale, full_matrices=False)
+    # QR first: the SVD then works on a p x p triangle instead of the tall matrix
+    q, r = np.linalg.qr(jac / scale)
+    u_, s, vt = np.linalg.svd(r)
+    u_ = q @ u_
     if s[-1] <= s[0] * 1e-13:
         msg = "the normal equations are singular (too few observations or too short an arc)"
         raise OrbitFitError(msg)
@@ -89,7 +92,7 @@ def _normal_solution(xi, b, used):
 
 def correct(data, model, params, jd_epoch, *, used, factor, track, fixed_a=(0.0, 0.0, 0.0),
             max_iter=25):
-    """Gauss-Newton iterations with step halving until the step is below 1e-4 σ.
+    """Gauss-Newton iterations with step halving until the step is below 1e-3 σ.
 
     Notes
     -----
@@ -121,7 +124,7 @@ def correct(data, model, params, jd_epoch, *, used, factor, track, fixed_a=(0.0,
             raise OrbitFitError(msg)
         params, chi2 = trial, new_chi2
         resid, xi, b = out
-        if size < 1e-4:
+        if size < 1e-3:
             break
     else:
         msg = f"no convergence in {max_iter} iterations (last step {size:.3g} σ)"

@@ -5,6 +5,7 @@ equations are carried along, so every state comes with its partial derivatives w
 the state at the epoch and to the non-gravitational parameters.
 """
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -12,7 +13,7 @@ from scipy.integrate import solve_ivp
 
 from photpipe.geometry._constants import C_AU_PER_DAY
 from photpipe.orbit._bodies import PERTURBERS, BodyTrack
-from photpipe.orbit.nongrav import nongrav_acceleration, water_g
+from photpipe.orbit.nongrav import WATER_CONSTANTS, inverse_square_g, water_g
 
 __all__ = ["ForceModel", "Trajectory", "integrate", "accelerations"]
 
@@ -82,26 +83,57 @@ def accelerations(jd, r, v, model, track, a123):
         acc = acc + _relativity(r - sun, v, track.gm[0])
     d_a = np.zeros((3, len(model.nongrav)))
     if np.any(a123) or model.nongrav:
-        rh = r - sun
-        ng, basis = nongrav_acceleration(rh, v, a123, model.g_law)
-        acc = acc + ng
+        rh = (r - sun).tolist()
+        vl = v.tolist()
+        g_law = _SCALAR_LAWS.get(model.g_law, model.g_law)
+        basis = _basis_point(rh, vl, g_law)
+        acc = acc + a123 @ basis
         d_a = basis[[k - 1 for k in model.nongrav]].T
         if np.any(a123):
-            d_r, d_v = _nongrav_partials(rh, v, a123, model.g_law, ng, d_r, d_v)
+            d_r, d_v = _nongrav_partials(rh, vl, a123, g_law, basis, d_r, d_v)
     return acc, d_r, d_v, d_a
 
 
-def _nongrav_partials(rh, v, a123, g_law, ng, d_r, d_v):
-    # forward differences of the small non-gravitational term, all six in one call (its
-    # partials change the transition matrix by ~|a_ng|/|a_sun|; 1e-7 relative steps suffice)
-    hr = 1e-7 * np.sqrt(rh @ rh)
-    hv = 1e-7 * np.sqrt(v @ v)
-    eye = np.eye(3)
-    r_many = np.concatenate([rh[:, None] + hr * eye, np.repeat(rh[:, None], 3, axis=1)], axis=1)
-    v_many = np.concatenate([np.repeat(v[:, None], 3, axis=1), v[:, None] + hv * eye], axis=1)
-    acc, _ = nongrav_acceleration(r_many, v_many, a123, g_law)
-    diff = acc - ng[:, None]
-    return d_r + diff[:, :3] / hr, d_v + diff[:, 3:] / hv
+def _water_scalar(r):
+    c = WATER_CONSTANTS
+    x = r / c["r0"]
+    return c["alpha"] * x ** (-c["m"]) * (1.0 + x ** c["n"]) ** (-c["k"])
+
+
+#: The same laws on plain floats: numpy's per-call cost dominates on single values.
+_SCALAR_LAWS = {water_g: _water_scalar, inverse_square_g: lambda r: 1.0 / (r * r)}
+
+
+def _basis_point(rh, v, g_law):
+    # g r̂, g t̂, g n̂ (rows) at one point, on Python floats (Marsden et al. 1973, Eq. 1)
+    x, y, z = rh
+    vx, vy, vz = v
+    r = math.sqrt(x * x + y * y + z * z)
+    hx, hy, hz = y * vz - z * vy, z * vx - x * vz, x * vy - y * vx
+    hn = math.sqrt(hx * hx + hy * hy + hz * hz)
+    nx, ny, nz = hx / hn, hy / hn, hz / hn
+    ux, uy, uz = x / r, y / r, z / r
+    g = g_law(r)
+    return g * np.array([[ux, uy, uz],
+                         [ny * uz - nz * uy, nz * ux - nx * uz, nx * uy - ny * ux],
+                         [nx, ny, nz]])
+
+
+def _nongrav_partials(rh, v, a123, g_law, basis, d_r, d_v):
+    # forward differences of the small non-gravitational term (its partials change the
+    # transition matrix by ~|a_ng|/|a_sun|; 1e-7 relative steps are ample)
+    ng = a123 @ basis
+    hr = 1e-7 * math.sqrt(sum(c * c for c in rh))
+    hv = 1e-7 * math.sqrt(sum(c * c for c in v))
+    d_r, d_v = d_r.copy(), d_v.copy()
+    for j in range(3):
+        rj = list(rh)
+        rj[j] += hr
+        d_r[:, j] += (a123 @ _basis_point(rj, v, g_law) - ng) / hr
+        vj = list(v)
+        vj[j] += hv
+        d_v[:, j] += (a123 @ _basis_point(rh, vj, g_law) - ng) / hv
+    return d_r, d_v
 
 
 def _rhs_factory(model, track, a123, n_par):

@@ -129,7 +129,8 @@ def observe(helio, times, locations):
 
 
 def synthetic_campaign(seed, *, kind="hyperbolic", a123=(0.0, 0.0, 0.0), n_sites=12,
-                       n_obs=240, days=150.0, start="2026-01-20T00:00:00"):
+                       n_obs=240, days=150.0, start="2026-01-20T00:00:00", noise_seed=None,
+                       noise_scale=1.0):
     """Observations (table as read from ADES), sites and the truth of one synthetic campaign."""
     rng = np.random.default_rng(seed)
     sites = make_sites(rng, n_sites)
@@ -146,8 +147,9 @@ def synthetic_campaign(seed, *, kind="hyperbolic", a123=(0.0, 0.0, 0.0), n_sites
     jd_all = times.tdb.jd
     helio = integrate_truth(orbit, jd_mid, jd_all.min(), jd_all.max(), a123)
     ra, dec = observe(helio, times, [sites[s] for s in stn])
-    dra = rng.normal(0, sig) / 3600.0 / np.cos(np.radians(dec))
-    ddec = rng.normal(0, sig) / 3600.0
+    noise = rng if noise_seed is None else np.random.default_rng(noise_seed)
+    dra = noise_scale * noise.normal(0, sig) / 3600.0 / np.cos(np.radians(dec))
+    ddec = noise_scale * noise.normal(0, sig) / 3600.0
     table = QTable({"obs_id": np.array([f"o{k}" for k in range(n_obs)]),
                     "object": np.full(n_obs, "C1"), "stn": stn, "time": times,
                     "ra_deg": (ra + dra) % 360, "dec_deg": dec + ddec,

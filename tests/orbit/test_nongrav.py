@@ -1,8 +1,8 @@
 import numpy as np
 import pytest
 
-from photpipe.orbit.limits import acceleration_verdict
 from photpipe.orbit import nongrav_acceleration
+from photpipe.orbit.limits import acceleration_verdict
 from photpipe.orbit.nongrav import WATER_CONSTANTS, inverse_square_g, water_g
 
 
