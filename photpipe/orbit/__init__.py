@@ -8,6 +8,8 @@ from photpipe.orbit.ades import *  # noqa: F403
 from photpipe.orbit.ades import __all__ as _ades_all
 from photpipe.orbit.astrometry import *  # noqa: F403
 from photpipe.orbit.astrometry import __all__ as _astrometry_all
+from photpipe.orbit.bound import *  # noqa: F403
+from photpipe.orbit.bound import __all__ as _bound_all
 from photpipe.orbit.figures import *  # noqa: F403
 from photpipe.orbit.figures import __all__ as _figures_all
 from photpipe.orbit.fit import *  # noqa: F403
@@ -27,6 +29,6 @@ from photpipe.orbit.result import __all__ as _result_all
 from photpipe.orbit.sites import *  # noqa: F403
 from photpipe.orbit.sites import __all__ as _sites_all
 
-__all__ = (_ades_all + _astrometry_all + _fit_all + _initial_all + _limits_all + _nongrav_all
-           + _observe_all
-           + _propagate_all + _result_all + _sites_all + _figures_all)
+__all__ = (_ades_all + _astrometry_all + _bound_all + _figures_all + _fit_all + _initial_all
+           + _limits_all + _nongrav_all + _observe_all + _propagate_all + _result_all
+           + _sites_all)
