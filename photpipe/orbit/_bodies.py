@@ -111,6 +111,20 @@ class BodyTrack:
             vel[:, i, :] = v.T
         self._pos, self._vel, self._n = pos, vel, n
 
+    def sun_velocity(self, jd):
+        """Barycentric velocity (AU/day) of the first body (the Sun), from the same table."""
+        x = (jd - self.t0) / self.step
+        i = min(max(int(x), 0), self._n - 2)
+        s = x - i
+        h = self.step
+        s2 = s * s
+        d00 = (6 * s2 - 6 * s) / h
+        d10 = 3 * s2 - 4 * s + 1
+        d01 = (-6 * s2 + 6 * s) / h
+        d11 = 3 * s2 - 2 * s
+        return (d00 * self._pos[i, 0] + d10 * self._vel[i, 0] + d01 * self._pos[i + 1, 0]
+                + d11 * self._vel[i + 1, 0])
+
     def positions(self, jd):
         """Barycentric positions, shape (n_bodies, 3), at one TDB Julian date."""
         x = (jd - self.t0) / self.step

@@ -78,13 +78,17 @@ def accelerations(jd, r, v, model, track, a123):
     positions = track.positions(jd)
     acc, d_r = _gravity(r, positions, track.gm)
     d_v = np.zeros((3, 3))
-    sun = positions[0] if track.names[0] == "sun" else np.zeros(3)
-    if model.relativity and track.names[0] == "sun":
-        acc = acc + _relativity(r - sun, v, track.gm[0])
+    has_sun = track.names[0] == "sun"
+    sun = positions[0] if has_sun else np.zeros(3)
+    needs_helio = (model.relativity and has_sun) or np.any(a123) or model.nongrav
+    # heliocentric velocity: the Sun moves ~15 m/s about the barycentre
+    vh = v - track.sun_velocity(jd) if needs_helio and has_sun else v
+    if model.relativity and has_sun:
+        acc = acc + _relativity(r - sun, vh, track.gm[0])
     d_a = np.zeros((3, len(model.nongrav)))
     if np.any(a123) or model.nongrav:
         rh = (r - sun).tolist()
-        vl = v.tolist()
+        vl = vh.tolist()
         g_law = _SCALAR_LAWS.get(model.g_law, model.g_law)
         basis = _basis_point(rh, vl, g_law)
         acc = acc + a123 @ basis

@@ -1,10 +1,11 @@
 import json
 
 import pytest
-from _files import write_campaign
-from _synthetic import synthetic_campaign
 
 from photpipe.cli.main import main
+
+from ._files import write_campaign
+from ._synthetic import synthetic_campaign
 
 
 @pytest.mark.slow

@@ -1,10 +1,11 @@
 import numpy as np
 import pytest
-from _synthetic import synthetic_campaign
 from astropy.time import Time
 
 from photpipe.orbit import OrbitFitError, OrbitFitOptions, fit_orbit
 from photpipe.orbit.result import _element_vector
+
+from ._synthetic import synthetic_campaign
 
 A_TRUE = (1e-8, 2e-9, 0.0)   # AU/day², the order of active comets' A1 (Marsden et al. 1973)
 

@@ -19,6 +19,9 @@ class _StillSun:
     def positions(self, jd):
         return np.zeros((1, 3))
 
+    def sun_velocity(self, jd):
+        return np.zeros(3)
+
 
 def test_mars_from_its_de421_state_follows_de421_for_a_year():
     # A massless body started on the Mars-system barycentre of DE421 (Folkner, Williams & Boggs
