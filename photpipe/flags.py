@@ -45,12 +45,24 @@ FLAGS = {
     "airmass_computed": ("photometry", "no AIRMASS in the header: computed from the site and "
                                        "time (informational)"),
     # nucleus
-    "upper_limit": ("nucleus", "the nucleus is not detected: its magnitude is an upper limit "
-                               "(the faintest nucleus the data allow)"),
-    "fit_at_bound": ("nucleus", "a fitted parameter ended at its bound"),
+    "upper_limit": ("nucleus", "the nucleus is not detected or not separable (see the other "
+                               "flags): its magnitude is an upper limit (the faintest nucleus the"
+                               " data allow)"),
+    "fit_at_bound": ("nucleus", "the nucleus centre reached its allowed shift: the nucleus is an "
+                                "upper limit"),
     "no_convergence": ("nucleus", "the nucleus + coma fit did not converge"),
     "profile_disagrees": ("nucleus", "the radial profile disagrees with the 2-D fit"),
-    "star_near_nucleus": ("nucleus", "a field star near the nucleus was masked"),
+    "star_near_nucleus": ("nucleus", "a catalogued star within 2 FWHM of the nucleus: the nucleus"
+                                     " is an upper limit"),
+    "core_masked": ("nucleus", "over a quarter of the pixels within one FWHM of the nucleus are "
+                               "unusable: the nucleus is left out (NaN), the coma still fitted"),
+    "no_error": ("nucleus", "the nucleus fit gave no finite error: the nucleus is left out (NaN)"),
+    "gamma_fixed": ("nucleus", "the coma is not seen (K under 2 sigma or its index "
+                               "unconstrained): the index held at 1"),
+    "uncatalogued_star_masked": ("nucleus", "a star not in the catalogue, found in the fit "
+                                            "residual, was masked"),
+    "uncatalogued_star_fitted": ("nucleus", "a star not in the catalogue, found near the nucleus,"
+                                            " was fitted with it"),
     # rotation
     "single_night": ("rotation", "all points come from one night: longer periods and the cycle "
                                  "count between nights are not constrained"),

@@ -6,6 +6,8 @@ import numpy as np
 from astropy import units as u
 from astropy.io import fits
 
+from photpipe.flags import FLAGS
+
 from .psf import PSFModel
 
 __all__ = ["NucleusFit", "NUCLEUS_COLUMNS", "NUCLEUS_FLAGS", "WARN_FLAGS"]
@@ -15,26 +17,10 @@ NUCLEUS_COLUMNS = ("frame", "mjd_utc_mid", "nucleus_mag", "nucleus_mag_err", "nu
                    "coma_k", "coma_gamma", "fwhm_arcsec", "nucleus_fraction", "chi2_red",
                    "method", "flags")
 
-#: Flag words of a nucleus fit and what they mean (one registry for tables, report and docs).
-NUCLEUS_FLAGS = {
-    "upper_limit": "nucleus not detected (or not separable, see the other flags): the flux "
-                   "and magnitude are a limit, the nucleus at most this bright",
-    "core_masked": "over a quarter of the pixels within one FWHM of the nucleus are unusable "
-                   "(NaN, saturated, flagged): the nucleus is left out (NaN)",
-    "no_error": "the fit gave no finite error: the nucleus is left out (NaN)",
-    "psf_fallback": "no usable PSF star: an assumed Moffat; the nucleus is an upper limit",
-    "star_near_nucleus": "a catalogued star within 2 FWHM of the nucleus: the nucleus is an "
-                         "upper limit",
-    "fit_at_bound": "the nucleus centre reached its allowed shift: the nucleus is an upper "
-                    "limit",
-    "no_convergence": "the minimiser ran out of evaluations",
-    "gamma_fixed": "the coma is not seen (K < 2σ or γ unconstrained): γ held at 1",
-    "uncatalogued_star_masked": "a star not in the catalogue found in the residual, masked",
-    "uncatalogued_star_fitted": "a star not in the catalogue found near the nucleus, fitted",
-    "profile_disagrees": "the 1-D profile estimate differs from the 2-D fit by over 3σ",
-    "saturated": "saturated pixels within 3 pixels of the nucleus",
-    "edge": "the box reaches past the frame edge",
-}
+#: Flag words a nucleus fit can carry and what they mean, taken from the one registry
+#: (`photpipe.flags.FLAGS`): the nucleus stage's own, and the PSF's and the cutout's.
+NUCLEUS_FLAGS = {word: text for word, (stage, text) in FLAGS.items()
+                 if stage == "nucleus" or word in ("psf_fallback", "saturated", "edge")}
 
 #: Flags that make `fit_nucleus` warn (`~photpipe.PoorResultWarning`).
 WARN_FLAGS = ("psf_fallback", "upper_limit", "no_convergence", "fit_at_bound",
