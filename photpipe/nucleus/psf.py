@@ -475,7 +475,8 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     order = sorted(methods, key=lambda k: k != "moffat")
     shared_z = np.nan
     for name in order:
-        if name == "epsf" and epsf == "needed" and not shared_z > SHARED_RESIDUAL_SIGMA:
+        if (name == "epsf" and epsf == "needed" and "moffat" in candidates
+                and not shared_z > SHARED_RESIDUAL_SIGMA):
             continue
         try:
             candidates[name] = PSF_BUILDERS[name](stamps, fwhm_guess, star_trail)
