@@ -10,7 +10,7 @@ from scipy import stats
 
 from photpipe.rotation.fourier_model import design_matrix
 
-__all__ = ["odd_harmonics_f_test", "zero_points_f_test"]
+__all__ = ["odd_harmonics_f_test", "zero_points_f_test", "repeat_f_test"]
 
 
 def _weighted_chi2_and_rank(a, y, sw):
@@ -94,6 +94,44 @@ def odd_harmonics_f_test(t, y, dy, frequency, order, *, blocks=None, fitted_para
     return _nested_f_test(min(fits["double"]), min(fits["single"]), y.size, fitted_params)
 
 
+def repeat_f_test(t, y, dy, frequency, order, repeats, *, blocks=None, fitted_params=1):
+    """Return the p-value that the curve at ``frequency`` is ``repeats`` identical parts.
+
+    The curve with ``order`` harmonics of ``frequency`` is compared with the same curve keeping
+    only the harmonics that are multiples of ``repeats`` (the curve at ``repeats * frequency``);
+    the extra-sum-of-squares F test of :func:`odd_harmonics_f_test` (which is the case
+    ``repeats = 2``) decides. Returns ``(p, f_stat, dof)``; NaN when untestable.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(2)
+    >>> t = np.sort(rng.uniform(0, 6, 300))
+    >>> y = 0.2 * np.cos(2 * np.pi * 3 * 1.3 * t) + rng.normal(0, 0.02, 300)
+    >>> bool(repeat_f_test(t, y, np.full(300, 0.02), 1.3, 3, 3)[0] > 1e-3)
+    True
+    >>> y = y + 0.05 * np.cos(2 * np.pi * 1.3 * t)
+    >>> bool(repeat_f_test(t, y, np.full(300, 0.02), 1.3, 3, 3)[0] < 1e-6)
+    True
+    """
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    sw = 1.0 / np.asarray(dy, dtype=float)
+    harmonics = design_matrix(t, frequency, order, t0=float(np.mean(t)))[:, 1:]
+    k = np.repeat(np.arange(1, order + 1), 2)
+    offsets = _offsets(t, blocks)
+    full = _weighted_chi2_and_rank(np.hstack([offsets, harmonics]), y, sw)
+    kept = _weighted_chi2_and_rank(np.hstack([offsets, harmonics[:, k % repeats == 0]]), y, sw)
+    return _nested_f_test(full, kept, y.size, fitted_params)
+
+
+def _offsets(t, blocks):
+    if blocks is None:
+        return np.ones((t.size, 1))
+    _, inverse = np.unique(np.asarray(blocks), return_inverse=True)
+    return (inverse[:, None] == np.arange(inverse.max() + 1)).astype(float)
+
+
 def zero_points_f_test(t, y, dy, frequency, order, blocks, *, fitted_params=1):
     """Return the p-value that all site-nights share one zero point, and the F test.
 
@@ -126,11 +164,7 @@ def _columns(t, dy, frequency, order, blocks):
     t = np.asarray(t, dtype=float)
     sw = 1.0 / np.asarray(dy, dtype=float)
     harmonics = design_matrix(t, frequency, 2 * order, t0=float(np.mean(t)))[:, 1:]
-    if blocks is None:
-        offsets = np.ones((t.size, 1))
-    else:
-        _, inverse = np.unique(np.asarray(blocks), return_inverse=True)
-        offsets = (inverse[:, None] == np.arange(inverse.max() + 1)).astype(float)
+    offsets = _offsets(t, blocks)
     return sw, offsets, harmonics, np.repeat(np.arange(1, 2 * order + 1), 2)
 
 
