@@ -6,7 +6,7 @@ from astropy import constants as const
 from astropy import units as u
 from astropy.table import QTable
 
-from photpipe.rotation import RotationWarning, LightcurveError, reduce_lightcurve
+from photpipe.rotation import LightcurveError, RotationWarning, reduce_lightcurve
 
 
 def _rows(**over):
@@ -61,11 +61,13 @@ def test_hg_law_and_quantity_columns():
                  id="negative-error"),
     pytest.param("nucleus_mag", [20.0, np.nan, 20.2], "no finite magnitude", id="nan-mag"),
     pytest.param("mjd_utc_mid", [61000.0, np.nan, 61001.0], "no finite epoch", id="nan-epoch"),
-    pytest.param("delta_au", [1.5, 0.0, 1.5], "missing or non-positive r_h_au or delta_au", id="delta"),
+    pytest.param("delta_au", [1.5, 0.0, 1.5], "missing or non-positive r_h_au or delta_au",
+                 id="delta"),
 ])
 def test_bad_rows_are_set_aside_with_their_reason(column, value, text):
     # one bad row never refuses the lightcurve: it is set aside, counted and named
-    with pytest.warns(RotationWarning, match=f"1 of 3 lightcurve rows set aside: 1 with {re.escape(text)}"):
+    expected = f"1 of 3 lightcurve rows set aside: 1 with {re.escape(text)}"
+    with pytest.warns(RotationWarning, match=expected):
         lc = reduce_lightcurve(_rows(**{column: value}))
     assert lc.n_points == 2 and list(lc.frame) == ["a", "c"]
     assert lc.set_aside == (("b", next(r for r in lc.set_aside_counts)),)
