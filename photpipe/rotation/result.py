@@ -216,8 +216,8 @@ class RotationResult:
         for name, m in d["methods"].items():
             lines.append(f"{name:<13s} best {m['period_h']:.4f} h ({m['relation']})")
         for p in d["allowed_periods"][1:]:
-            lines.append(f"also allowed {p['period_h']:.4f} h ({p['relation']}, "
-                         f"Δχ² = {p['delta_chi2']:.1f})")
+            dchi = "untested" if p["delta_chi2"] is None else f"Δχ² = {p['delta_chi2']:.1f}"
+            lines.append(f"also allowed {p['period_h']:.4f} h ({p['relation']}, {dchi})")
         if self.n_upper_limits_set_aside or self.set_aside:
             parts = [f"{self.n_upper_limits_set_aside} upper limits"] + [
                 f"{n} with {why}" for why, n in self.set_aside.items()]

@@ -5,10 +5,14 @@ number of harmonics: the window aliases, the integer relatives (1/3, 1/2, 2/3, 3
 times the period), and the best periods of the other methods. Every rival within a Δχ²
 threshold is an allowed period. The result is ``"ambiguous"`` when any rival is allowed, the
 period sits at the edge of the searched range, one night cannot tell (fewer than two cycles, or
-the double-peaked alternative untestable), and ``"none"`` when the variation is not significant.
+the double-peaked alternative untestable), or the sampling is sparse (fewer than four points per
+fitted parameter, or over a third of the rotation unobserved), and ``"none"`` when the variation is
+not significant.
 """
 
 from dataclasses import dataclass
+
+import numpy as np
 
 from photpipe.rotation.fit import fit_fourier_series
 
@@ -83,7 +87,32 @@ def _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width):
         if m["relation"] == "unrelated":
             rivals.append(_rival(t, y, dy, fit, 24.0 / m["period_h"], f"best of {name}",
                                  half_width))
+    if assumed:
+        # whatever names it (an alias can land on it), half the period of an assumed
+        # double-peaked curve fits by construction
+        half_h = 12.0 / fit.frequency
+        tol = max(half_width / (2 * fit.frequency), 1e-3)  # one peak half-width at 2f
+        rivals = [r for r in rivals if abs(r["period_h"] / half_h - 1) > tol]
     return rivals
+
+
+# Fewest points per fitted parameter of the adopted curve, and the largest gap in rotational
+# phase it may leave (project choices: below these a curve with its period free can be fitted
+# to noise or to an alias and still look significant).
+_MIN_POINTS_PER_PARAMETER = 4
+_MAX_PHASE_GAP = 0.35
+
+
+def _coverage_reasons(t, fit):
+    reasons = []
+    n_par = 2 * fit.order + 2
+    if t.size < _MIN_POINTS_PER_PARAMETER * n_par:
+        reasons.append(f"{t.size} points for a curve of {n_par} parameters (sparse sampling)")
+    phase = np.sort(fit.phase(t))
+    gap = float(np.max(np.diff(np.concatenate([phase, [phase[0] + 1.0]]))))
+    if gap > _MAX_PHASE_GAP:
+        reasons.append(f"the points leave {gap:.0%} of the rotation unobserved")
+    return reasons
 
 
 def _sampling_reasons(fit, shape, f_range, baseline_d, nights):
@@ -168,7 +197,8 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
     half_width = 1.0 / (2 * baseline_d)
     rivals = _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width)
     allowed = [r for r in rivals if r["delta_chi2"] < options.delta_chi2]
-    reasons = _sampling_reasons(fit, shape, f_range, baseline_d, nights)
+    reasons = _coverage_reasons(data[0], fit)
+    reasons += _sampling_reasons(fit, shape, f_range, baseline_d, nights)
     if shape.get("choice") == "single-peaked" and reasons and reasons[-1].startswith("the doub"):
         allowed.append({"period_h": 48.0 / fit.frequency, "delta_chi2": None,
                         "relation": "twice the period (double-peaked, untested)"})
