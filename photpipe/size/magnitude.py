@@ -191,7 +191,8 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
     result = AbsoluteMagnitude(H=float(-2.5 * np.log10(flux)),
                                H_err=float(flux_err / flux / _LN10_04),
                                n_points=int(good.sum()), method=method, flags=tuple(flags))
-    if set(flags) - {"rotation_unknown"}:
+    # rotation_unknown and single_night say how the error was formed: it already covers them
+    if set(flags) - {"rotation_unknown", "single_night"}:
         msg = f"absolute magnitude from {result.n_points} point(s) is weak: {', '.join(flags)}"
         warnings.warn(msg, PoorResultWarning, stacklevel=2)
     return result
