@@ -65,6 +65,9 @@ class PeriodVerdict:
 
 def _rival(t, y, dy, fit, frequency, relation, half_width):
     alt = fit_fourier_series(t, y, dy, frequency, fit.order, search_half_width=half_width)
+    if abs(alt.frequency - frequency) > half_width / 2:
+        # the refit found its minimum away from where it started: say where it is
+        relation = f"{fit.frequency / alt.frequency:.3g} times the period (from {relation})"
     return {"period_h": 24.0 / alt.frequency,
             "delta_chi2": float((alt.chi2 - fit.chi2) / fit.error_scale**2),
             "relation": relation}
