@@ -234,28 +234,7 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
     light_time = _get(data, "light_time_s", u.s, required=False)
 
     flags_in = _strings(data, "flags", n, "")
-    limit = np.array(["upper_limit" in str(f).split(",") for f in flags_in], dtype=bool)
-    checks = [
-        (~np.isfinite(mjd), "no finite epoch (mjd_utc_mid)"),
-        (~np.isfinite(mag), "no finite magnitude (nucleus_mag)"),
-        (~limit & ~np.isfinite(err), "NaN or infinite magnitude error (nucleus_mag_err)"),
-        (~limit & np.isfinite(err) & (err <= 0), "zero or negative magnitude error "
-                                                 "(nucleus_mag_err)"),
-        (~(np.isfinite(r_h) & (r_h > 0)) | ~(np.isfinite(delta) & (delta > 0)),
-         "missing or non-positive r_h_au or delta_au"),
-        (~(np.isfinite(alpha) & (alpha >= 0) & (alpha < 180)), "phase angle outside 0-180°"),
-    ]
-    keep, set_aside = _set_aside_bad_rows(frames, checks)
-    if not np.any(keep):
-        reasons = sorted({r for _, r in set_aside})
-        msg = (f"none of the {n} lightcurve rows can be used ({'; '.join(reasons)}): "
-               f"{_name_rows(frames, ~keep)}. Repair them; a period cannot be weighed on such "
-               f"points")
-        raise LightcurveError(msg)
-    if set_aside:
-        warnings.warn(f"{len(set_aside)} of {n} lightcurve rows set aside: "
-                      + "; ".join(f"{c} with {r}" for r, c in _count(set_aside).items()),
-                      RotationWarning, stacklevel=2)
+    keep, set_aside = _usable_rows(frames, flags_in, mjd, mag, err, r_h, delta, alpha)
     (frames, mjd, mag, err, r_h, delta, alpha, flags_in) = (
         a[keep] for a in (frames, mjd, mag, err, r_h, delta, alpha, flags_in))
     data_keep = keep
@@ -294,6 +273,34 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
         filter=_strings(data, "filter", n, "")[data_keep],
         source=source, coma_contaminated=contaminated, flags=flags,
         phase_law=phase_law, phase_parameters=params, set_aside=tuple(set_aside))
+
+
+def _usable_rows(frames, flags, mjd, mag, err, r_h, delta, alpha):
+    """Rows that can be used, and ``(frame, reason)`` for the others (warned, never refused)."""
+    n = len(frames)
+    limit = np.array(["upper_limit" in str(f).split(",") for f in flags], dtype=bool)
+    checks = [
+        (~np.isfinite(mjd), "no finite epoch (mjd_utc_mid)"),
+        (~np.isfinite(mag), "no finite magnitude (nucleus_mag)"),
+        (~limit & ~np.isfinite(err), "NaN or infinite magnitude error (nucleus_mag_err)"),
+        (~limit & np.isfinite(err) & (err <= 0), "zero or negative magnitude error "
+                                                 "(nucleus_mag_err)"),
+        (~(np.isfinite(r_h) & (r_h > 0)) | ~(np.isfinite(delta) & (delta > 0)),
+         "missing or non-positive r_h_au or delta_au"),
+        (~(np.isfinite(alpha) & (alpha >= 0) & (alpha < 180)), "phase angle outside 0-180°"),
+    ]
+    keep, set_aside = _set_aside_bad_rows(frames, checks)
+    if not np.any(keep):
+        reasons = sorted({r for _, r in set_aside})
+        msg = (f"none of the {n} lightcurve rows can be used ({'; '.join(reasons)}): "
+               f"{_name_rows(frames, ~keep)}. Repair them; a period cannot be weighed on such "
+               f"points")
+        raise LightcurveError(msg)
+    if set_aside:
+        warnings.warn(f"{len(set_aside)} of {n} lightcurve rows set aside: "
+                      + "; ".join(f"{c} with {r}" for r, c in _count(set_aside).items()),
+                      RotationWarning, stacklevel=3)
+    return keep, set_aside
 
 
 def _set_aside_bad_rows(frames, checks):

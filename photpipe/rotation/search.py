@@ -8,6 +8,40 @@ site-night), fit the adopted Fourier series with its frequency, estimate errors 
 interval from the covariance and a bootstrap of whole nights, weigh aliases, integer relatives
 and the other methods' periods by Δχ², say what the data allow, and turn the amplitude into a
 lower bound on the axial ratio.
+
+Method and sources
+------------------
+Each order's best grid frequency is refined before the orders are compared
+(:func:`~photpipe.rotation.methods.refine_order_peaks`), and a curve made of two or three
+identical parts moves to twice or three times the frequency before the double-peak test
+(:func:`~photpipe.rotation.shape_choice.decide_shape`). The result's ``status``,
+``allowed_periods`` and ``headline`` say whether the data allow one period, several, or
+none (:func:`~photpipe.rotation.verdict.judge_period`).
+
+The adopted period comes from the least-squares Fourier series (Harris et al. 1989, Icarus
+77, 171) fitted with its frequency; Lomb-Scargle (Zechmeister & Kürster 2009) and PDM
+(Stellingwerf 1978) are computed on the same grid as independent views. Single or double
+peak: the lightcurve at twice the period is fitted with twice the harmonics, and an F test
+on the odd harmonics says whether its two halves differ. When the site-nights' zero points
+differ (an F test at the 5 % level, a preliminary test of pooling, Bancroft 1944, Ann.
+Math. Stat. 15, 190, from memory), both curves of the test get a free zero point per
+site-night (as in the fit of Harris et al. 1989, from memory), so a nightly zero-point
+error cannot pass for odd harmonics and double the period
+(:func:`~photpipe.rotation.odd_harmonics.odd_harmonics_f_test`). The minimum axial ratio is
+``a/b >= 10^(0.4 A(0))``, ``A(0) = A(α)/(1 + s α)`` (Zappalà et al. 1990, A&A 231, 548),
+after removing the coma dilution (:func:`~photpipe.rotation.shape.undilute_amplitude`).
+
+The period error is 1 σ: the larger of the least-squares covariance error (scaled by the
+reduced χ² when above 1) and the bootstrap spread. The bootstrap draws whole site-nights
+with replacement (block bootstrap, Künsch 1989, Ann. Stat. 17, 1217; Efron & Tibshirani
+1993, §8.6), because residuals that share a night (nightly zero-point errors, a model
+with too few harmonics) are correlated, which the covariance and a bootstrap of single
+points both ignore. The 95 % interval is a percentile interval of the resampled periods
+(Efron & Tibshirani 1993, ch. 13) when at least 40 resamples of whole site-nights
+converged, expanded for the few site-nights drawn
+(:func:`~photpipe.rotation.fit.expanded_percentile_interval`, Hesterberg 2015); otherwise
+(no bootstrap, or single points drawn) it is ``period ∓ 1.96 period_err``.
+``period_interval_method`` says which.
 """
 
 import warnings
@@ -134,6 +168,35 @@ def _warn(message):
     warnings.warn(message, RotationWarning, stacklevel=4)
 
 
+def _settings(points, grid, lc, *, n_bootstrap, slope, coma_fraction, fap_limit,
+              min_period_h, oversample):
+    """The settings the search ran with, for ``rotation.json``."""
+    return {"min_period_h": min_period_h, "max_period_h": points.max_period_h,
+            "oversample": oversample, "n_frequencies": grid.n,
+            "baseline_h": points.baseline_h, "n_nights": points.nights,
+            "n_bootstrap": n_bootstrap, "bootstrap_min_blocks": MIN_BOOTSTRAP_BLOCKS,
+            "phase_law": lc.phase_law, "amplitude_phase_slope_per_deg": slope,
+            "coma_fraction": coma_fraction, "fap_limit": fap_limit,
+            **{f"phase_{k}": v for k, v in lc.phase_parameters.items()}}
+
+
+def _checked_inputs(reduced, methods, rng, min_period, max_period, amplitude_phase_slope):
+    """Check the inputs at the edge; return the generator, the period range (h), the slope."""
+    if not isinstance(reduced, ReducedLightcurve):
+        msg = (f"search_rotation takes a ReducedLightcurve (see reduce_lightcurve), got "
+               f"{type(reduced).__name__}")
+        raise TypeError(msg)
+    unknown = [m for m in methods if m not in METHODS]
+    if unknown:
+        msg = f"unknown method(s) {unknown}; choose from {sorted(METHODS)}"
+        raise ValueError(msg)
+    rng = np.random.default_rng() if rng is None else rng
+    pmin_h = as_positive_value(min_period, u.h, "min_period")
+    pmax_h = as_positive_value(max_period, u.h, "max_period")
+    slope = as_value(amplitude_phase_slope, 1 / u.deg, "amplitude_phase_slope")
+    return rng, pmin_h, pmax_h, slope
+
+
 def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
                     methods=("lomb-scargle", "fourier", "pdm"), n_bootstrap=100, rng=None,
                     oversample=10, max_order=4, order_criterion="bic", ls_nterms=2,
@@ -149,25 +212,13 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         The lightcurve (see :func:`~photpipe.rotation.lightcurve.reduce_lightcurve`).
     min_period, max_period : `~astropy.units.Quantity` ['time'], optional
         Range of rotation periods searched.
-    methods : sequence of str, optional
-        Periodograms to compute, keys of `~photpipe.rotation.methods.METHODS`.
+    methods, oversample, max_order, order_criterion, ls_nterms, pdm_bins, pdm_covers : optional
+        How the periodograms are computed: the fields of `MethodOptions`.
     n_bootstrap : int, optional
-        Bootstrap resamples for the period and amplitude errors and the 95 % period interval
-        (0 to skip); whole site-nights are drawn when there are at least five, single points
-        otherwise. The interval is a bootstrap percentile interval from 40 resamples of
-        site-nights on.
+        Bootstrap resamples for the period and amplitude errors and the 95 % interval (0 to
+        skip); whole site-nights from five on, single points otherwise.
     rng : `numpy.random.Generator`, optional
         Random generator for the bootstrap and the amplitude error draws.
-    oversample : int, optional
-        Grid points per peak width ``1/T``.
-    max_order : int, optional
-        Highest Fourier order tried.
-    order_criterion : {"bic", "f-test"}, optional
-        How the Fourier order is chosen.
-    ls_nterms : int, optional
-        Harmonics of the Lomb-Scargle periodogram.
-    pdm_bins, pdm_covers : int, optional
-        PDM bin structure.
     prefer_double_peaked : bool, optional
         When the data cannot tell a single-peaked curve at P from two identical halves at 2P,
         adopt 2P (an elongated body gives two maxima per rotation).
@@ -213,37 +264,7 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
 
     Notes
     -----
-    Each order's best grid frequency is refined before the orders are compared
-    (:func:`~photpipe.rotation.methods.refine_order_peaks`), and a curve made of two or three
-    identical parts moves to twice or three times the frequency before the double-peak test
-    (:func:`~photpipe.rotation.shape_choice.decide_shape`). The result's ``status``,
-    ``allowed_periods`` and ``headline`` say whether the data allow one period, several, or
-    none (:func:`~photpipe.rotation.verdict.judge_period`).
-
-    The adopted period comes from the least-squares Fourier series (Harris et al. 1989, Icarus
-    77, 171) fitted with its frequency; Lomb-Scargle (Zechmeister & Kürster 2009) and PDM
-    (Stellingwerf 1978) are computed on the same grid as independent views. Single or double
-    peak: the lightcurve at twice the period is fitted with twice the harmonics, and an F test
-    on the odd harmonics says whether its two halves differ. When the site-nights' zero points
-    differ (an F test at the 5 % level, a preliminary test of pooling, Bancroft 1944, Ann.
-    Math. Stat. 15, 190, from memory), both curves of the test get a free zero point per
-    site-night (as in the fit of Harris et al. 1989, from memory), so a nightly zero-point
-    error cannot pass for odd harmonics and double the period
-    (:func:`~photpipe.rotation.odd_harmonics.odd_harmonics_f_test`). The minimum axial ratio is
-    ``a/b >= 10^(0.4 A(0))``, ``A(0) = A(α)/(1 + s α)`` (Zappalà et al. 1990, A&A 231, 548),
-    after removing the coma dilution (:func:`~photpipe.rotation.shape.undilute_amplitude`).
-
-    The period error is 1 σ: the larger of the least-squares covariance error (scaled by the
-    reduced χ² when above 1) and the bootstrap spread. The bootstrap draws whole site-nights
-    with replacement (block bootstrap, Künsch 1989, Ann. Stat. 17, 1217; Efron & Tibshirani
-    1993, §8.6), because residuals that share a night (nightly zero-point errors, a model
-    with too few harmonics) are correlated, which the covariance and a bootstrap of single
-    points both ignore. The 95 % interval is a percentile interval of the resampled periods
-    (Efron & Tibshirani 1993, ch. 13) when at least 40 resamples of whole site-nights
-    converged, expanded for the few site-nights drawn
-    (:func:`~photpipe.rotation.fit.expanded_percentile_interval`, Hesterberg 2015); otherwise
-    (no bootstrap, or single points drawn) it is ``period ∓ 1.96 period_err``.
-    ``period_interval_method`` says which.
+    The method and its sources are in the module docstring.
 
     Examples
     --------
@@ -257,18 +278,8 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     >>> bool(abs(result.period - truth.period) < 3 * result.period_err)
     True
     """
-    if not isinstance(reduced, ReducedLightcurve):
-        msg = (f"search_rotation takes a ReducedLightcurve (see reduce_lightcurve), got "
-               f"{type(reduced).__name__}")
-        raise TypeError(msg)
-    unknown = [m for m in methods if m not in METHODS]
-    if unknown:
-        msg = f"unknown method(s) {unknown}; choose from {sorted(METHODS)}"
-        raise ValueError(msg)
-    rng = np.random.default_rng() if rng is None else rng
-    pmin_h = as_positive_value(min_period, u.h, "min_period")
-    pmax_h = as_positive_value(max_period, u.h, "max_period")
-    slope = as_value(amplitude_phase_slope, 1 / u.deg, "amplitude_phase_slope")
+    rng, pmin_h, pmax_h, slope = _checked_inputs(reduced, methods, rng, min_period, max_period,
+                                                 amplitude_phase_slope)
     opt = MethodOptions(tuple(methods), oversample, max_order, order_criterion, ls_nterms,
                         pdm_bins, pdm_covers)
 
@@ -305,13 +316,9 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         flags.append(f"period_{verdict.status}")
         _warn(verdict.headline)
 
-    settings = {"min_period_h": pmin_h, "max_period_h": points.max_period_h,
-                "oversample": oversample, "n_frequencies": grid.n,
-                "baseline_h": points.baseline_h, "n_nights": points.nights,
-                "n_bootstrap": n_bootstrap, "bootstrap_min_blocks": MIN_BOOTSTRAP_BLOCKS,
-                "phase_law": lc.phase_law, "amplitude_phase_slope_per_deg": slope,
-                "coma_fraction": coma_fraction, "fap_limit": fap_limit,
-                **{f"phase_{k}": v for k, v in lc.phase_parameters.items()}}
+    settings = _settings(points, grid, lc, n_bootstrap=n_bootstrap, slope=slope,
+                         coma_fraction=coma_fraction, fap_limit=fap_limit, min_period_h=pmin_h,
+                         oversample=oversample)
     return RotationResult(
         period=24.0 / fit.frequency * u.h, period_err=errors.period_err_h * u.h,
         period_err_covariance=errors.err_covariance_h * u.h,
