@@ -30,11 +30,11 @@ def night_block_mean(mag, err, *, times=None, period=None, n_bins=None, n_harmon
     - with four nights or more, the scatter of the nightly mean fluxes over ``sqrt(n_nights)``
       times Student's t (nights as independent samples of the rotation);
     - with fewer nights, the rotational term ``ΔF / (2 sqrt(3 n_nights))``: a night's mean
-      can lie anywhere within ``±ΔF/2`` of the rotation mean, whose standard deviation for a uniform spread is
-      ``ΔF / (2 sqrt 3)``, and nights average it down as ``1/sqrt(n_nights)``. ``ΔF`` is
-      estimated as ``2 sqrt(2) s_rot``, the peak-to-peak of a sinusoid of the points' rotational
-      scatter ``s_rot² = var(F) - <σ_F²>`` (common practice; the uniform-spread bound is a
-      project choice).
+      can lie anywhere within ``±ΔF/2`` of the rotation mean, whose standard deviation for a
+      uniform spread is ``ΔF / (2 sqrt 3)``, and nights average it down as
+      ``1/sqrt(n_nights)``. ``ΔF`` is estimated as ``2 sqrt(2) s_rot``, the peak-to-peak of a
+      sinusoid of the points' rotational scatter ``s_rot² = var(F) - <σ_F²>`` (common
+      practice; the uniform-spread bound is a project choice).
 
     Flags ``rotation_unknown``, and ``single_night`` for one night.
     """
