@@ -15,6 +15,7 @@ from astropy import units as u
 
 from photpipe._warnings import PoorResultWarning
 from photpipe.config import ConfigError, read_size
+from photpipe.orbit.bound import acceleration_limit_from_fit
 from photpipe.size import (
     absolute_magnitude_limit,
     assess_nucleus,
@@ -212,6 +213,24 @@ def _activity_distance(rows, settings, notes):
     return r_act * u.au
 
 
+def _accel_limit(settings, out_dir, r_act, notes):
+    # the typed [size] limit wins; else the limit of <out_dir>/orbit.json (photpipe orbit)
+    if settings.accel_limit is not None:
+        return settings.accel_limit, {"accel_limit_source": "[size] configuration",
+                                      "accel_limit_confidence": None}
+    path = Path(out_dir) / "orbit.json"
+    fit = read_json(path, "orbit fit")
+    if fit is None:
+        return None, {}
+    limit, prov = acceleration_limit_from_fit(fit.get("nongrav", {}), r_h=r_act,
+                                              source=str(path))
+    if limit is not None:
+        notes.append(f"acceleration limit from the orbit fit ({path.name}, "
+                     f"{100 * prov['accel_limit_confidence']:.0f} % confidence, "
+                     f"{prov['accel_limit_law']} law at r_h {prov['accel_limit_r_h_au']:.3g} AU)")
+    return limit, prov
+
+
 def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
     """Run the size stage on a lightcurve and write ``<out_dir>/size.json``.
 
@@ -261,31 +280,35 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
     with warnings.catch_warnings(record=True) as caught:
         # poor but usable (a large H error, a mass below the momentum bound): kept, said
         warnings.simplefilter("always", PoorResultWarning)
-        result = _assess(rows, reduced, rotation, settings, name_of_file, notes)
+        result, provenance = _assess(rows, reduced, rotation, settings, name_of_file, notes,
+                                     out_dir)
     return _write(result, out_dir, [str(w.message) for w in caught
-                                    if issubclass(w.category, PoorResultWarning)])
+                                    if issubclass(w.category, PoorResultWarning)], provenance)
 
 
-def _assess(rows, reduced, rotation, settings, name_of_file, notes):
+def _assess(rows, reduced, rotation, settings, name_of_file, notes, out_dir):
     h = _absolute_magnitude(rows, reduced, rotation, notes)
+    r_act = _activity_distance(rows, settings, notes)
+    accel_limit, accel_provenance = _accel_limit(settings, out_dir, r_act, notes)
     return assess_nucleus(
         h, band=_band(settings, rows, name_of_file), m_sun=settings.m_sun,
         phase=_phase_coefficient(rows, settings), h_err_limit=settings.h_err_limit_mag,
         albedo=settings.albedo, albedo_range=settings.albedo_range,
         albedo_prior=settings.albedo_prior, density_range=settings.density_range,
         mass_loss=settings.mass_loss, outflow_speed=settings.outflow_speed,
-        accel_limit=settings.accel_limit, efficiency=settings.momentum_efficiency,
+        accel_limit=accel_limit, efficiency=settings.momentum_efficiency,
         composition=settings.composition,
-        activity_r_h=_activity_distance(rows, settings, notes),
+        activity_r_h=r_act,
         sublimation_geometry=settings.sublimation_geometry, bond_albedo=settings.bond_albedo,
         emissivity=settings.emissivity, n_samples=settings.n_samples,
         rng=np.random.default_rng(settings.seed), notes=notes,
-    )
+    ), accel_provenance
 
 
-def _write(result, out_dir, caught=()):
+def _write(result, out_dir, caught=(), provenance=None):
     out = result.to_dict()
     out["warnings"] = list(caught)
+    out.update(provenance or {})
     out["summary"] = result.summary()
     path = Path(out_dir) / "size.json"
     write_text(path, json.dumps(out, indent=2, allow_nan=False) + "\n")
