@@ -203,13 +203,14 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
     reasons = _coverage_reasons(data[0], fit)
     reasons += _sampling_reasons(fit, shape, f_range, baseline_d, nights)
     if shape.get("choice") == "single-peaked" and reasons and reasons[-1].startswith("the doub"):
-        allowed.append({"period_h": 48.0 / fit.frequency, "delta_chi2": None,
-                        "relation": "twice the period (double-peaked, untested)"})
+        # the curve at 2P with twice the harmonics holds the one at P: Δχ² <= 0, so 0 bounds it
+        allowed.append({"period_h": 48.0 / fit.frequency, "delta_chi2": 0.0,
+                        "relation": "twice the period (double-peaked, untested; fits at least "
+                                    "as well by construction)"})
     if allowed:
         reasons.insert(0, f"{len(allowed)} other period(s) fit within Δχ² "
                           f"{options.delta_chi2:g}")
-    allowed = _unique(sorted(allowed, key=lambda r: (r["delta_chi2"] is None,
-                                                     r["delta_chi2"] or 0.0)), adopted)
+    allowed = _unique(sorted(allowed, key=lambda r: r["delta_chi2"]), adopted)
     if not fap <= options.fap_limit:
         reasons.insert(0, f"the false-alarm probability {fap:.2g} exceeds "
                           f"{options.fap_limit:g}: the variation may be noise")
