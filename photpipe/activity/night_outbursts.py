@@ -193,7 +193,8 @@ def find_night_outbursts(time, afrho, afrho_err, *, rho=None, aperture=None,
     (0.5-8 h and a plain step). The noise covariance is
     :math:`{\rm diag}(\sigma_i^2) + w^2 I + r^2 e^{-|\Delta t|/\ell}` with w (0-0.08 mag),
     r (0-0.08 mag) and ℓ (0.3, 1, 3 h) profiled on a grid. The generalised likelihood ratio
-    Λ has no χ² distribution here (Davies 1987, Biometrika 74, 33): it is calibrated by ``n_sims`` simulations of the night under the
+    Λ has no χ² distribution here (Davies 1987, Biometrika 74, 33): it is calibrated by
+    ``n_sims`` simulations of the night under the
     fitted null, with the far tail extended as :math:`e^{-\Lambda/2}` (Gross & Vitells 2010,
     Eur. Phys. J. C 70, 525). ``delta_mag_err`` is the spread of the amplitude over onsets and
     decay times weighted by their likelihood, plus the statistical error.
