@@ -109,14 +109,14 @@ def _summarise(setup, result, p, mjd):
     c = int(result.cell1[0])
     k = int(result.cand[0])
     d = result.dchi2[c, :, 0]
-    a = result.amp[c, :, 0]
-    s2 = 1.0 / setup.norms[c]
-    # Amplitude averaged over the candidates (onset, decay) with weights exp(Δχ²/2), so the
-    # error covers the uncertain onset and decay (model averaging over a flat prior).
-    w = np.where(a > 0, np.exp(0.5 * (d - d.max())), 0.0)
+    # Amplitude averaged over the candidates (onset, decay) and the noise cells with weights
+    # L1 (flat priors), so the error covers the uncertain onset, decay and noise level.
+    log_l1 = result.loglike0[:, :1] + 0.5 * result.dchi2[:, :, 0]
+    a_all = result.amp[:, :, 0]
+    w = np.where(a_all > 0, np.exp(log_l1 - log_l1.max()), 0.0)
     w /= w.sum()
-    amp = float(np.sum(w * a))
-    amp_err = float(np.sqrt(np.sum(w * (s2 + (a - amp) ** 2))))
+    amp = float(np.sum(w * a_all))
+    amp_err = float(np.sqrt(np.sum(w * (1.0 / setup.norms + (a_all - amp) ** 2))))
     j = int(setup.onset_index[k])
     same_onset = setup.onset_index == j
     ok = same_onset & (d >= d[k] - _DECAY_LEVEL)
@@ -197,7 +197,7 @@ def find_night_outbursts(time, afrho, afrho_err, *, rho=None, aperture=None,
     ``n_sims`` simulations of the night under the
     fitted null, with the far tail extended as :math:`e^{-\Lambda/2}` (Gross & Vitells 2010,
     Eur. Phys. J. C 70, 525). ``delta_mag_err`` is the spread of the amplitude over onsets and
-    decay times weighted by their likelihood, plus the statistical error.
+    decay times and noise cells weighted by their likelihood, plus the statistical error.
 
     Examples
     --------
