@@ -1,8 +1,10 @@
 """The activity step of a campaign: ``[activity]`` settings -> Afρ trend and outbursts.
 
 `run_activity_stage` fits the Afρ(r_h) trend before and after perihelion and searches for
-outbursts (`photpipe.activity.analyse_activity`) on the campaign's measurement rows, writes
-``<results>/activity.json`` and returns the analysis in memory for the report step.
+outbursts from night to night (`photpipe.activity.analyse_activity`) and inside each night
+(`photpipe.activity.find_night_outbursts`) on the campaign's measurement rows, following the
+configured Afρ column (the coma alone by default), writes ``<results>/activity.json`` and
+returns the analysis in memory for the report step.
 """
 
 import json
