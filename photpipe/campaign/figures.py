@@ -80,7 +80,9 @@ def _plain_log_ticks(axis):
 
 
 def _afrho_label(column):
-    return "A(0°)fρ (cm)" if column == "a0frho_cm" else "Afρ (cm)"
+    labels = {"a0frho_cm": "A(0°)fρ (cm)", "a0frho_coma_cm": "A(0°)fρ of the coma (cm)",
+              "afrho_coma_cm": "Afρ of the coma (cm)"}
+    return labels.get(column, "Afρ (cm)")
 
 
 def _new_figure(nrows=1, *, sharex=False):

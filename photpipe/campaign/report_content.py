@@ -169,6 +169,15 @@ def summary_items(config, measurements, nucleus, analysis, extra, settings):
     return s
 
 
+def _figure_column(measurements, column):
+    """The Afρ column the figures draw: the configured one, its total-light one when absent."""
+    from photpipe.activity import AFRHO_COLUMNS
+
+    if column in measurements.colnames or AFRHO_COLUMNS.get(column) is None:
+        return column
+    return AFRHO_COLUMNS[column]
+
+
 def draw_figures(measurements, nucleus, analysis, settings, notes):
     """Draw the campaign figures there is data for; return (figures, captions) by name.
 
@@ -178,6 +187,7 @@ def draw_figures(measurements, nucleus, analysis, settings, notes):
 
     peri = analysis.trend.perihelion_time if analysis is not None else None
     jobs = {}
+    settings = {**settings, "column": _figure_column(measurements, settings["column"])}
     if analysis is not None:
         jobs["activity_time"] = ("Afρ against time: frames, night means and the power-law "
                                  "trend; outburst onset brackets shaded.",
