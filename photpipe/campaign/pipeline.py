@@ -32,13 +32,13 @@ from photpipe.config import (
     read_photometry,
     read_run,
 )
+from photpipe.store import CampaignStore, write_table_atomic
 
 from .hashing import config_hash, file_sha256
 from .refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from .runner import TaskError, TaskRunner
 from .stages import CAMPAIGN_STEPS, FRAME_STAGES
 from .steps import run_campaign_steps
-from .store import CampaignStore, write_table_atomic
 from .summary import NightSummary, RunSummary
 from .tasks import process_frame
 

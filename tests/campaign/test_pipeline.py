@@ -5,9 +5,9 @@ from pathlib import Path
 
 import pytest
 
-from photpipe.campaign import CampaignStore, StoreError
 from photpipe.campaign.pipeline import night_name, run_campaign
 from photpipe.config import ConfigError, load_config
+from photpipe.store import CampaignStore, StoreError
 
 from ._nights import assert_same_contents, contents, render_small_night, write_config
 

@@ -7,7 +7,6 @@ and readers never block the writer. Unique keys plus upserts make a re-run of a 
 rows, never duplicate them, so a run killed half-way and started again ends with the same rows.
 """
 
-import math
 import os
 import socket
 import sqlite3
@@ -15,26 +14,15 @@ from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
 
-import numpy as np
 from astropy import units as u
-from astropy.table import MaskedColumn, QTable
 
 from photpipe import __version__
+from photpipe.campaign._schema import RESULT_TABLES, SCHEMA_VERSION, schema_sql
 
-from ._schema import RESULT_TABLES, SCHEMA_VERSION, TABLES, schema_sql
-from .result_files import write_atomic
+from ._values import plain_value, table_rows
+from .export import EXPORTABLE, export_table, lightcurve, write_table_atomic
 
-__all__ = ["CampaignStore", "StoreError", "EXPORTABLE"]
-
-#: Names accepted by :meth:`CampaignStore.export_table`.
-EXPORTABLE = tuple(TABLES) + tuple(RESULT_TABLES) + ("lightcurve",)
-
-_LIGHTCURVE_COLUMNS = (
-    ("frame", None), ("mjd_utc_mid", None), ("nucleus_mag", u.mag), ("nucleus_mag_err", u.mag),
-    ("r_h_au", u.AU), ("delta_au", u.AU), ("phase_deg", u.deg), ("light_time_s", u.s),
-    ("site", None), ("filter", None), ("source", None), ("flags", None), ("night", None),
-)
-
+__all__ = ["CampaignStore", "StoreError"]
 
 class StoreError(RuntimeError):
     """The campaign store cannot be used; the message names the file and the problem."""
@@ -42,55 +30,6 @@ class StoreError(RuntimeError):
 
 def _now():
     return datetime.now(timezone.utc).isoformat(timespec="seconds")
-
-
-def _plain(value, unit, where):
-    """Return ``value`` as a number/str/None that SQLite stores, converted to ``unit``."""
-    if value is None or value is np.ma.masked:
-        return None
-    if isinstance(value, u.Quantity):
-        if unit is None:
-            # Unitless columns: plain numbers, and time stamps given as MJD in days.
-            unit = (u.dimensionless_unscaled if value.unit.physical_type != "time"
-                    else u.day)
-        try:
-            value = value.to_value(unit)
-        except u.UnitConversionError as exc:
-            msg = f"{where}: cannot convert {value.unit} to {unit}"
-            raise ValueError(msg) from exc
-    if isinstance(value, (list, tuple, set)):
-        return ",".join(str(v) for v in value)
-    if isinstance(value, (bytes, np.bytes_)):
-        return value.decode()
-    if isinstance(value, (bool, np.bool_)):
-        return int(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        value = float(value)
-        return None if math.isnan(value) else value
-    if isinstance(value, np.ndarray):
-        if value.size != 1:
-            msg = f"{where}: expected one value, got an array of shape {value.shape}"
-            raise ValueError(msg)
-        return _plain(value.reshape(()).item(), None, where)
-    return value if isinstance(value, str) else str(value)
-
-
-def _table_rows(data):
-    """Yield the rows of ``data`` (Table/QTable, list of dicts, or one dict) as dicts."""
-    if data is None:
-        return
-    if isinstance(data, dict):
-        yield data
-        return
-    if hasattr(data, "colnames"):
-        names = data.colnames
-        for row in data:
-            yield {name: row[name] for name in names}
-        return
-    for row in data:
-        yield dict(row)
 
 
 class CampaignStore:
@@ -117,7 +56,8 @@ class CampaignStore:
     Examples
     --------
     >>> import tempfile, os
-    >>> from photpipe.campaign import CampaignStore, FrameRecord
+    >>> from photpipe.campaign import FrameRecord
+    >>> from photpipe.store import CampaignStore
     >>> folder = tempfile.mkdtemp()
     >>> with CampaignStore(os.path.join(folder, "c.sqlite")) as store:
     ...     run = store.start_run("[campaign]", config_hash="cfg1")
@@ -272,8 +212,8 @@ class CampaignStore:
     @staticmethod
     def _upsert_frame(db, row):
         values = (row["night"], row["frame"], str(row["path"]), row["content_hash"],
-                  row.get("kind", "science"), _plain(row.get("mjd_utc_mid"), None, "mjd"),
-                  row.get("filter"), _plain(row.get("exptime_s"), u.s, "exptime_s"),
+                  row.get("kind", "science"), plain_value(row.get("mjd_utc_mid"), None, "mjd"),
+                  row.get("filter"), plain_value(row.get("exptime_s"), u.s, "exptime_s"),
                   row.get("site"))
         db.execute(
             "INSERT INTO frames (night, name, path, content_hash, kind, mjd_utc_mid, filter, "
@@ -293,7 +233,7 @@ class CampaignStore:
     @staticmethod
     def _upsert_calibration(db, row):
         values = (row.get("night", ""), row["kind"], row.get("filter"),
-                  _plain(row.get("exptime_s"), u.s, "exptime_s"), row.get("n_inputs"),
+                  plain_value(row.get("exptime_s"), u.s, "exptime_s"), row.get("n_inputs"),
                   str(row["path"]), row.get("content_hash"))
         db.execute(
             "INSERT INTO calibrations (night, kind, filter, exptime_s, n_inputs, path, "
@@ -363,7 +303,7 @@ class CampaignStore:
     def _insert_rows(db, table, frame_id, data, where, facts):
         columns, one_per_frame = RESULT_TABLES[table]
         names = [c.name for c in columns]
-        rows = list(_table_rows(data))
+        rows = list(table_rows(data))
         if one_per_frame and len(rows) > 1:
             msg = f"{where}: table {table!r} takes one row per frame, got {len(rows)}"
             raise ValueError(msg)
@@ -372,7 +312,7 @@ class CampaignStore:
         marks = ", ".join("?" for _ in key + names)
         sql = f"INSERT INTO {table} ({quoted}) VALUES ({marks})"
         for index, row in enumerate(rows):
-            values = [_plain(row.get(c.name, facts.get(c.name)), c.unit,
+            values = [plain_value(row.get(c.name, facts.get(c.name)), c.unit,
                              f"{where}, {table}.{c.name}") for c in columns]
             db.execute(sql, ([frame_id] if one_per_frame else [frame_id, index]) + values)
 
@@ -424,52 +364,8 @@ class CampaignStore:
     # -- export ----------------------------------------------------------------------------
 
     def export_table(self, name, *, night=None):
-        """Return a stored table as a QTable with units.
-
-        Parameters
-        ----------
-        name : str
-            One of `EXPORTABLE`: ``runs, frames, calibrations, skipped, geometry, zero_points,
-            stars, measurements, nucleus, lightcurve``.
-        night : str, optional
-            Restrict to one night. Without it, result tables gain a ``night`` column first.
-
-        Returns
-        -------
-        table : `~astropy.table.QTable`
-            Rows ordered by night, time, frame and row; ``meta`` names the store and table.
-        """
-        if name == "lightcurve":
-            return self.lightcurve(night=night)
-        if name in RESULT_TABLES:
-            columns = RESULT_TABLES[name][0]
-            quoted = ", ".join(f't."{c.name}"' for c in columns)
-            order = "f.night, f.mjd_utc_mid, f.name" + (
-                "" if RESULT_TABLES[name][1] else ", t.row_index")
-            sql = (f"SELECT f.night, f.name, {quoted} FROM {name} t "
-                   f"JOIN frames f ON f.id = t.frame_id")
-            lead = (("night", "TEXT", None), ("frame", "TEXT", None))
-        elif name in TABLES:
-            columns = TABLES[name]
-            sql, order = _bookkeeping_select(name)
-            lead = ()
-        else:
-            msg = f"unknown table {name!r}; choose from {list(EXPORTABLE)}"
-            raise ValueError(msg)
-        params = ()
-        if night is not None:
-            sql += " WHERE f.night = ?" if name in RESULT_TABLES else _night_filter(name)
-            params = (night,)
-        rows = self._db.execute(f"{sql} ORDER BY {order}", params).fetchall()
-        specs = list(lead) + [(c.name, c.sql, c.unit, c.description) for c in columns]
-        table = _build_table(rows, specs)
-        if night is not None and "night" in table.colnames and name in RESULT_TABLES:
-            table.remove_column("night")
-        table.meta.update({"table": name, "store": str(self.path),
-                           "schema_version": SCHEMA_VERSION})
-        if night is not None:
-            table.meta["night"] = night
-        return table
+        """Return a stored table as a QTable with units (see `photpipe.store.export_table`)."""
+        return export_table(self._db, self.path, name, night=night)
 
     def write_ecsv(self, name, path, *, night=None):
         """Write :meth:`export_table` ``(name, night=night)`` to ``path`` as ECSV, atomically.
@@ -478,56 +374,11 @@ class CampaignStore:
         -------
         path : `~pathlib.Path`
         """
-        table = self.export_table(name, night=night)
-        return write_table_atomic(table, path)
+        return write_table_atomic(self.export_table(name, night=night), path)
 
     def lightcurve(self, *, night=None):
-        """Return the nucleus lightcurve of the campaign, one row per measured frame.
-
-        Returns
-        -------
-        table : `~astropy.table.QTable`
-            Columns ``frame, mjd_utc_mid, nucleus_mag, nucleus_mag_err, r_h_au, delta_au,
-            phase_deg, light_time_s, site, filter, source, flags, night``. ``source`` is
-            ``"nucleus_fit"`` where a nucleus fit exists, else ``"small_aperture"`` (the
-            magnitude in the smallest aperture, an upper bound on the nucleus brightness).
-            Frames with neither are absent.
-        """
-        sql = """
-SELECT f.name, f.mjd_utc_mid, n.nucleus_mag, n.nucleus_mag_err, m.mag, m.mag_err,
-       g.r_h_au, g.delta_au, g.phase_deg, g.light_time_s, m.r_h_au, m.delta_au, m.phase_deg,
-       f.site, f.filter, n.flags, m.flags, f.night
-FROM frames f
-JOIN frame_results r ON r.frame_id = f.id
-LEFT JOIN nucleus n ON n.frame_id = f.id
-LEFT JOIN geometry g ON g.frame_id = f.id
-LEFT JOIN measurements m ON m.frame_id = f.id AND m.row_index = (
-    SELECT row_index FROM measurements WHERE frame_id = f.id AND mag IS NOT NULL
-    ORDER BY rho_km, row_index LIMIT 1)
-"""
-        params = ()
-        if night is not None:
-            sql += " WHERE f.night = ?"
-            params = (night,)
-        sql += " ORDER BY f.mjd_utc_mid, f.night, f.name"
-        rows = []
-        for (frame, mjd, nmag, nerr, amag, aerr, rh, de, ph, lt, mrh, mde, mph, site, filt,
-             nflags, mflags, nt) in self._db.execute(sql, params):
-            if nmag is not None:
-                mag, err, source, flags = nmag, nerr, "nucleus_fit", nflags
-            elif amag is not None:
-                mag, err, source, flags = amag, aerr, "small_aperture", mflags
-            else:
-                continue
-            rows.append((frame, mjd, mag, err, rh if rh is not None else mrh,
-                         de if de is not None else mde, ph if ph is not None else mph, lt,
-                         site, filt, source, flags or "", nt))
-        specs = [(n, "TEXT" if unit is None and n not in ("mjd_utc_mid",) else "REAL", unit, "")
-                 for n, unit in _LIGHTCURVE_COLUMNS]
-        table = _build_table(rows, specs)
-        table.meta.update({"table": "lightcurve", "store": str(self.path),
-                           "schema_version": SCHEMA_VERSION})
-        return table
+        """Return the nucleus lightcurve of the campaign (see `photpipe.store.lightcurve`)."""
+        return lightcurve(self._db, self.path, night=night)
 
 
 def _pid_alive(pid):
@@ -538,51 +389,3 @@ def _pid_alive(pid):
     except PermissionError:
         return True
     return True
-
-
-def _bookkeeping_select(name):
-    if name == "runs":
-        return ("SELECT id, started, ended, status, config_hash, software_version, host, "
-                "config_text FROM runs f", "f.id")
-    if name == "frames":
-        return ("SELECT night, name, path, content_hash, kind, mjd_utc_mid, filter, exptime_s, "
-                "site FROM frames f", "f.night, f.mjd_utc_mid, f.name")
-    if name == "calibrations":
-        return ("SELECT night, kind, filter, exptime_s, n_inputs, path, content_hash "
-                "FROM calibrations f", "f.night, f.kind, f.path")
-    return ("SELECT night, item, stage, reason, run_id FROM skipped f",
-            "f.night, f.item, f.stage")
-
-
-def _night_filter(name):
-    if name == "runs":
-        msg = "the runs table is not split by night"
-        raise ValueError(msg)
-    return " WHERE f.night = ?"
-
-
-def _build_table(rows, specs):
-    """Make a QTable from SQL rows; ``specs`` are ``(name, sqltype, unit[, description])``."""
-    table = QTable()
-    columns = list(zip(*rows)) if rows else [()] * len(specs)
-    for spec, values in zip(specs, columns):
-        name, sqltype, unit = spec[:3]
-        description = spec[3] if len(spec) > 3 else ""
-        if sqltype == "REAL":
-            data = np.array([np.nan if v is None else v for v in values], dtype=float)
-            col = data * unit if unit is not None else data
-        elif sqltype == "INTEGER":
-            mask = np.array([v is None for v in values], dtype=bool)
-            data = np.array([0 if v is None else v for v in values], dtype=np.int64)
-            col = MaskedColumn(data, mask=mask) if mask.any() else data
-        else:
-            col = np.array(["" if v is None else str(v) for v in values], dtype=str)
-        table[name] = col
-        if description:
-            table[name].info.description = description
-    return table
-
-
-def write_table_atomic(table, path):
-    """Write ``table`` to ``path`` as ECSV through a temporary file and a rename."""
-    return write_atomic(path, lambda tmp: table.write(tmp, format="ascii.ecsv", overwrite=True))
