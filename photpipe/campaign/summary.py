@@ -20,6 +20,8 @@ class NightSummary:
         Science frames measured in this run.
     reused : int
         Science frames already in the store with the same file content and configuration.
+    kept : int
+        Science frames tried again without success, whose earlier results were kept.
     skipped : list of `~photpipe._records.Skipped`
     outputs : list of str
     """
@@ -29,6 +31,7 @@ class NightSummary:
     counts: dict = field(default_factory=dict)
     measured: int = 0
     reused: int = 0
+    kept: int = 0
     skipped: list = field(default_factory=list)
     outputs: list = field(default_factory=list)
 

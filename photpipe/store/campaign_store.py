@@ -50,8 +50,11 @@ class CampaignStore:
     Notes
     -----
     Results of a frame are keyed by ``(night, frame)``; storing a frame again replaces its rows in
-    one transaction. A frame counts as measured (and is skipped by a re-run) when its
-    ``frame_results`` marker holds the same raw-file content hash and configuration hash.
+    one transaction, but only when the new attempt measured it: a record without measurement
+    rows leaves earlier measurements of the frame as they were (its problems are recorded). A
+    frame counts as measured (and is skipped by a re-run) when its ``frame_results`` marker
+    holds the same raw-file content hash and configuration hash. A write that fails (a full
+    disk, a read-only file) raises `StoreError` and leaves the store as it was.
 
     Examples
     --------
@@ -70,7 +73,11 @@ class CampaignStore:
 
     def __init__(self, path, *, timeout=60.0):
         self.path = Path(path)
-        self.path.parent.mkdir(parents=True, exist_ok=True)
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            msg = f"{self.path}: cannot make the store's folder ({exc.strerror or exc})"
+            raise StoreError(msg) from exc
         try:
             self._db = sqlite3.connect(self.path, timeout=timeout, isolation_level=None)
         except sqlite3.Error as exc:
@@ -82,14 +89,14 @@ class CampaignStore:
             self._db.execute("PRAGMA synchronous=NORMAL")
             self._check_integrity()
             self._create_schema()
+        except StoreError:
+            self._db.close()
+            raise
         except sqlite3.DatabaseError as exc:
             self._db.close()
             msg = (f"{self.path}: is damaged or is not a SQLite campaign store ({exc}); "
                    "move it aside and run again to rebuild it from the frames")
             raise StoreError(msg) from exc
-        except StoreError:
-            self._db.close()
-            raise
 
     # -- opening ---------------------------------------------------------------------------
 
@@ -136,14 +143,25 @@ class CampaignStore:
 
     @contextmanager
     def _write(self):
-        """One write transaction; rolled back whole on any error."""
-        self._db.execute("BEGIN IMMEDIATE")
+        """One write transaction; rolled back whole on any error.
+
+        SQLite's own failures (a full disk, a read-only file or folder) become a `StoreError`
+        naming the file.
+        """
         try:
-            yield self._db
-        except BaseException:
-            self._db.execute("ROLLBACK")
-            raise
-        self._db.execute("COMMIT")
+            self._db.execute("BEGIN IMMEDIATE")
+            try:
+                yield self._db
+            except BaseException:
+                if self._db.in_transaction:
+                    self._db.execute("ROLLBACK")
+                raise
+            self._db.execute("COMMIT")
+        except sqlite3.OperationalError as exc:
+            if "locked" in str(exc) or "busy" in str(exc):
+                raise
+            msg = f"{self.path}: cannot write to the campaign store ({exc})"
+            raise StoreError(msg) from exc
 
     def close(self):
         """Close the database connection."""
@@ -260,10 +278,18 @@ class CampaignStore:
 
         Returns
         -------
-        frame_id : int
+        frame_id : int or None
+            None when the record holds no measurement rows and the frame's earlier
+            measurements were kept.
         """
         where = f"{self.path}: frame {record.night}/{record.frame}"
         with self._write() as db:
+            earlier = self._holds_measurements(db, record.night, record.frame)
+            if earlier and not _has_rows(record.measurements):
+                # a failed attempt never replaces what an earlier one measured
+                for stage, reason in record.problems:
+                    self._upsert_skipped(db, run_id, record.night, record.frame, stage, reason)
+                return None
             frame_id = self._upsert_frame(db, {
                 "night": record.night, "frame": record.frame, "path": record.path,
                 "content_hash": record.content_hash, "kind": record.kind,
@@ -298,6 +324,23 @@ class CampaignStore:
             for stage, reason in record.problems:
                 self._upsert_skipped(db, run_id, record.night, record.frame, stage, reason)
         return frame_id
+
+    @staticmethod
+    def _holds_measurements(db, night, frame):
+        return db.execute(
+            "SELECT count(*) FROM measurements m JOIN frames f ON f.id = m.frame_id "
+            "WHERE f.night = ? AND f.name = ?", (night, frame)).fetchone()[0] > 0
+
+    def has_measurements(self, night, frame):
+        """Whether ``night/frame`` holds measurement rows."""
+        return self._holds_measurements(self._db, night, frame)
+
+    def other_live_runs(self, run_id):
+        """Runs of this host other than ``run_id`` still marked running by a live process."""
+        host = socket.gethostname()
+        rows = self._db.execute("SELECT id, pid FROM runs WHERE status = 'running' AND host = ? "
+                                "AND id != ?", (host, run_id)).fetchall()
+        return [rid for rid, pid in rows if pid is not None and _pid_alive(pid)]
 
     @staticmethod
     def _insert_rows(db, table, frame_id, data, where, facts):
@@ -379,6 +422,15 @@ class CampaignStore:
     def lightcurve(self, *, night=None):
         """Return the nucleus lightcurve of the campaign (see `photpipe.store.lightcurve`)."""
         return lightcurve(self._db, self.path, night=night)
+
+
+def _has_rows(data):
+    if data is None:
+        return False
+    try:
+        return len(data) > 0
+    except TypeError:
+        return True
 
 
 def _pid_alive(pid):

@@ -130,7 +130,7 @@ def test_corrupt_store_is_reported(tmp_path, nights):
 def test_two_nights_with_one_name(tmp_path, nights):
     config = _config(tmp_path, nights, ["2026-12-02", "2026-12-02"])
     with pytest.raises(ConfigError, match=re.escape(
-            "two [[night]] entries share the name '2026-12-02'")):
+            "[[night]] name: two entries share the name '2026-12-02'")):
         run_campaign(config, workers=0, progress=False, echo=_quiet)
 
 
