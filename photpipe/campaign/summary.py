@@ -108,6 +108,11 @@ class RunSummary:
         return sum(n.measured for n in self.nights)
 
     @property
+    def kept(self):
+        """Science frames whose earlier results were kept (tried again without success)."""
+        return sum(n.kept for n in self.nights)
+
+    @property
     def reused(self):
         """Science frames found already measured, over all nights."""
         return sum(n.reused for n in self.nights)
@@ -135,11 +140,14 @@ class RunSummary:
         if self.nights:
             lines.append("")
             lines.append(f"{'night':<24}{'frames':>8}{'science':>9}{'measured':>10}"
-                         f"{'reused':>8}{'skipped':>9}")
+                         f"{'reused':>8}{'kept':>6}{'skipped':>9}")
             for n in self.nights:
                 lines.append(f"{n.name[:23]:<24}{sum(n.counts.values()):>8}"
                              f"{n.counts.get('science', 0):>9}{n.measured:>10}{n.reused:>8}"
-                             f"{len(n.skipped):>9}")
+                             f"{n.kept:>6}{len(n.skipped):>9}")
+            if self.kept:
+                lines.append(f"kept: {self.kept} frame(s) not measured this time keep their "
+                             "earlier results")
         groups = {}
         for night, s in [(n.name, s) for n in self.nights for s in n.skipped] + [
                 ("campaign", s) for s in self.skipped]:
