@@ -12,7 +12,7 @@ from photpipe.cli._errors import (
     store_problem,
 )
 
-__all__ = ["HELP", "add_arguments", "execute", "step_lines"]
+__all__ = ["HELP", "add_arguments", "execute"]
 
 HELP = "reduce every night a configuration names: calibrate, measure, store, summarise"
 
@@ -31,56 +31,6 @@ def add_arguments(parser):
                              "file content and configuration")
     parser.add_argument("--no-progress", action="store_true",
                         help="do not draw progress bars")
-
-
-def _rotation_lines(rot):
-    status = rot.get("status")
-    if status == "ambiguous":
-        allowed = ", ".join(f"{p['period_h']:.3f} h (Δχ² {p['delta_chi2']:.1f})"
-                            for p in rot.get("allowed_periods") or [])
-        line = f"rotation: ambiguous; the data allow {allowed or 'several periods'}"
-    elif status == "none" or rot.get("period_h") is None:
-        line = "rotation: no period (the data cannot support one)"
-    else:
-        err = rot.get("period_err_h")
-        line = f"rotation: period {rot['period_h']:.3f}" + \
-            (f" ± {err:.3f} h (1σ)" if err is not None else " h")
-    lines = [line]
-    if rot.get("n_upper_limits_set_aside"):
-        lines.append(f"  {rot['n_upper_limits_set_aside']} upper limit(s) set aside")
-    return lines
-
-
-def _size_lines(size):
-    if size.get("radius_upper_limit_km") is not None:
-        line = f"size: radius below {size['radius_upper_limit_km']:.3g} km (upper limit)"
-    elif size.get("radius_km") is not None:
-        line = (f"size: radius {size['radius_km']:.3g} km ({size.get('radius_lo_km', 0):.3g}-"
-                f"{size.get('radius_hi_km', 0):.3g} km) at albedo {size.get('albedo')}")
-    else:
-        line = "size: no radius"
-    if size.get("status"):
-        line += f"; status {size['status']}"
-    if size.get("reason"):
-        line += f" ({size['reason']})"
-    return [line]
-
-
-def step_lines(results):
-    """Lines for the screen about the campaign steps' results (rotation, size), if present.
-
-    Examples
-    --------
-    >>> step_lines({"rotation": {"status": "ambiguous", "allowed_periods": [
-    ...     {"period_h": 7.3, "delta_chi2": 0.0}, {"period_h": 14.6, "delta_chi2": 1.2}]}})
-    ['rotation: ambiguous; the data allow 7.300 h (Δχ² 0.0), 14.600 h (Δχ² 1.2)']
-    """
-    lines = []
-    if isinstance(results.get("rotation"), dict):
-        lines += _rotation_lines(results["rotation"])
-    if isinstance(results.get("size"), dict):
-        lines += _size_lines(results["size"])
-    return lines
 
 
 def execute(args):
@@ -107,13 +57,33 @@ def execute(args):
         return outcome.code
     print()
     print(summary.format())
-    for line in step_lines(summary.step_results):
-        print(line)
     unread = [n for n in summary.nights if not n.counts]
     if summary.nights and len(unread) == len(summary.nights):
         return fail("run", "none of the nights could be read; check the [[night]] paths", NO_DATA)
     if summary.measured == 0 and summary.reused == 0 and summary.kept == 0:
         return fail("run", "no science frame was measured (see 'skipped, and why' above)",
                     NO_DATA)
-    print(f"\nresults are in {summary.results}")
+    lines = _headline(config, summary)
+    if lines:
+        print("\nheadline (errors are 1σ):")
+        print("\n".join(f"  {line}" for line in lines))
     return OK
+
+
+def _headline(config, summary):
+    """The campaign's headline numbers, read back from the results; none if they cannot be."""
+    from pathlib import Path
+
+    from photpipe.campaign.report_inputs import read_inputs
+    from photpipe.campaign.result_files import read_json
+    from photpipe.report import headline_lines
+
+    try:
+        measurements, nucleus, extra = read_inputs(config)
+        activity = read_json(Path(summary.results) / "activity.json", "activity result")
+    except (OSError, ValueError) as exc:
+        return [f"(no headline: {exc})"]
+    report = Path(summary.results) / "report.html"
+    return headline_lines(measurements=measurements, nucleus=nucleus,
+                          rotation=extra.get("rotation"), size=extra.get("size"),
+                          activity=activity, report=str(report) if report.is_file() else None)

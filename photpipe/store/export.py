@@ -6,8 +6,8 @@ import numpy as np
 from astropy import units as u
 from astropy.table import MaskedColumn, QTable
 
-from photpipe._files import replacing
 from photpipe.campaign._schema import RESULT_TABLES, SCHEMA_VERSION, TABLES
+from photpipe.campaign.result_files import write_ecsv
 
 __all__ = ["EXPORTABLE", "export_table", "lightcurve", "write_table_atomic"]
 
@@ -173,7 +173,4 @@ def write_table_atomic(table, path):
     -------
     path : `~pathlib.Path`
     """
-    path = Path(path)
-    with replacing(path, mode=0o644, fsync=False, make_folders=True) as tmp:
-        table.write(tmp, format="ascii.ecsv", overwrite=True)
-    return path
+    return write_ecsv(path, table)
