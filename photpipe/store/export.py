@@ -1,6 +1,5 @@
 """Tables out of the campaign store: result tables, bookkeeping tables and the lightcurve."""
 
-from pathlib import Path
 
 import numpy as np
 from astropy import units as u
