@@ -73,6 +73,13 @@ FLAGS = {
                                           "demonstrated"),
     "filter_offsets_removed": ("rotation", "a constant offset per filter was removed"),
     "phase_beyond_hg": ("rotation", "phase angle above 120°, beyond the H, G law's range"),
+    "upper_limits_set_aside": ("rotation", "nucleus upper limits were left out of the period "
+                               "search (counted in n_upper_limits_set_aside)"),
+    "bad_points_set_aside": ("rotation", "points with a NaN, infinite or non-positive error, "
+                             "magnitude or epoch were left out"),
+    "period_ambiguous": ("rotation", "several periods fit about as well, or the sampling cannot "
+                         "tell: no single period is claimed"),
+    "period_none": ("rotation", "no significant variation: no rotation period"),
     # activity
     "few_nights": ("activity", "fewer than 5 nights in the power-law fit"),
     "narrow_r_h": ("activity", "the nights span too narrow a range of r_h for a reliable "
@@ -86,6 +93,10 @@ FLAGS = {
     # size
     "below_momentum_bound": ("size", "the radius is below what the momentum balance of the "
                                      "outgassing allows"),
+    "h_error_large": ("size", "the H error, phase coefficient's range included, exceeds the "
+                      "stated limit: the radius is poorly constrained"),
+    "rotation_unknown": ("size", "H formed without a rotation model; its error covers the unknown "
+                         "rotational sampling"),
 }
 
 #: Words that inform rather than warn.

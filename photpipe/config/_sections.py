@@ -200,6 +200,10 @@ ROTATION = Section("rotation", (
         "search's own)", low=0.0, high=1.0, low_open=False),
     Key("amplitude_phase_slope_per_deg", "number", 0.015, "amplitude growth with phase angle "
         "(Zappalà et al. 1990)", unit="1/deg", low=0.0, low_open=False),
+    Key("alias_delta_chi2", "number", 10.0, "a rival period closer than this in chi2 makes the "
+        "period ambiguous", low=0.0),
+    Key("fap_limit", "number", 0.01, "above this false-alarm probability there is no period",
+        low=0.0, high=1.0),
 ), "rotation-period search")
 
 SIZE = Section("size", (
@@ -235,6 +239,16 @@ SIZE = Section("size", (
         unit="mag"),
     Key("n_samples", "integer", 100_000, "Monte Carlo draws", low=100, low_open=False),
     Key("seed", "integer", 20261202, "seed of the Monte Carlo draws"),
+    Key("phase_coefficient_range", "pair", (0.02, 0.06), "nucleus phase coefficients drawn in "
+        "the Monte Carlo (Jupiter-family nuclei)", unit="mag/deg", low=0.0, low_open=False),
+    Key("phase_fit_min_span_deg", "number", 5.0, "least phase-angle span for fitting the "
+        "phase coefficient", unit="deg", low=0.0),
+    Key("h_err_limit_mag", "number", 0.3, "a radius whose H error exceeds this is flagged "
+        "h_error_large", unit="mag", low=0.0),
+    Key("min_detections", "integer", 5, "fewest frames detecting the nucleus for a radius",
+        low=1, low_open=False),
+    Key("min_detected_fraction", "number", 0.5, "least share of frames detecting the nucleus "
+        "for a radius", low=0.0, high=1.0, low_open=False),
 ), "nucleus radius and mass")
 
 ACTIVITY = Section("activity", (
