@@ -132,7 +132,16 @@ def size_no_lightcurve(tmp):
 
 
 def size_only_upper_limits(tmp):
+    # the data support only a limit: that is a result, written
     return _size(tmp, flags=["upper_limit"] * 80)
+
+
+def size_lightcurve_without_magnitudes(tmp):
+    cfg = write_size_config(tmp, "albedo = 0.04\nn_samples = 2000\n")
+    table = make_lightcurve()
+    table.remove_column("nucleus_mag")
+    table.write(tmp / "results" / "lightcurve.ecsv")
+    return ["size", cfg]
 
 
 def report_ok(tmp):
@@ -176,7 +185,8 @@ CASES = [
     (size_negative_albedo, CONFIG, "[size] albedo: must be above 0 and at most 1"),
     (size_albedo_above_one, CONFIG, "[size] albedo: must be above 0 and at most 1"),
     (size_no_lightcurve, NO_DATA, "no lightcurve there"),
-    (size_only_upper_limits, FAILED, "no usable nucleus magnitudes"),
+    (size_only_upper_limits, OK, ""),
+    (size_lightcurve_without_magnitudes, FAILED, "lightcurve lacks column(s)"),
     (report_ok, OK, ""),
     (report_bad_key, CONFIG, "[activity] outbust_sigma: unknown key"),
     (report_corrupt_store, STORE, "campaign store problem"),
