@@ -42,6 +42,8 @@ FLAGS = {
     "low_elongation": ("photometry", "small solar elongation: pointing optics near the Sun can "
                                      "blind and damage them; follow local rules and "
                                      "experienced practice"),
+    "phase_extrapolated": ("photometry", "phase angle outside the range where the dust phase "
+                                         "function is checked; A(0)fρ uses its edge value"),
     "airmass_computed": ("photometry", "no AIRMASS in the header: computed from the site and "
                                        "time (informational)"),
     # nucleus
@@ -90,6 +92,11 @@ FLAGS = {
     "wide_bracket": ("activity", "more than 3 days between the last quiet night and the "
                                  "outburst night"),
     "across_perihelion": ("activity", "the onset bracket spans perihelion"),
+    "onset_uncertain": ("activity", "another onset inside the night fits almost as well "
+                                    "(within-night search)"),
+    "decay_unresolved": ("activity", "the decay time is not bounded above by the night "
+                                     "(within-night search)"),
+    "total_light": ("activity", "no coma-only Afρ on this row: the total light's was used"),
     # size
     "below_momentum_bound": ("size", "the radius is below what the momentum balance of the "
                                      "outgassing allows"),

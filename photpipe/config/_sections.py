@@ -261,8 +261,13 @@ ACTIVITY = Section("activity", (
     Key("fit_method", "text", "scatter", "trend fit", choices=("scatter", "clip", "robust")),
     Key("aperture_km", "number", None, "aperture of the trend (default: the most measured, "
         "ties nearest 10 000 km)", unit="km", low=0.0),
-    Key("afrho_column", "text", "a0frho_cm", "quantity of the trend",
-        choices=("a0frho_cm", "afrho_cm")),
+    Key("afrho_column", "text", "a0frho_coma_cm", "quantity of the trend and outburst "
+        "searches (coma-only columns fall back to the total, flagged, where missing)",
+        choices=("a0frho_coma_cm", "afrho_coma_cm", "a0frho_cm", "afrho_cm")),
+    Key("night_max_false_alarm", "number", 0.001, "within-night search: chance that a quiet "
+        "night gives a claim", low=0.0, high=1.0),
+    Key("night_min_frames", "integer", 8, "within-night search: fewest frames a night needs",
+        low=4, low_open=False),
     Key("night_gap_h", "number", 6.0, "frames further apart than this are two nights",
         unit="h", low=0.0),
     Key("exclude_flags", "texts", ("upper_limit", "saturated"), "rows with these flags are left "

@@ -438,6 +438,8 @@ class ActivitySettings:
     perihelion_time: object
     perihelion_source: str | None
     caution_elongation: u.Quantity
+    night_max_false_alarm: float = 0.001
+    night_min_frames: int = 8
 
     def as_dict(self):
         """The settings as a plain dict (the form the report content takes)."""
@@ -474,7 +476,9 @@ def read_activity(config):
         aperture=_maybe(v["aperture_km"], u.km), column=v["afrho_column"],
         night_gap=v["night_gap_h"] * u.h, exclude_flags=v["exclude_flags"],
         perihelion_time=perihelion, perihelion_source=source if perihelion is not None else None,
-        caution_elongation=read_geometry(config).caution_elongation)
+        caution_elongation=read_geometry(config).caution_elongation,
+        night_max_false_alarm=v["night_max_false_alarm"],
+        night_min_frames=v["night_min_frames"])
 
 
 @dataclass(frozen=True)

@@ -141,6 +141,8 @@ def _figure_jobs(measurements, nucleus, analysis, settings):
 
     peri = analysis.trend.perihelion_time if analysis is not None else None
     col = settings["column"]
+    if col not in measurements.colnames and col.replace("_coma", "") in measurements.colnames:
+        col = col.replace("_coma", "")  # no coma-only Afρ measured: draw the total light's
     name = "A(0°)fρ" if col.startswith("a0") else "Afρ"
     jobs = {}
     if measurements is not None and len(measurements):
