@@ -29,8 +29,15 @@ from photpipe.campaign.geometry_settings import geometry_at_location, location_f
 from photpipe.campaign.refstars import campaign_reference_store
 from photpipe.campaign.settings import nucleus_options, photometry_options
 from photpipe.campaign.tasks import _seed, frame_reference_stars
-from photpipe.frames import (build_masters, calibrate_frame, find_cosmic_rays, load_master,
-                             plan_calibrations, scan_night, write_calibrated)
+from photpipe.frames import (
+    build_masters,
+    calibrate_frame,
+    find_cosmic_rays,
+    load_master,
+    plan_calibrations,
+    scan_night,
+    write_calibrated,
+)
 from photpipe.nucleus import fit_nucleus, measure_psf
 from photpipe.photometry import measure_comet_frame
 
