@@ -19,6 +19,7 @@ from scipy import ndimage
 from photpipe._records import Skipped
 
 from ._fitsfile import RowReader, open_image, read_image, write_atomic
+from .calibrated_io import card_text
 from .combine import COMBINE_METHODS
 from .errors import FrameError
 from .plan import choose_calibrations, describe_key
@@ -218,9 +219,9 @@ def _provenance(kind, key, members, *, method, sigma, maxiters, rejected, gain, 
     for card in extra:
         hdr[card[0]] = card[1:]
     for i, m in enumerate(members, 1):
-        hdr[f"SRC{i:04d}"] = (os.path.basename(m.path), "input frame")
+        hdr[f"SRC{i:04d}"] = (card_text(os.path.basename(m.path)), "input frame")
     for m in members:
-        hdr.add_history(f"input: {m.path}")
+        hdr.add_history(card_text(f"input: {m.path}"))
     return hdr
 
 
