@@ -225,6 +225,7 @@ class _Run:
 
     def _measure(self, entry, night, plan, todo, hashes):
         folder = self.results / night.name
+        self.runner.start_soon()  # the workers start while the masters are built
         masters = stage_function("calibration", "build_masters")(
             plan, folder / "masters", **self.settings["masters"])
         for s in masters.skipped:
