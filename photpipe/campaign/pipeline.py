@@ -16,6 +16,7 @@ import logging
 import os
 import time
 import warnings
+from dataclasses import dataclass
 from pathlib import Path
 
 from astropy.time import Time
@@ -122,6 +123,22 @@ def _night_geometry(config, site, infos):
     return [table[i:i + 1] for i in range(len(infos))], None, cautions
 
 
+@dataclass
+class _Inventory:
+    """A night's frames read and planned: what the masters and frame tasks need."""
+
+    night: NightSummary
+    plan: object
+    todo: list
+    hashes: dict
+
+
+def night_masters(item):
+    """Build one night's master calibrations (a task: ``plan``, ``folder``, ``options``)."""
+    return stage_function("calibration", "build_masters")(item["plan"], item["folder"],
+                                                          **item["options"])
+
+
 class _Run:
     """State of one run: the store, the runner, the summary being filled."""
 
@@ -173,7 +190,23 @@ class _Run:
 
     # -- one night -------------------------------------------------------------------------
 
-    def night(self, entry):
+    def nights(self, entries):
+        """Every night: inventories, then all the masters needed, then frames and tables.
+
+        The masters of several nights are built as Dask tasks in parallel.
+        """
+        ready = [(entry, self._inventory(entry)) for entry in entries]
+        todo = [(entry, inv) for entry, inv in ready if inv is not None and inv.todo]
+        masters = self._masters(todo)
+        for entry, inv in ready:
+            if inv is None:
+                continue
+            if inv.todo and inv.night.name in masters:
+                self._measure(entry, inv.night, inv.todo, inv.hashes, masters[inv.night.name])
+            self._export_night(inv.night)
+
+    def _inventory(self, entry):
+        """Read a night's headers, plan its calibrations, find the frames to measure."""
         name = night_name(entry)
         night = NightSummary(name=name, folder=entry["path"])
         self.summary.nights.append(night)
@@ -182,10 +215,10 @@ class _Run:
         except ConfigError as exc:
             self.skip(night, entry["path"], "ingest", str(exc))
             self.echo(f"night {name}: {exc}; going on with the other nights")
-            return
+            return None
         if not self.statuses["calibration"].available:
             self.skip(night, entry["path"], "calibration", self.statuses["calibration"].reason)
-            return
+            return None
         scan = stage_function("calibration", "scan_night")
         inventory = scan(files, kind_map=self.settings["kind_map"])
         night.counts = inventory.counts()
@@ -219,23 +252,43 @@ class _Run:
         elif not todo:
             self.echo(f"night {name}: all {night.reused} science frames already measured "
                       "with this configuration (use --rerun to measure them again)")
+        return _Inventory(night, plan, todo, hashes)
+
+    def _masters(self, todo):
+        """Master calibrations of the nights in ``todo`` (night name -> MasterSet).
+
+        One night's are built here while the workers start; several nights' are built as Dask
+        tasks, one per night, in parallel.
+        """
         if todo:
-            self._measure(entry, night, plan, todo, hashes)
-        self._export_night(night)
+            self.runner.start_soon()  # the workers start while the masters are built
+        items = [{"plan": inv.plan, "folder": str(self.results / inv.night.name / "masters"),
+                  "options": self.settings["masters"], "night": inv.night.name}
+                 for _, inv in todo]
+        if len(items) <= 1:
+            results = [(item, night_masters(item)) for item in items]
+        else:
+            results = self.runner.map(night_masters, items, desc="masters",
+                                      label=lambda it: f"{it['night']} masters")
+        nights = {inv.night.name: inv.night for _, inv in todo}
+        out = {}
+        for item, masters in results:
+            night = nights[item["night"]]
+            if isinstance(masters, TaskError):
+                self.skip(night, night.folder, "masters", str(masters))
+                continue
+            out[night.name] = masters
+            for s in masters.skipped:
+                self.skip(night, s.item, s.stage, s.reason)
+            self.store.add_calibrations(
+                {"night": night.name, "kind": m.kind, "path": m.path, "n_inputs": m.n_frames,
+                 "filter": str(m.key[3]) if m.kind == "flat" else None,
+                 "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
+                for m in masters.masters)
+        return out
 
-    def _measure(self, entry, night, plan, todo, hashes):
+    def _measure(self, entry, night, todo, hashes, masters):
         folder = self.results / night.name
-        self.runner.start_soon()  # the workers start while the masters are built
-        masters = stage_function("calibration", "build_masters")(
-            plan, folder / "masters", **self.settings["masters"])
-        for s in masters.skipped:
-            self.skip(night, s.item, s.stage, s.reason)
-        self.store.add_calibrations(
-            {"night": night.name, "kind": m.kind, "path": m.path, "n_inputs": m.n_frames,
-             "filter": str(m.key[3]) if m.kind == "flat" else None,
-             "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
-            for m in masters.masters)
-
         geometry, problem, site = [None] * len(todo), None, None
         if "geometry" in self.frame_stages:
             # the site is read once: the geometry and the frames' airmass both use it
@@ -445,8 +498,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
             log.info("stage %s", s)
         say(f"run {run_id}: {len(config['night'])} night(s), tasks on {runner.description}")
         with runner:
-            for entry in config["night"]:
-                run.night(entry)
+            run.nights(config["night"])
         run.campaign()
         status = "completed"
     except KeyboardInterrupt:
