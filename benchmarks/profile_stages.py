@@ -25,10 +25,9 @@ import numpy as np
 from astropy import units as u
 from astropy.io import fits
 
-from photpipe.campaign.geometry_settings import geometry_at_location, location_for_night
 from photpipe.campaign.refstars import campaign_reference_store
-from photpipe.campaign.settings import nucleus_options, photometry_options
 from photpipe.campaign.tasks import _seed, frame_reference_stars
+from photpipe.config import geometry_at_location, location_for_night, read_nucleus, read_photometry
 from photpipe.frames import (
     build_masters,
     calibrate_frame,
@@ -101,7 +100,7 @@ def _one_frame(info, masters, geometry_row, context, folder):
         star_xy = np.column_stack([u.Quantity(phot.stars["x"]).value,
                                    u.Quantity(phot.stars["y"]).value])
         options = dict(context["nucleus"])
-        psf_options = dict(options.pop("psf", {}))
+        psf_options = dict(context["psf"])
         psf_options.setdefault("fallback_fwhm", float(phot.details["fwhm_pix"]))
         psf = measure_psf(frame, star_xy, exclude_xy=(x0, y0), **psf_options)
         lap("PSF")
@@ -147,15 +146,14 @@ def main(argv=None):
         times = [info.time_mid for info in plan.science]
         from astropy.time import Time
         geometry = geometry_at_location(config, site, Time(times))
-        phot_options, _ = photometry_options(config)
-        nuc_options, _ = nucleus_options(config)
-        phot = config["photometry"]
-        store = campaign_reference_store(phot["reference_stars"], tmp / "store.npz",
-                                         band=phot_options.get("band", "R"),
-                                         colour=phot_options.get("colour"))
+        phot = read_photometry(config)
+        nucleus = read_nucleus(config)
+        store = campaign_reference_store(phot.reference_stars, tmp / "store.npz",
+                                         band=phot.band, colour=phot.colour)
         pixel_scale = 1.5 * u.arcsec / u.pix
-        context = {"store": store.store_path, "site": site, "photometry": phot_options,
-                   "nucleus": nuc_options, "pixel_scale": pixel_scale}
+        context = {"store": store.store_path, "site": site, "photometry": phot.options(),
+                   "nucleus": nucleus.fit_options(), "psf": nucleus.psf_options(),
+                   "pixel_scale": pixel_scale}
         out = tmp / "calibrated"
         out.mkdir()
         plain = _plain_masters(masters, plan.science[0])
