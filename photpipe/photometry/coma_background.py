@@ -97,8 +97,9 @@ def _ring_medians(ring, radius, values, min_pixels):
 
     # sorting by radius sorts by ring too (ring = floor(radius / width))
     by_radius = np.sort(radius)
-    # values sorted by ring, then by value: one sort of the ring plus the value's rank in (0, 1)
-    rank = np.empty(values.size)
-    rank[np.argsort(values, kind="stable")] = np.arange(values.size) / values.size
-    by_value = values[np.argsort(ring + rank, kind="stable")]
+    # values sorted by ring, then by value: one sort of the ring plus the value scaled into
+    # [0, 1) (float64 keeps ~40 bits of it beside a ring number up to ~10^4)
+    lo_v, span = float(values.min()), float(np.ptp(values))
+    scaled = (values - lo_v) / (span * (1.0 + 1e-9)) if span > 0 else np.zeros(values.size)
+    by_value = values[np.argsort(ring + scaled)]
     return 0.5 * (by_radius[lo] + by_radius[hi]), 0.5 * (by_value[lo] + by_value[hi])
