@@ -111,6 +111,31 @@ def _one_frame(info, masters, geometry_row, context, folder):
     return t, dict(phot.details["timings_s"]), int(hits.sum())
 
 
+def _memory_child(info, masters, geometry_row, context, folder, queue):
+    """In a fresh process: peak resident memory before and after one frame task (MB)."""
+    import photpipe.nucleus  # noqa: F401
+    import photpipe.photometry  # noqa: F401
+    from photpipe._memory import peak_resident_mb
+
+    before = peak_resident_mb()
+    _one_frame(info, masters, geometry_row, context, folder)
+    queue.put((before, peak_resident_mb()))
+
+
+def _frame_memory(info, masters, geometry_row, context, folder):
+    """Peak memory of one frame task in a fresh process, as a worker runs it."""
+    import multiprocessing as mp
+
+    ctx = mp.get_context("spawn")
+    queue = ctx.Queue()
+    child = ctx.Process(target=_memory_child,
+                        args=(info, masters, geometry_row, context, folder, queue))
+    child.start()
+    result = queue.get()
+    child.join()
+    return result
+
+
 def _table(best, floor, title):
     total = sum(best.values())
     print(f"\n{title}")
@@ -184,6 +209,9 @@ def main(argv=None):
         if slow:
             print("   of which photometry laps: "
                   + ", ".join(f"{k} +{v:.2f} s" for k, v in slow.items()))
+        before, peak = _frame_memory(plan.science[0], masters, geometry[0:1], context, out)
+        print(f"peak memory of a fresh process running one frame task: {peak:.0f} MB "
+              f"({before:.0f} MB with the stages imported; goal for a worker: < 600)")
     return 0
 
 

@@ -98,13 +98,14 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ra
         # the steep wings around a saturated core look sharp to the Laplacian: leave them out
         ignore = ignore | _grown_around(np.asarray(saturated, bool), _SATURATED_GROW)
     bad = ignore | ~np.isfinite(data) | ~np.isfinite(variance)
-    clean = np.where(bad, 0.0, data)
-    var = np.where(bad, float(read_noise) ** 2, variance)
     # mirror the frame past its edges so a star cut by the edge keeps both of its flanks
-    clean = np.pad(clean, pad, mode="symmetric").astype(np.float32)
-    var = np.pad(var, pad, mode="symmetric").astype(np.float32)
+    clean = np.pad(np.where(bad, np.float32(0.0), np.asarray(data, np.float32)), pad,
+                   mode="symmetric")
+    var = np.pad(np.where(bad, np.float32(float(read_noise) ** 2),
+                          np.asarray(variance, np.float32)), pad, mode="symmetric")
     padmask = np.pad(bad, pad, mode="symmetric")
     mask = laplacian_cosmics(clean, var, padmask, **opts)
+    del clean, var
     mask = mask[pad:-pad, pad:-pad] if pad else mask
     mask &= ~bad
     if star_ratio is not None and star_ratio > 0:
