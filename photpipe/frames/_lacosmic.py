@@ -37,21 +37,27 @@ _CHUNK = 16384           # candidates whose fine structure is formed at once (me
 def _clipped_laplacian(image, rows=32):
     """``L+`` of the 2x2 sub-sampled image, block-averaged back to the frame's pixels.
 
-    Worked in blocks of ``rows`` rows, so the temporary arrays stay in the processor's cache.
+    Worked in blocks of ``rows`` rows, each copied with a one-pixel edge (the frame's edge
+    pixels repeated), so the temporary arrays stay in the processor's cache.
     """
-    p = np.pad(image, 1, mode="edge")
     total = np.empty_like(image)
     ny, nx = image.shape
+    p = np.empty((rows + 2, nx + 2), image.dtype)
     centre = np.empty((rows, nx), image.dtype)
     term = np.empty_like(centre)
     acc = np.empty_like(centre)
     for r0 in range(0, ny, rows):
         r1 = min(ny, r0 + rows)
         n = r1 - r0
+        # rows r0 - 1 .. r1 of the frame, edge rows and columns repeated past the frame
+        block = p[:n + 2]
+        src = np.clip(np.arange(r0 - 1, r1 + 1), 0, ny - 1)
+        block[:, 1:-1] = image[src]
+        block[:, 0], block[:, -1] = block[:, 1], block[:, -2]
         c, t, a = centre[:n], term[:n], acc[:n]
         np.multiply(image[r0:r1], 2.0, out=c)
-        up, down = p[r0:r1, 1:-1], p[r0 + 2:r1 + 2, 1:-1]
-        left, right = p[r0 + 1:r1 + 1, :-2], p[r0 + 1:r1 + 1, 2:]
+        up, down = block[:-2, 1:-1], block[2:, 1:-1]
+        left, right = block[1:-1, :-2], block[1:-1, 2:]
         a[...] = 0.0
         for vertical in (up, down):
             for horizontal in (left, right):
@@ -145,7 +151,8 @@ def _median_of(values, usable, default):
     return get
 
 
-def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5.0, niter=4):
+def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5.0, niter=4,
+                      overwrite_input=False):
     """Boolean mask of cosmic-ray hits by L.A.Cosmic.
 
     Parameters
@@ -164,13 +171,17 @@ def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5
         Minimum contrast of a hit against the fine-structure image (spares stars).
     niter : int, optional
         Largest number of passes; the search stops early when a pass finds nothing new.
+    overwrite_input : bool, optional
+        Work in ``data`` and ``variance`` themselves (float32 arrays the caller no longer
+        needs: hits and bad pixels are replaced in them) instead of in copies.
 
     Returns
     -------
     ndarray of bool
     """
-    image = np.array(data, dtype=np.float32)        # copies: hits are replaced in place
-    var = np.array(variance, dtype=np.float32)
+    # hits are replaced in place: in copies unless the caller gives its arrays up
+    take = np.asarray if overwrite_input else np.array
+    image, var = take(data, dtype=np.float32), take(variance, dtype=np.float32)
     bad = np.asarray(bad, dtype=bool)
     good = ~bad
     hits = np.zeros(image.shape, dtype=bool)

@@ -104,7 +104,7 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ra
     var = np.pad(np.where(bad, np.float32(float(read_noise) ** 2),
                           np.asarray(variance, np.float32)), pad, mode="symmetric")
     padmask = np.pad(bad, pad, mode="symmetric")
-    mask = laplacian_cosmics(clean, var, padmask, **opts)
+    mask = laplacian_cosmics(clean, var, padmask, overwrite_input=True, **opts)
     del clean, var
     mask = mask[pad:-pad, pad:-pad] if pad else mask
     mask &= ~bad
