@@ -190,3 +190,23 @@ def measure_comet_frame(frame, reference_stars, geometry_row, **options):
     """
     return measure_frame(frame, reference_stars, geometry_row,
                          MeasureOptions.from_keywords(**options))
+
+
+def _flat_signature():
+    """``measure_comet_frame``'s signature: the data, then every option with its default."""
+    import dataclasses
+    import inspect
+
+    from .options import _GROUP_TYPES
+
+    data = [inspect.Parameter(name, inspect.Parameter.POSITIONAL_OR_KEYWORD)
+            for name in ("frame", "reference_stars", "geometry_row")]
+    options = [inspect.Parameter(f.name, inspect.Parameter.KEYWORD_ONLY,
+                                 default=f.default if f.default is not dataclasses.MISSING
+                                 else f.default_factory())
+               for kind in _GROUP_TYPES.values() for f in dataclasses.fields(kind)]
+    return inspect.Signature(data + options)
+
+
+# introspection (help, editors, the configuration's check of defaults) sees every keyword
+measure_comet_frame.__signature__ = _flat_signature()
