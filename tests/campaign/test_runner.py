@@ -95,7 +95,7 @@ def test_existing_scheduler_gives_the_same_results():
     from distributed import LocalCluster
 
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
-                      dashboard_address=None, silence_logs=logging.ERROR) as cluster:
+                      dashboard_address=":0", silence_logs=logging.ERROR) as cluster:
         remote = dict(run_tasks(_toys.fail_on_three, range(5), scheduler=cluster.scheduler_address,
                                 progress=False))
     local = dict(run_tasks(_toys.fail_on_three, range(5), workers=0, progress=False))
