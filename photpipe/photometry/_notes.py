@@ -2,6 +2,8 @@
 
 import time
 
+from .dust_phase import PHASE_FLAG
+
 __all__ = ["FLAG_TEXT", "Notes"]
 
 #: flag -> sentence for the messages list.
@@ -22,6 +24,8 @@ FLAG_TEXT = {
     "psf_fallback": ("too few field stars, or a curve of growth that does not fix both Moffat "
                      "parameters; the coma aperture correction uses a Moffat PSF with beta = 3 "
                      "and the measured FWHM"),
+    PHASE_FLAG: ("phase angle outside the range where the dust phase function is checked; "
+                 "A(0)fρ uses its value at the edge of that range"),
     "low_elongation": ("small solar elongation: pointing optics near the Sun can blind and damage "
                        "them; follow local rules and experienced practice"),
 }

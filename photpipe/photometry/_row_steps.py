@@ -13,7 +13,7 @@ from ._notes import add_flag
 from .afrho import afrho as afrho_of
 from .afrho import afrho_uncertainty
 from .airmass import frame_airmass, header_airmass
-from .dust_phase import dust_phase
+from .dust_phase import PHASE_FLAG, dust_phase, phase_beyond_checked
 from .profile import annulus_means, profile_slope, sector_selection
 from .result import MEASUREMENT_COLUMNS
 from .solar import solar_magnitude
@@ -135,6 +135,9 @@ def magnitudes(prep, lay, ap, cal, opts, notes):
         p = opts.profile
         phi = dust_phase(geo["phase"] * u.deg, method=p.dust_phase_function,
                          table=p.phase_function_table, coefficient=p.phase_coefficient)
+        if np.any(phase_beyond_checked(geo["phase"] * u.deg, method=p.dust_phase_function,
+                                       table=p.phase_function_table)):
+            notes.flag(PHASE_FLAG, f"{geo['phase']:.1f} deg")
         a0, a0_err = af / phi, af_err / phi
     else:
         af = af_err = a0 = a0_err = np.full(len(lay.radii), np.nan)
