@@ -27,6 +27,8 @@ from .locate import *  # noqa: F401,F403
 from .locate import __all__ as _locate_all
 from .measure import *  # noqa: F401,F403
 from .measure import __all__ as _measure_all
+from .options import *  # noqa: F401,F403
+from .options import __all__ as _options_all
 from .phase_linear import *  # noqa: F401,F403
 from .phase_linear import __all__ as _phase_linear_all
 from .phase_schleicher_marcus import *  # noqa: F401,F403
@@ -66,6 +68,7 @@ __all__ = (
     _errors_all +
     _locate_all +
     _measure_all +
+    _options_all +
     _phase_linear_all +
     _phase_schleicher_marcus_all +
     _phase_table_all +
