@@ -14,45 +14,17 @@ from astropy import units as u
 from astropy.coordinates import SkyCoord
 from astropy.wcs.utils import proj_plane_pixel_scales
 
+from photpipe.frames.instruments import pixel_scale_from_header
 from photpipe.frames.types import CalibratedFrame
 
 from .detection import detect_sources, sky_statistics
 from .platesolve import PlateSolveError, pointing_from_header, solve_plate
 
-__all__ = ["pixel_scale_from_header", "solve_frame", "SOLVE_MODES"]
+__all__ = ["solve_frame", "SOLVE_MODES"]
 
 #: When to solve: ``"never"`` (keep the header WCS), ``"missing"`` (only frames with no
 #: celestial WCS), ``"always"`` (every frame; a header WCS is checked and replaced).
 SOLVE_MODES = ("never", "missing", "always")
-
-
-def pixel_scale_from_header(header):
-    """Pixel scale a header states, or None.
-
-    Read from ``PIXSCALE`` or ``SECPIX`` (arcsec per pixel), else from the pixel size
-    ``XPIXSZ`` (µm, binned or not, with ``XBINNING``) and ``FOCALLEN`` (mm):
-    scale = 206.265 × pixel size / focal length (small-angle optics, common practice).
-
-    Examples
-    --------
-    >>> round(float(pixel_scale_from_header({"XPIXSZ": 9.0, "FOCALLEN": 1500.0}).value), 4)
-    1.2376
-    >>> pixel_scale_from_header({}) is None
-    True
-    """
-    for key in ("PIXSCALE", "SECPIX", "SCALE"):
-        value = header.get(key)
-        if isinstance(value, (int, float)) and not isinstance(value, bool) \
-                and np.isfinite(value) and value > 0:
-            return float(value) * u.arcsec
-    size, focal = header.get("XPIXSZ"), header.get("FOCALLEN")
-    try:
-        size, focal = float(size), float(focal)
-    except (TypeError, ValueError):
-        return None
-    if not (np.isfinite(size) and np.isfinite(focal) and size > 0 and focal > 0):
-        return None
-    return 206.265 * size / focal * u.arcsec
 
 
 def _guess(frame, comet_position):

@@ -7,7 +7,8 @@ import pytest
 from astropy import units as u
 from astropy.coordinates import SkyCoord
 
-from photpipe.photometry import PlateSolveError, pixel_scale_from_header, solve_frame
+from photpipe.frames import pixel_scale_from_header
+from photpipe.photometry import PlateSolveError, solve_frame
 
 from ._fields import largest_difference_arcsec
 
