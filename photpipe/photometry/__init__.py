@@ -23,6 +23,8 @@ from .dust_phase import *  # noqa: F401,F403
 from .dust_phase import __all__ as _dust_phase_all
 from .errors import *  # noqa: F401,F403
 from .errors import __all__ as _errors_all
+from .filters import *  # noqa: F401,F403
+from .filters import __all__ as _filters_all
 from .frame_solve import *  # noqa: F401,F403
 from .frame_solve import __all__ as _frame_solve_all
 from .locate import *  # noqa: F401,F403
@@ -68,6 +70,7 @@ __all__ = (
     _detection_all +
     _dust_phase_all +
     _errors_all +
+    _filters_all +
     _frame_solve_all +
     _locate_all +
     _measure_all +
