@@ -28,9 +28,8 @@ from astropy.coordinates import SkyCoord
 from astropy.time import Time
 
 from photpipe.campaign import TaskRunner
-from photpipe.campaign.config import load_config
-from photpipe.campaign.geometry_settings import geometry_for_times
 from photpipe.campaign.pipeline import run_campaign
+from photpipe.config import geometry_for_times, load_config
 from photpipe.scenario import Instrument, make_star_field, render_night
 from photpipe.scenario.demo import demo_exposures
 

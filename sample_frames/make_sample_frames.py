@@ -14,8 +14,8 @@ from astropy import units as u
 from astropy.coordinates import SkyCoord
 from astropy.time import Time
 
-from photpipe.campaign.config import load_config
-from photpipe.campaign.geometry_settings import geometry_for_times
+from photpipe.config import load_config
+from photpipe.config import geometry_for_times
 from photpipe.photometry import dust_phase
 from photpipe.scenario import make_star_field, render_night
 from photpipe.scenario.demo import DEMO_INSTRUMENT, DEMO_TRUTH, demo_exposures, demo_truth_table

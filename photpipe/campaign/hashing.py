@@ -40,7 +40,7 @@ def config_hash(config, *, sections=FRAME_SECTIONS):
     Parameters
     ----------
     config : dict
-        A configuration as returned by :func:`photpipe.campaign.config.load_config`.
+        A configuration as returned by :func:`photpipe.config.load_config`.
     sections : tuple of str, optional
         The sections to include.
 

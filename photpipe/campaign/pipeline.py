@@ -20,14 +20,24 @@ from pathlib import Path
 
 from astropy.time import Time
 
+from photpipe import frames
 from photpipe._records import Skipped
+from photpipe.config import (
+    ConfigError,
+    geometry_at_location,
+    location_for_night,
+    night_folders,
+    read_frames,
+    read_nucleus,
+    read_photometry,
+    read_run,
+)
 
-from .config import ConfigError, night_folders
 from .hashing import config_hash, file_sha256
 from .refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from .runner import TaskError, TaskRunner
-from .settings import nucleus_options, photometry_options
-from .stages import FRAME_STAGES, STAGES, stage_function, stage_status
+from .stages import CAMPAIGN_STEPS, FRAME_STAGES
+from .steps import run_campaign_steps
 from .store import CampaignStore, write_table_atomic
 from .summary import NightSummary, RunSummary
 from .tasks import process_frame
@@ -39,10 +49,6 @@ log = logging.getLogger("photpipe.campaign")
 #: Tables exported into each night's folder, with the stage that fills them.
 NIGHT_TABLES = {"frames": "calibration", "measurements": "photometry", "nucleus": "nucleus",
                 "stars": "photometry", "zero_points": "photometry", "skipped": "calibration"}
-
-#: ``[frames]`` keys that are calibration options rather than the frame-type mapping.
-_OPTION_KEYS = ("detect_cosmics", "cosmic_method", "max_saturated_fraction", "method", "sigma",
-                "maxiters", "require_dark")
 
 _FITS_ENDINGS = (".fz", ".gz", ".fits", ".fit", ".fts")
 
@@ -77,27 +83,10 @@ def _frame_name(path):
     return base
 
 
-def _frame_settings(config):
-    """Plain keyword values for the frame stages, from the configuration's sections."""
-    frames = stage_function("calibration", "kind_map_from_mapping")
-    section = {k: v for k, v in config.get("frames", {}).items() if k not in _OPTION_KEYS}
-    try:
-        kind_map = frames(section)
-    except (TypeError, ValueError) as exc:
-        msg = f"{config.get('_file', 'configuration')}: [frames]: {exc}"
-        raise ConfigError(msg) from exc
-    calib = config.get("frames", {})
-    calibration = {k: calib[k] for k in ("detect_cosmics", "cosmic_method",
-                                         "max_saturated_fraction") if k in calib}
-    masters = {k: calib[k] for k in ("method", "sigma", "maxiters") if k in calib}
-    return {"kind_map": kind_map, "calibration": calibration, "masters": masters,
-            "require_dark": bool(calib.get("require_dark", False))}
-
-
 def _night_site(config, night):
     """The night's observing site (an EarthLocation, or None for the geocentre) and a problem."""
     try:
-        return stage_function("geometry", "location_for_night")(config, night), None
+        return location_for_night(config, night), None
     except ConfigError as exc:
         return None, f"{type(exc).__name__}: {exc}"
 
@@ -106,12 +95,11 @@ def _night_geometry(config, site, infos):
     """Geometry rows of the night's science frames seen from ``site``, computed once here."""
     if not infos:
         return [], None, []
-    compute = stage_function("geometry", "geometry_at_location")
     times = Time([info.time_mid for info in infos])
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            table = compute(config, site, times)
+            table = geometry_at_location(config, site, times)
         except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
             return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
     cautions = sorted({str(w.message) for w in caught
@@ -135,27 +123,18 @@ class _Run:
         self.results = Path(config["campaign"]["results"])
         self.frame_hash = config_hash(config)
         self._reference = None
-        statuses = {name: stage_status(name) for name in STAGES}
-        self.statuses = statuses
-        self.frame_stages = tuple(s for s in FRAME_STAGES if statuses[s].available)
-        self.settings = _frame_settings(config) if statuses["calibration"].available else {}
-        for stage, builder in (("photometry", photometry_options),
-                               ("nucleus", nucleus_options)):
-            options, ignored = builder(config)
-            self.settings[stage] = options
-            if ignored:
-                log.warning("[%s] keys not used by this photpipe: %s", stage,
-                            ", ".join(ignored))
+        self.frame_stages = FRAME_STAGES
+        self.frames = read_frames(config)
+        self.photometry = read_photometry(config)
+        self.nucleus = read_nucleus(config)
 
     def reference(self):
         """The campaign's reference-star store, opened (built when needed) on first use."""
         if self._reference is None:
-            phot = self.config.get("photometry", {})
-            options = self.settings.get("photometry", {})
-            store_path = phot.get("reference_store") or self.results / DEFAULT_STORE_NAME
+            phot = self.photometry
+            store_path = phot.reference_store or self.results / DEFAULT_STORE_NAME
             self._reference = campaign_reference_store(
-                phot.get("reference_stars"), store_path, band=options.get("band", "R"),
-                colour=options.get("colour"))
+                phot.reference_stars, store_path, band=phot.band, colour=phot.colour)
             ref = self._reference
             if ref.problem:
                 self.echo(f"reference stars: {ref.problem}; frames are calibrated but not "
@@ -183,11 +162,7 @@ class _Run:
             self.skip(night, entry["path"], "ingest", str(exc))
             self.echo(f"night {name}: {exc}; going on with the other nights")
             return
-        if not self.statuses["calibration"].available:
-            self.skip(night, entry["path"], "calibration", self.statuses["calibration"].reason)
-            return
-        scan = stage_function("calibration", "scan_night")
-        inventory = scan(files, kind_map=self.settings["kind_map"])
+        inventory = frames.scan_night(files, kind_map=self.frames.kind_map)
         night.counts = inventory.counts()
         for s in inventory.skipped:
             self.skip(night, s.item, s.stage, s.reason)
@@ -202,8 +177,7 @@ class _Run:
         self.echo(f"night {name}: {len(inventory.frames)} frames read ({counts or 'none'}), "
                   f"{len(inventory.skipped)} unreadable")
 
-        plan = stage_function("calibration", "plan_calibrations")(
-            inventory, require_dark=self.settings["require_dark"])
+        plan = frames.plan_calibrations(inventory, require_dark=self.frames.require_dark)
         for s in plan.skipped:
             self.skip(night, s.item, s.stage, s.reason)
         todo = []
@@ -225,8 +199,7 @@ class _Run:
 
     def _measure(self, entry, night, plan, todo, hashes):
         folder = self.results / night.name
-        masters = stage_function("calibration", "build_masters")(
-            plan, folder / "masters", **self.settings["masters"])
+        masters = frames.build_masters(plan, folder / "masters", **self.frames.master_options())
         for s in masters.skipped:
             self.skip(night, s.item, s.stage, s.reason)
         self.store.add_calibrations(
@@ -255,9 +228,10 @@ class _Run:
                   "calibrated_path": str(folder / "calibrated" / f"{info.name}.fits")}
                  for info, row in zip(todo, geometry)]
         shared = {"masters": masters, "stages": self.frame_stages,
-                  "calibration": self.settings["calibration"],
-                  "photometry": self.settings["photometry"],
-                  "nucleus": self.settings["nucleus"], "site_location": site}
+                  "calibration": self.frames.calibration_options(),
+                  "photometry": self.photometry.options(),
+                  "nucleus": self.nucleus.fit_options(), "psf": self.nucleus.psf_options(),
+                  "site_location": site}
         if "photometry" in self.frame_stages:
             reference = self.reference()
             shared.update(reference_store=reference.store_path,
@@ -297,58 +271,26 @@ class _Run:
     # -- the campaign ----------------------------------------------------------------------
 
     def campaign(self):
+        """Export the lightcurve and run the campaign steps on the store's tables."""
         lightcurve = self.store.lightcurve()
-        if "photometry" in self.frame_stages:
-            path = write_table_atomic(lightcurve, self.results / "lightcurve.ecsv")
-            lightcurve.meta["path"] = str(path)
-            self.summary.outputs.append(str(path))
-        for stage, adapter in _CAMPAIGN_STAGES.items():
-            status = self.statuses[stage]
-            if not status.available:
-                continue
-            if stage != "report" and len(lightcurve) == 0:
-                reason = ("the lightcurve is empty: no nucleus or small-aperture magnitude "
-                          "was measured")
-                self.summary.skipped.append(Skipped(stage, stage, reason))
-                continue
-            try:
-                with warnings.catch_warnings(record=True) as caught:
-                    warnings.simplefilter("always")
-                    written = adapter(self, lightcurve)
-                for w in caught:
-                    self.echo(f"{stage}: {w.category.__name__}: {w.message}")
-            except Exception as exc:  # noqa: BLE001 - a campaign stage failing keeps the rest
-                reason = f"{type(exc).__name__}: {exc}"
-                self.summary.skipped.append(Skipped(stage, stage, reason))
-                self.echo(f"{stage}: could not run: {reason}")
-                log.debug("%s stage traceback", stage, exc_info=True)
-                continue
-            if isinstance(written, dict) and written.get("summary"):
-                # The stage's own account goes to the log whole; the screen gets its title.
-                text = str(written["summary"])
-                log.info("%s stage:\n%s", stage, text)
-                self.echo(f"{stage}: {text.splitlines()[0]} (full text in the log)")
+        path = write_table_atomic(lightcurve, self.results / "lightcurve.ecsv")
+        lightcurve.meta["path"] = str(path)
+        self.summary.outputs.append(str(path))
+        steps = run_campaign_steps(
+            self.config, lightcurve, self.store.export_table("measurements"),
+            self.store.export_table("nucleus"), self.results, echo=self.echo,
+            sources=[f"campaign store {self.store.path}"])
+        self.summary.skipped.extend(steps.skipped)
+        self.summary.step_results = steps.results
+        for name, written in steps.results.items():
+            summary = getattr(written, "summary", None) if not isinstance(written, dict) \
+                else written.get("summary")
+            if summary:
+                # The step's own account goes to the log whole; the screen gets its title.
+                log.info("%s step:\n%s", name, summary)
+                self.echo(f"{name}: {str(summary).splitlines()[0]} (full text in the log)")
             for path in _paths(written):
                 self.summary.outputs.append(str(path))
-
-
-def _rotation_stage(run, lightcurve):
-    func = stage_function("rotation", "run_rotation_stage")
-    return func(run.config, lightcurve, run.results)
-
-
-def _size_stage(run, lightcurve):
-    func = stage_function("size", "run_size_stage")
-    return func(run.config, lightcurve, run.results)
-
-
-def _report_stage(run, lightcurve):
-    func = stage_function("report", "run_report_stage")
-    return func(run.config, run.store, out_dir=run.results)
-
-
-#: Campaign-level stages in the order they run (size reads the rotation result).
-_CAMPAIGN_STAGES = {"rotation": _rotation_stage, "size": _size_stage, "report": _report_stage}
 
 
 def _paths(written):
@@ -356,12 +298,17 @@ def _paths(written):
         return []
     if isinstance(written, (str, os.PathLike)):
         return [written] if os.path.isfile(written) else []
-    if isinstance(written, dict):
-        values = [v for k, v in written.items() if k != "summary"]
-        written = []
-        for v in values:
-            written.extend(v if isinstance(v, (list, tuple)) else [v])
-    return [p for p in written if isinstance(p, (str, os.PathLike)) and os.path.isfile(p)]
+    if not isinstance(written, dict):
+        written = {"path": getattr(written, "path", None)}
+    found = []
+    for key, value in written.items():
+        if key == "summary":
+            continue
+        if isinstance(value, dict):
+            found.extend(value.values())
+        else:
+            found.extend(value if isinstance(value, (list, tuple)) else [value])
+    return [p for p in found if isinstance(p, (str, os.PathLike)) and os.path.isfile(p)]
 
 
 def _open_log(results, run_id):
@@ -382,7 +329,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
     Parameters
     ----------
     config : dict
-        As returned by :func:`photpipe.campaign.config.load_config`.
+        As returned by :func:`photpipe.config.load_config`.
     workers : int, optional
         Local worker processes (default ``[run] workers``, else 1; 0 runs in this process).
     scheduler : str, optional
@@ -406,11 +353,11 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
         If the campaign store is damaged.
     """
     started = time.perf_counter()
-    run_cfg = config.get("run", {})
+    run_settings = read_run(config)
     if workers is None and scheduler is None:
-        scheduler = run_cfg.get("scheduler")
+        scheduler = run_settings.scheduler
     if workers is None:
-        workers = int(run_cfg.get("workers", 1))
+        workers = run_settings.workers
     names = [night_name(n) for n in config["night"]]
     duplicated = sorted({n for n in names if names.count(n) > 1})
     if duplicated:
@@ -439,9 +386,7 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
     status = "failed"
     try:
         run = _Run(config, store, runner, summary, rerun=rerun, echo=say)
-        summary.stages = list(run.statuses.values())
-        for s in summary.stages:
-            log.info("stage %s", s)
+        summary.stages = list(FRAME_STAGES + CAMPAIGN_STEPS)
         say(f"run {run_id}: {len(config['night'])} night(s), tasks on {runner.description}")
         with runner:
             for entry in config["night"]:

@@ -12,8 +12,9 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+from photpipe.photometry import ReferenceStarStore, read_reference_stars
+
 from .hashing import file_sha256
-from .stages import stage_function
 
 __all__ = ["DEFAULT_STORE_NAME", "ReferenceSource", "campaign_reference_store"]
 
@@ -72,7 +73,7 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
         Never raises for a bad catalogue or store: the problem is returned, so the frames are
         still calibrated and each photometry skip names it.
     """
-    store_cls = stage_function("photometry", "ReferenceStarStore")
+    store_cls = ReferenceStarStore
     store_path = os.fspath(store_path)
     if catalogue is None:
         if not os.path.exists(store_path):
@@ -93,9 +94,8 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
             store = None  # damaged or of another format: built again below
         if store is not None and store.meta == wanted:
             return ReferenceSource(store_path, n_stars=len(store))
-    read = stage_function("photometry", "read_reference_stars")
     try:
-        table = read(catalogue, bands=[band], colour=colour)
+        table = read_reference_stars(catalogue, bands=[band], colour=colour)
         Path(store_path).parent.mkdir(parents=True, exist_ok=True)
         store = store_cls.build(table, store_path, nside=nside, meta=wanted)
     except (OSError, ValueError) as exc:

@@ -1,53 +1,40 @@
-"""The report step of a campaign: the activity trend, outbursts and one offline HTML page.
+"""The report step of a campaign: figures and one offline HTML page.
 
-Takes the campaign's measurements and nucleus fits (a campaign store, or the tables that
-`photpipe.campaign.report_inputs` gathers), fits the Afρ(r_h) trend before and after perihelion,
-searches for outbursts, draws the campaign figures and writes ``<results>/report.html`` (plus
-``activity.json``). `run_report_stage` is what ``photpipe run`` and ``photpipe report`` call.
-The ``[activity]`` keys are listed in `photpipe.campaign.activity_settings`.
+Takes the campaign's measurements and nucleus fits, the activity step's analysis and the
+rotation and size results (all in memory), draws the campaign figures and writes
+``<results>/report.html``. `run_report_stage` is what ``photpipe run`` and ``photpipe report``
+call; the command alone runs the activity step first and reads the other results from files.
 """
 
-import json
 from pathlib import Path
 
 from astropy import units as u
-from astropy.table import Table
 
 from . import report_content as content
-from .activity_settings import activity_settings
+from .activity_step import run_activity_stage
 from .report import write_report
-from .report_inputs import from_store, stage_results
-from .result_files import write_text
 
 __all__ = ["run_report_stage"]
 
 
-def _trend_note(settings):
-    return (f"Trend: log10 Afρ against log10 r_h, one value per night, fitted with method "
-            f"'{settings['method']}' on each side of perihelion; outbursts are nights more than "
-            f"{settings['sigma']:g} σ above the trend with a sudden rise (> "
-            f"{settings['jump_sigma']:g} σ) from the night before and a campaign-wide "
-            f"false-alarm chance below {settings['max_false_alarm']:g}. "
-            "Δm = -2.5 log10(Afρ/Afρ_trend) is the brightening of the dust in the aperture.")
-
-
 def run_report_stage(config, measurements, nucleus=None, extra=None, out_dir=None, *,
-                     report_path=None):
-    """Fit the activity, draw the figures and write ``report.html`` (and ``activity.json``).
+                     activity=None, report_path=None):
+    """Draw the figures and write ``report.html``.
 
     Parameters
     ----------
     config : dict
-        A loaded configuration (`photpipe.campaign.config.load_config`).
-    measurements : `~astropy.table.Table` or campaign store
-        The campaign's measurement rows. A campaign store (an object with ``export_table``)
-        is also accepted, as ``run_report_stage(config, store, out_dir)``: the tables are
-        exported from it and ``rotation.json`` / ``size.json`` are read from ``out_dir``.
+        A loaded configuration (`photpipe.config.load_config`).
+    measurements : `~astropy.table.Table` or None
+        The campaign's measurement rows.
     nucleus : `~astropy.table.Table`, optional
     extra : dict, optional
-        ``rotation`` and ``size`` result dicts, when available.
+        ``rotation`` and ``size`` result dicts when available, and ``sources`` (where the
+        tables came from).
     out_dir : str or path-like, optional
         Folder to write into (default ``[campaign] results``).
+    activity : `~photpipe.campaign.activity_step.ActivityOutcome`, optional
+        The activity step's outcome; run here when not given.
     report_path : str or path-like, optional
         The HTML file (default ``<out_dir>/report.html``).
 
@@ -57,32 +44,13 @@ def run_report_stage(config, measurements, nucleus=None, extra=None, out_dir=Non
         The report written.
     """
     extra = dict(extra or {})
-    if hasattr(measurements, "export_table"):
-        store = measurements
-        if out_dir is None and nucleus is not None and not isinstance(nucleus, Table):
-            out_dir, nucleus = nucleus, None
-        measurements, nucleus = from_store(store)
-        for name, value in stage_results(out_dir or config["campaign"]["results"]).items():
-            extra.setdefault(name, value)
-        extra.setdefault("sources", [f"campaign store {getattr(store, 'path', '')}"])
     out = Path(out_dir or config["campaign"]["results"])
     out.mkdir(parents=True, exist_ok=True)
-    settings = activity_settings(config)
-    notes = []
-    analysis = None
-    if measurements is None or len(measurements) == 0:
-        notes.append("No measurements were found, so there is no activity trend yet.")
-    else:
-        try:
-            analysis = content.fit_activity(measurements, settings, notes)
-        except (ValueError, TypeError) as exc:
-            notes.append(f"The activity trend could not be fitted: {exc}")
-    if analysis is not None:
-        notes.append(_trend_note(settings))
-        payload = analysis.to_dict()
-        payload["settings"] = {k: (str(v) if not isinstance(v, (int, float, str, type(None)))
-                                   else v) for k, v in settings.items()}
-        write_text(out / "activity.json", json.dumps(payload, indent=2, default=str) + "\n")
+    if activity is None:
+        activity = run_activity_stage(config, measurements, out)
+    settings = activity.settings.as_dict()
+    analysis = activity.analysis
+    notes = list(activity.notes)
     for src in extra.get("sources", []):
         notes.append(f"Input: {src}")
     figures, captions = content.draw_figures(measurements, nucleus, analysis, settings, notes)

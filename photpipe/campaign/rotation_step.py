@@ -7,9 +7,7 @@ import json
 import warnings
 from pathlib import Path
 
-import numpy as np
-from astropy import units as u
-
+from photpipe.config import read_rotation
 from photpipe.rotation import (
     RotationWarning,
     periodogram_figure,
@@ -19,32 +17,9 @@ from photpipe.rotation import (
     search_rotation,
 )
 
-from .config import ConfigError
 from .result_files import write_atomic, write_text
 
-__all__ = ["run_rotation_stage", "ROTATION_KEYS"]
-
-#: ``[rotation]`` keys and their defaults.
-ROTATION_KEYS = {
-    "phase_law": "linear",
-    "phase_coefficient_mag_per_deg": 0.035,
-    "hg_slope": 0.15,
-    "min_period_h": 2.0,
-    "max_period_h": 60.0,
-    "methods": ["lomb-scargle", "fourier", "pdm"],
-    "n_bootstrap": 100,
-    "seed": 0,
-    "oversample": 10,
-    "max_order": 4,
-    "order_criterion": "bic",
-    "lomb_scargle_nterms": 2,
-    "pdm_bins": 10,
-    "pdm_covers": 2,
-    "prefer_double_peaked": True,
-    "use_points": "auto",
-    "coma_fraction": None,
-    "amplitude_phase_slope_per_deg": 0.015,
-}
+__all__ = ["run_rotation_stage"]
 
 
 def run_rotation_stage(config, table, out_dir):
@@ -67,33 +42,17 @@ def run_rotation_stage(config, table, out_dir):
     Raises
     ------
     ConfigError
-        If a ``[rotation]`` key is unknown.
+        If a ``[rotation]`` key is unknown or its value cannot be used.
     LightcurveError
         If the lightcurve cannot constrain a period (the message says why).
     """
-    section = dict(config.get("rotation", {}))
-    unknown = sorted(set(section) - set(ROTATION_KEYS))
-    if unknown:
-        msg = (f"{config.get('_file', 'config')}: unknown [rotation] key(s) {unknown}; "
-               f"known keys: {sorted(ROTATION_KEYS)}")
-        raise ConfigError(msg)
-    opt = {**ROTATION_KEYS, **section}
-    reduced = reduce_lightcurve(
-        table, phase_law=opt["phase_law"],
-        phase_coefficient=opt["phase_coefficient_mag_per_deg"] * u.mag / u.deg,
-        H_G_slope=opt["hg_slope"])
+    settings = read_rotation(config)
+    reduced = reduce_lightcurve(table, phase_law=settings.phase_law,
+                                phase_coefficient=settings.phase_coefficient,
+                                H_G_slope=settings.hg_slope)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RotationWarning)
-        result = search_rotation(
-            reduced, min_period=opt["min_period_h"] * u.h, max_period=opt["max_period_h"] * u.h,
-            methods=tuple(opt["methods"]), n_bootstrap=int(opt["n_bootstrap"]),
-            rng=np.random.default_rng(opt["seed"]), oversample=int(opt["oversample"]),
-            max_order=int(opt["max_order"]), order_criterion=opt["order_criterion"],
-            ls_nterms=int(opt["lomb_scargle_nterms"]), pdm_bins=int(opt["pdm_bins"]),
-            pdm_covers=int(opt["pdm_covers"]),
-            prefer_double_peaked=bool(opt["prefer_double_peaked"]),
-            use_points=opt["use_points"], coma_fraction=opt["coma_fraction"],
-            amplitude_phase_slope=opt["amplitude_phase_slope_per_deg"] / u.deg)
+        result = search_rotation(reduced, **settings.search_options())
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     data = result.to_dict()

@@ -48,7 +48,8 @@ class RunSummary:
         The run's log file.
     where : str
         Where the tasks ran.
-    stages : list of `~photpipe.campaign.stages.StageStatus`
+    stages : list of str
+        Names of the stages the run went through.
     nights : list of NightSummary
     skipped : list of `~photpipe._records.Skipped`
         Campaign-level items that could not be done (a missing night folder, a stage).
@@ -83,6 +84,7 @@ class RunSummary:
     log: str
     where: str = ""
     stages: list = field(default_factory=list)
+    step_results: dict = field(default_factory=dict)
     nights: list = field(default_factory=list)
     skipped: list = field(default_factory=list)
     outputs: list = field(default_factory=list)
@@ -123,12 +125,8 @@ class RunSummary:
         """
         lines = [f"run {self.run_id} {self.status} in {_duration(self.seconds)}"
                  + (f" on {self.where}" if self.where else "")]
-        ran = [s.name for s in self.stages if s.available]
-        missing = [s for s in self.stages if not s.available]
         if self.stages:
-            lines.append(f"stages run: {', '.join(ran) or 'none'}")
-        for s in missing:
-            lines.append(f"stage not available: {s.name} ({s.reason})")
+            lines.append(f"stages run: {', '.join(self.stages)}")
         for text in self.cautions:
             lines.append(f"CAUTION: {text}")
         if self.nights:

@@ -15,8 +15,11 @@ import traceback
 import numpy as np
 from astropy import units as u
 
+from photpipe import frames as frame_stage
+from photpipe import nucleus as nucleus_stage
+from photpipe import photometry as photometry_stage
+
 from .records import FrameRecord
-from .stages import stage_function
 
 __all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
 
@@ -50,7 +53,7 @@ def _reason(exc, info):
 @functools.lru_cache(maxsize=2)
 def _reference_store(path, mtime_ns):
     """The campaign's reference-star store, opened once per worker process (and file version)."""
-    return stage_function("photometry", "ReferenceStarStore")(path)
+    return photometry_stage.ReferenceStarStore(path)
 
 
 #: Room around a frame's corners when asking the store for its stars: twice the largest header
@@ -70,8 +73,8 @@ def frame_reference_stars(frame, path, *, margin=_FOOTPRINT_MARGIN):
     store = _reference_store(path, os.stat(path).st_mtime_ns)
     stars = store.for_frame(frame.wcs, frame.data.shape, margin=margin)
     if len(stars) == 0:
-        center, radius = stage_function("photometry", "frame_cone")(frame.wcs, frame.data.shape,
-                                                                    margin=margin)
+        center, radius = photometry_stage.frame_cone(frame.wcs, frame.data.shape,
+                                                     margin=margin)
         msg = (f"no matching stars: the reference-star catalogue has no star within "
                f"{radius.to_value(u.deg):.3f} deg of the frame centre (RA "
                f"{center.ra.deg:.4f}, Dec {center.dec.deg:.4f} deg); the frame lies outside "
@@ -133,10 +136,8 @@ def process_frame(item, shared):
     masters = shared["masters"]
     try:
         calibrations = _calibrations_used(masters, info)
-        frame = stage_function("calibration", "calibrate_frame")(
-            info, masters, **shared.get("calibration", {}))
-        calibrated_path = stage_function("calibration", "write_calibrated")(
-            frame, item["calibrated_path"])
+        frame = frame_stage.calibrate_frame(info, masters, **shared.get("calibration", {}))
+        calibrated_path = frame_stage.write_calibrated(frame, item["calibrated_path"])
     except Exception as exc:  # noqa: BLE001 - one frame's failure is recorded, the night goes on
         return FrameRecord(**base, problems=(("calibration", _reason(exc, info)),))
 
@@ -176,9 +177,8 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     # an undetected nucleus (flux at or below zero) takes nothing out
     flux = np.clip(fit.nucleus_flux_e_s, 0.0, None) * u.electron / u.s
     flux_err = fit.nucleus_flux_err_e / fit.exptime_s * u.electron / u.s
-    coma = stage_function("nucleus", "coma_only_afrho")(comet, flux, fit.psf,
-                                                          pixel_scale=pixel_scale,
-                                                          nucleus_flux_err=flux_err)
+    coma = nucleus_stage.coma_only_afrho(comet, flux, fit.psf, pixel_scale=pixel_scale,
+                                         nucleus_flux_err=flux_err)
     out = comet.copy(copy_data=False)
     for name in coma.colnames:
         out[name] = coma[name]
@@ -195,8 +195,7 @@ def _run_photometry(frame, geometry_row, shared):
     if shared.get("site_location") is not None:
         options.setdefault("site", shared["site_location"])  # airmass when the header has none
     stars = frame_reference_stars(frame, path)
-    measure = stage_function("photometry", "measure_comet_frame")
-    return measure(frame, stars, geometry_row[0], **options)
+    return photometry_stage.measure_comet_frame(frame, stars, geometry_row[0], **options)
 
 
 #: Field-star table of the photometry stage -> stored column.
@@ -258,14 +257,13 @@ def _run_nucleus(frame, photometry, item, shared):
         msg = "no WCS to give the pixel scale"
         raise ValueError(msg)
     pixel_scale = scale * u.arcsec / u.pix
-    psf_options = dict(options.pop("psf", {}))  # a copy: shared options stay as given
+    psf_options = dict(shared.get("psf", {}))  # a copy: shared options stay as given
     fwhm_pix = photometry.details.get("fwhm_pix")
     if fwhm_pix is not None and np.isfinite(fwhm_pix):
         psf_options.setdefault("fallback_fwhm", float(fwhm_pix))
-    psf = stage_function("nucleus", "measure_psf")(frame, star_xy, exclude_xy=(x0, y0),
-                                                    **psf_options)
+    psf = nucleus_stage.measure_psf(frame, star_xy, exclude_xy=(x0, y0), **psf_options)
     zp = photometry.zero_point
-    fit = stage_function("nucleus", "fit_nucleus")(
+    fit = nucleus_stage.fit_nucleus(
         frame, x0, y0, psf, pixel_scale=pixel_scale, zero_point=zp.zp,
         zero_point_err=zp.zp_err, star_xy=star_xy,
         rng=np.random.default_rng(_seed(item["content_hash"])), **options)

@@ -8,7 +8,7 @@ A command lists the failures it expects as `Problem` entries and runs its work i
 import sys
 from typing import NamedTuple
 
-from photpipe.campaign.config import ConfigError
+from photpipe.config import ConfigError
 
 __all__ = ["OK", "FAILED", "CONFIG_PROBLEM", "STORE_PROBLEM", "NO_DATA", "Problem", "CONFIG",
            "store_problem", "Failures", "say", "fail"]

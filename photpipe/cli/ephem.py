@@ -14,15 +14,15 @@ from astropy import units as u
 from astropy.time import Time
 
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
-from photpipe.campaign.config import load_config
-from photpipe.campaign.geometry_settings import (
-    GEOCENTRE,
-    caution_limit,
-    geometry_at_location,
-    location_for_site,
-)
 from photpipe.campaign.result_files import write_atomic
 from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
+from photpipe.config import (
+    GEOCENTRE,
+    geometry_at_location,
+    load_config,
+    location_for_site,
+    read_geometry,
+)
 from photpipe.geometry import solar_elongation_caution
 
 __all__ = ["HELP", "add_arguments", "execute", "parse_step", "time_grid", "format_table",
@@ -181,7 +181,7 @@ def execute(args):
             site = nights[0].get("site") if nights else None
         location = location_for_site(config, site)
         times = time_grid(args.start, args.stop, parse_step(args.step))
-        limit = caution_limit(config)
+        limit = read_geometry(config).caution_elongation
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", PhotpipeWarning)
             geometry = geometry_at_location(config, location, times)

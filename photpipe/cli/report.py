@@ -3,12 +3,10 @@
 Reads the campaign's measurements and nucleus fits (from the campaign store when it exists,
 else from the exported ``measurements.ecsv`` / ``nucleus.ecsv``) and writes
 ``<results>/report.html`` (plus ``activity.json``) through
-`photpipe.campaign.report_step.run_report_stage`. The ``[activity]`` keys are listed in
-`photpipe.campaign.activity_settings`.
+`photpipe.campaign.report_step.run_report_stage`, after the activity step
+(`photpipe.campaign.activity_step`). The ``[activity]`` keys are listed in ``configs/demo.toml``.
 """
 
-from photpipe.campaign.activity_settings import activity_settings
-from photpipe.campaign.config import load_config
 from photpipe.campaign.report_inputs import read_inputs
 from photpipe.campaign.report_step import run_report_stage
 from photpipe.cli._errors import (
@@ -22,6 +20,7 @@ from photpipe.cli._errors import (
     fail,
     store_problem,
 )
+from photpipe.config import load_config, read_activity
 
 __all__ = ["HELP", "add_arguments", "execute", "OK", "CONFIG_PROBLEM", "STORE_PROBLEM", "NO_DATA"]
 
@@ -45,7 +44,7 @@ def execute(args):
     """
     with Failures("report", CONFIG, store_problem(), Problem(ValueError, NO_DATA)) as outcome:
         config = load_config(args.config)
-        activity_settings(config)  # fail early on a bad [activity]
+        read_activity(config)  # fail early on a bad [activity]
         measurements, nucleus, extra = read_inputs(config, from_tables=args.from_tables)
     if outcome.code is not None:
         return outcome.code

@@ -2,10 +2,10 @@
 
 from pathlib import Path
 
-from photpipe.campaign.config import load_config
 from photpipe.campaign.result_files import read_ecsv
 from photpipe.campaign.rotation_step import run_rotation_stage
-from photpipe.cli._errors import CONFIG_PROBLEM, FAILED, OK, Failures, Problem
+from photpipe.cli._errors import CONFIG, CONFIG_PROBLEM, FAILED, OK, Failures, Problem
+from photpipe.config import load_config
 
 __all__ = ["HELP", "add_arguments", "execute"]
 
@@ -25,14 +25,14 @@ def execute(args):
     Returns 0 when a result was written, 2 for a configuration or lightcurve file that cannot be
     read, 1 when the lightcurve cannot constrain a period or a ``[rotation]`` key is wrong.
     """
-    with Failures("rotation", Problem(ValueError, CONFIG_PROBLEM)) as outcome:  # ConfigError too
+    with Failures("rotation", CONFIG, Problem(ValueError, CONFIG_PROBLEM)) as outcome:
         config = load_config(args.config)
         results = Path(config["campaign"]["results"])
         path = Path(args.table) if args.table else results / "lightcurve.ecsv"
         table = read_ecsv(path, "lightcurve")
     if outcome.code is not None:
         return outcome.code
-    with Failures("rotation", Problem(ValueError, FAILED, str(path))) as outcome:
+    with Failures("rotation", CONFIG, Problem(ValueError, FAILED, str(path))) as outcome:
         data = run_rotation_stage(config, table, results)
     if outcome.code is not None:
         return outcome.code

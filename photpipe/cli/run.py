@@ -38,8 +38,8 @@ def execute(args):
     Returns 0 when the run completed, even with skipped frames; 2 for a configuration that
     cannot be used, 3 for a damaged campaign store, 4 when none of the nights could be read.
     """
-    from photpipe.campaign.config import load_config
     from photpipe.campaign.pipeline import run_campaign
+    from photpipe.config import load_config
 
     if args.workers is not None and args.workers < 0:
         return fail("run", f"--workers must be 0 or more, got {args.workers}", CONFIG_PROBLEM)

@@ -8,9 +8,9 @@ Reads the configuration's ``[size]`` section and the campaign's reduced lightcur
 import os
 import warnings
 
-from photpipe.campaign.config import load_config
-from photpipe.campaign.size_step import read_lightcurve, run_size_stage
+from photpipe.campaign.size_step import read_lightcurve, read_rotation_result, run_size_stage
 from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem
+from photpipe.config import load_config
 
 __all__ = ["HELP", "add_arguments", "execute"]
 
@@ -38,7 +38,8 @@ def execute(args):
         table = read_lightcurve(lc_path)
         with warnings.catch_warnings():
             warnings.simplefilter("default")
-            out = run_size_stage(config, table, out_dir, rotation_path=args.rotation)
+            rotation = read_rotation_result(out_dir, args.rotation)
+            out = run_size_stage(config, table, out_dir, rotation=rotation)
     if outcome.code is not None:
         return outcome.code
     print(out["summary"])

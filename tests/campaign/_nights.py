@@ -14,7 +14,7 @@ from astropy.table import QTable, vstack
 from astropy.time import Time
 
 from photpipe.campaign import CampaignStore
-from photpipe.campaign.config import load_config
+from photpipe.config import load_config
 from photpipe.scenario import Instrument, make_star_field, render_night
 from photpipe.scenario.demo import demo_exposures
 
@@ -29,7 +29,7 @@ def _geometry(times):
     """Geometry of the demo comet at ``times`` (the project's own geometry stage if installed)."""
     config = load_config(DEMO)
     try:
-        from photpipe.campaign.geometry_settings import geometry_for_times
+        from photpipe.config import geometry_for_times
     except ImportError:
         geometry_for_times = None
     if geometry_for_times is not None:

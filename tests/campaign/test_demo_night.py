@@ -12,9 +12,8 @@ from astropy import units as u
 from astropy.table import QTable, join
 
 from photpipe.campaign import CampaignStore
-from photpipe.campaign.config import load_config
 from photpipe.campaign.pipeline import run_campaign
-from photpipe.campaign.stages import stage_status
+from photpipe.config import load_config
 
 from ._nights import DEMO, ROOT
 
@@ -35,10 +34,7 @@ def demo_rows(tmp_path_factory):
     return summary, rows, nucleus, truth
 
 
-pytestmark = [pytest.mark.slow,
-              pytest.mark.skipif(not (stage_status("photometry").available
-                                      and stage_status("nucleus").available),
-                                 reason="needs the photometry and nucleus stages")]
+pytestmark = [pytest.mark.slow]
 
 
 def test_every_science_frame_is_measured(demo_rows):

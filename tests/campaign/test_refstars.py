@@ -10,16 +10,12 @@ from astropy import units as u
 from astropy.table import QTable
 
 from photpipe.campaign import CampaignStore
-from photpipe.campaign.config import load_config
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.campaign.refstars import DEFAULT_STORE_NAME, campaign_reference_store
-from photpipe.campaign.stages import stage_status
 from photpipe.campaign.tasks import frame_reference_stars
+from photpipe.config import load_config
 
 from ._nights import render_small_night, write_config
-
-pytestmark = pytest.mark.skipif(not stage_status("photometry").available,
-                                reason="photometry stage not installed")
 
 
 def _quiet(line):
@@ -63,11 +59,10 @@ def test_store_built_once_and_gives_the_whole_catalogue_results(tmp_path, night)
     assert os.stat(store_path).st_mtime_ns == built_at
 
     # The footprint query gives the same photometry as the whole catalogue did before.
-    from photpipe.campaign.geometry_settings import geometry_for_times
-    from photpipe.campaign.settings import photometry_options
+    from photpipe.config import geometry_for_times, read_photometry
     from photpipe.frames import read_calibrated
 
-    options, _ = photometry_options(config)
+    options = read_photometry(config).options()
     frame_path = sorted((results / "2026-12-01" / "calibrated").glob("*.fits"))[0]
     frame = read_calibrated(frame_path)
     geometry = geometry_for_times(config, config["night"][0], frame.info.time_mid.reshape(1))

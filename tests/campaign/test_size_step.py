@@ -3,8 +3,8 @@ from pathlib import Path
 
 import pytest
 
-from photpipe.campaign.config import ConfigError, load_config
 from photpipe.campaign.size_step import run_size_stage
+from photpipe.config import ConfigError, load_config
 
 from ._nights import DEMO
 from ._step_inputs import FULL_SIZE, make_lightcurve, write_size_config

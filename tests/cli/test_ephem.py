@@ -6,15 +6,16 @@ from astropy import units as u
 from astropy.table import QTable, Table
 from astropy.time import Time
 
-from photpipe.campaign.config import ConfigError, load_config
-from photpipe.campaign.geometry_settings import (
-    caution_limit,
-    geometry_for_times,
-    location_for_night,
-    orbit_from_config,
-)
 from photpipe.cli.ephem import parse_step, time_grid
 from photpipe.cli.main import main
+from photpipe.config import (
+    ConfigError,
+    geometry_for_times,
+    load_config,
+    location_for_night,
+    orbit_from_config,
+    read_geometry,
+)
 from photpipe.geometry import Orbit, observing_geometry
 
 ORBIT = """[target.orbit]
@@ -95,23 +96,23 @@ def test_ephem_shows_the_caution_when_close_to_the_sun(tmp_path, capsys):
 
 @pytest.mark.parametrize(("kw", "argv", "text"), [
     pytest.param({"orbit": ORBIT.replace("e = 2.85", "e = -0.2")}, [],
-                 "[target.orbit] e must be >= 0, got -0.2", id="negative-e"),
+                 "[target.orbit] e: must be at least 0, got -0.2", id="negative-e"),
     pytest.param({"orbit": ORBIT.replace("q_au = 1.31", "q_au = 0.0")}, [],
-                 "[target.orbit] q_au must be > 0, got 0.0", id="zero-q"),
+                 "[target.orbit] q_au: must be positive, got 0.0 AU", id="zero-q"),
     pytest.param({"orbit": ORBIT.replace("q_au = 1.31\n", "")}, [],
-                 "[target.orbit] is missing q_au", id="missing-q"),
+                 "[target.orbit] q_au: missing", id="missing-q"),
     pytest.param({"orbit": ORBIT.replace("i_deg = 137.6", 'i_deg = "steep"')}, [],
-                 "[target.orbit] i_deg must be a number, got 'steep'", id="text-value"),
+                 "[target.orbit] i_deg: must be a number, got 'steep' (a text)", id="text-value"),
     pytest.param({"orbit": ORBIT.replace('"2026-11-20T09:30:00"', '"soon"')}, [],
-                 "[target.orbit] perihelion_time is not a readable time", id="bad-time"),
-    pytest.param({"orbit": ""}, [], "no [target.orbit] section", id="no-orbit"),
+                 "[target.orbit] perihelion_time: not a readable time", id="bad-time"),
+    pytest.param({"orbit": ""}, [], "[target.orbit]: missing: give the elements", id="no-orbit"),
     pytest.param({"site": "latitude_deg = 134.17"}, [],
-                 "[sites.kettle_rock]: site 'kettle_rock': latitude must be within -90 and 90 deg,"
-                 " got 134.17 deg", id="impossible-site"),
+                 "[sites.kettle_rock] latitude_deg: must be at least -90 and at most 90, "
+                 "got 134.17 deg", id="impossible-site"),
     pytest.param({"geometry": 'ephemeris = "de999"'}, [],
-                 "[geometry] ephemeris must be one of ['builtin', 'de421'], got 'de999'",
+                 "[geometry] ephemeris: must be one of 'builtin', 'de421', got 'de999'",
                  id="unknown-ephemeris"),
-    pytest.param({}, ["--site", "nowhere"], "no [sites.nowhere] section", id="unknown-site"),
+    pytest.param({}, ["--site", "nowhere"], "[sites.nowhere]: missing", id="unknown-site"),
     pytest.param({}, ["--step", "fortnight"], "--step 'fortnight': give a number", id="step"),
     pytest.param({}, ["--stop", "2026-11-30T00:00"], "is before --start", id="stop-first"),
 ])
@@ -145,7 +146,7 @@ epoch = 2026-12-01T00:00:00
     assert orb.name == "Vesperine"
     loc = location_for_night(cfg, cfg["night"][0])
     assert loc.lat.to_value(u.deg) == pytest.approx(34.17)
-    assert caution_limit(cfg) == 20 * u.deg
+    assert read_geometry(cfg).caution_elongation == 20 * u.deg
     mixed = load_config(_config(tmp_path, orbit=orbit + "q_au = 1.0\n"))
     with pytest.raises(ConfigError, match="mixes the two ways of giving an orbit"):
         orbit_from_config(mixed)

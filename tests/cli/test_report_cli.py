@@ -3,10 +3,9 @@ import json
 import pytest
 from campaign._step_inputs import write_report_campaign
 
-from photpipe.campaign.activity_settings import activity_settings
-from photpipe.campaign.config import ConfigError, load_config
 from photpipe.cli import report as cli_report
 from photpipe.cli.main import main
+from photpipe.config import ConfigError, load_config, read_activity
 
 
 def test_report_command_writes_page_and_activity(tmp_path, capsys):
@@ -56,13 +55,15 @@ def test_no_measurements(tmp_path, capsys):
 @pytest.mark.parametrize(
     ("activity", "match"),
     [
-        pytest.param("outburst_sigma = -1\n", "[activity] outburst_sigma must be positive",
+        pytest.param("outburst_sigma = -1\n", "[activity] outburst_sigma: must be positive",
                      id="negative-sigma"),
-        pytest.param('fit_method = "magic"\n', "[activity] fit_method must be one of",
+        pytest.param('fit_method = "magic"\n', "[activity] fit_method: must be one of",
                      id="bad-method"),
-        pytest.param("max_false_alarm = 2.0\n", "[activity] max_false_alarm must be above 0.0",
+        pytest.param("max_false_alarm = 2.0\n",
+                     "[activity] max_false_alarm: must be above 0 and at most 1",
                      id="bad-false-alarm"),
-        pytest.param('exclude_flags = "edge"\n', "[activity] exclude_flags must be a list",
+        pytest.param('exclude_flags = "edge"\n',
+                     "[activity] exclude_flags: must be a list of texts",
                      id="flags-not-list"),
     ],
 )
@@ -71,4 +72,4 @@ def test_bad_activity_settings(tmp_path, capsys, activity, match):
     assert main(["report", str(cfg)]) == cli_report.CONFIG_PROBLEM
     assert match in capsys.readouterr().err
     with pytest.raises(ConfigError, match=match.replace("[", r"\[").replace("]", r"\]")):
-        activity_settings(load_config(cfg))
+        read_activity(load_config(cfg))

@@ -51,8 +51,9 @@ def test_unknown_key_is_reported(tmp_path, capsys):
     path = tmp_path / "lc.ecsv"
     table.write(path, format="ascii.ecsv")
     args = type("A", (), {"config": str(_config(tmp_path, "periodd = 3")), "table": str(path)})()
-    assert cli.execute(args) == 1
-    assert "unknown [rotation] key(s) ['periodd']" in capsys.readouterr().err
+    assert cli.execute(args) == 2  # a configuration problem, as for every command
+    assert "[rotation] periodd: unknown key; did you mean 'min_period_h'?" in \
+        capsys.readouterr().err
 
 
 def test_too_few_points_message(tmp_path, capsys):

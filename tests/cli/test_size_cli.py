@@ -55,18 +55,22 @@ def test_rotation_period_switches_to_harmonic_mean(tmp_path):
 
 
 @pytest.mark.parametrize("line, message", [
-    pytest.param("albedo = 0.0", "[size] albedo must be positive, got 0.0", id="albedo-zero"),
-    pytest.param("albedo = -0.04", "[size] albedo must be positive", id="albedo-negative"),
-    pytest.param("density_range_g_cm3 = [0.0, 1.0]", "[size] density_range_g_cm3 must be "
-                 "positive", id="density-zero"),
-    pytest.param("density_range_g_cm3 = [1.0, 0.3]", "lo <= hi", id="density-reversed"),
+    pytest.param("albedo = 0.0", "[size] albedo: must be above 0 and at most 1, got 0.0",
+                 id="albedo-zero"),
+    pytest.param("albedo = -0.04", "[size] albedo: must be above 0 and at most 1",
+                 id="albedo-negative"),
+    pytest.param("albedo = 1.5", "[size] albedo: must be above 0 and at most 1",
+                 id="albedo-above-one"),
+    pytest.param("density_range_g_cm3 = [0.0, 1.0]",
+                 "[size] density_range_g_cm3: every value must be positive", id="density-zero"),
+    pytest.param("density_range_g_cm3 = [1.0, 0.3]", "low <= high", id="density-reversed"),
     pytest.param("mass_loss_kg_s = 150.0\noutflow_speed_m_s = 440.0\n"
-                 "nongrav_accel_limit_m_day2 = 0.0", "[size] nongrav_accel_limit_m_day2 must "
-                 "be positive", id="accel-zero"),
+                 "nongrav_accel_limit_m_day2 = 0.0", "[size] nongrav_accel_limit_m_day2: "
+                 "must be positive", id="accel-zero"),
     pytest.param("mass_loss_kg_s = 150.0\noutflow_speed_m_s = 440.0\n"
-                 "nongrav_accel_limit_m_day2 = -15.0", "[size] nongrav_accel_limit_m_day2 "
+                 "nongrav_accel_limit_m_day2 = -15.0", "[size] nongrav_accel_limit_m_day2: "
                  "must be positive", id="accel-negative"),
-    pytest.param("albedo = \"dark\"", "[size] albedo must be a number", id="albedo-text"),
+    pytest.param("albedo = \"dark\"", "[size] albedo: must be a number", id="albedo-text"),
 ])
 def test_bad_config_values(tmp_path, capsys, line, message):
     cfg = write_size_config(tmp_path, line)

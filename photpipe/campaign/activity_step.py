@@ -1,0 +1,168 @@
+"""The activity step of a campaign: ``[activity]`` settings -> Afρ trend and outbursts.
+
+`run_activity_stage` fits the Afρ(r_h) trend before and after perihelion and searches for
+outbursts (`photpipe.activity.analyse_activity`) on the campaign's measurement rows, writes
+``<results>/activity.json`` and returns the analysis in memory for the report step.
+"""
+
+import json
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+from astropy import units as u
+from astropy.time import Time
+
+from photpipe.activity import analyse_activity
+from photpipe.config import read_activity
+
+from .result_files import write_text
+
+__all__ = ["ActivityOutcome", "run_activity_stage"]
+
+
+@dataclass
+class ActivityOutcome:
+    """What the activity step found.
+
+    Attributes
+    ----------
+    analysis : `~photpipe.activity.ActivityAnalysis` or None
+        None when there was nothing to fit (``notes`` say why).
+    settings : `~photpipe.config.ActivitySettings`
+    notes : list of str
+        What was done, warnings raised, and why nothing was fitted when so.
+    path : str or None
+        ``activity.json``, when written.
+    """
+
+    analysis: object
+    settings: object
+    notes: list = field(default_factory=list)
+    path: str | None = None
+
+    @property
+    def summary(self):
+        """One line for the screen."""
+        if self.analysis is None:
+            return self.notes[-1] if self.notes else "no activity trend"
+        n = len(self.analysis.outbursts)
+        return (f"Afρ trend over {len(self.analysis.trend.nights)} night(s); {n} outburst(s) "
+                "found")
+
+
+def _values(table, name, unit):
+    col = table[name]
+    if isinstance(col, u.Quantity):
+        return col.to(unit)
+    col_unit = getattr(col, "unit", None)
+    values = np.asarray(col, dtype=float)
+    return (values * col_unit).to(unit) if col_unit is not None else values * u.Unit(unit)
+
+
+def _flagged(table, words):
+    if "flags" not in table.colnames or not words:
+        return np.zeros(len(table), dtype=bool)
+    return np.array([bool({w.strip() for w in str(text).split(",")} & set(words))
+                     for text in table["flags"]], dtype=bool)
+
+
+def _perihelion(settings, rows, notes):
+    if settings.perihelion_time is not None:
+        notes.append(f"Perihelion {settings.perihelion_time.utc.iso[:16]} UTC "
+                     f"(from {settings.perihelion_source}) splits the two branches.")
+        return settings.perihelion_time
+    time = Time(_values(rows, "mjd_utc_mid", u.day).value, format="mjd", scale="utc")
+    perihelion = time[int(np.nanargmin(_values(rows, "r_h_au", u.au).value))]
+    notes.append("No perihelion time was configured: the time of the smallest observed r_h "
+                 f"({perihelion.utc.iso[:16]} UTC) splits the two branches.")
+    return perihelion
+
+
+def fit_activity(measurements, settings, notes):
+    """Fit the trend and search for outbursts on the rows not flagged ``exclude_flags``.
+
+    Raises
+    ------
+    ValueError
+        If the measurements lack a column the fit needs.
+    """
+    column = settings.column
+    err_column = column.replace("_cm", "_err_cm")
+    for name in ("mjd_utc_mid", "r_h_au", "rho_km", column, err_column):
+        if name not in measurements.colnames:
+            msg = f"the measurements table has no column {name!r}"
+            raise ValueError(msg)
+    flagged = _flagged(measurements, settings.exclude_flags)
+    if np.any(flagged):
+        notes.append(f"{np.count_nonzero(flagged)} measurement rows flagged "
+                     f"{', '.join(settings.exclude_flags)} were left out of the trend.")
+    rows = measurements[~flagged]
+    perihelion = _perihelion(settings, rows, notes)
+    time = Time(_values(rows, "mjd_utc_mid", u.day).value, format="mjd", scale="utc")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        analysis = analyse_activity(
+            time, _values(rows, "r_h_au", u.au), _values(rows, column, u.cm),
+            _values(rows, err_column, u.cm), perihelion_time=perihelion,
+            rho=_values(rows, "rho_km", u.km), aperture=settings.aperture,
+            sigma=settings.sigma, jump_sigma=settings.jump_sigma,
+            quiet_sigma=settings.quiet_sigma, max_false_alarm=settings.max_false_alarm,
+            method=settings.method, night_gap=settings.night_gap)
+    for w in caught:
+        text = f"{w.category.__name__}: {w.message}"
+        if text not in notes:
+            notes.append(text)
+    return analysis
+
+
+def _trend_note(settings):
+    return (f"Trend: log10 Afρ against log10 r_h, one value per night, fitted with method "
+            f"'{settings.method}' on each side of perihelion; outbursts are nights more than "
+            f"{settings.sigma:g} σ above the trend with a sudden rise (> "
+            f"{settings.jump_sigma:g} σ) from the night before and a campaign-wide "
+            f"false-alarm chance below {settings.max_false_alarm:g}. "
+            "Δm = -2.5 log10(Afρ/Afρ_trend) is the brightening of the dust in the aperture.")
+
+
+def run_activity_stage(config, measurements, out_dir):
+    """Fit the campaign's activity trend and outbursts; write ``<out_dir>/activity.json``.
+
+    Parameters
+    ----------
+    config : dict
+        A configuration from `photpipe.config.load_config` (its ``[activity]`` section).
+    measurements : `~astropy.table.Table` or None
+        The campaign's measurement rows (``measurements.ecsv`` columns).
+    out_dir : str or path-like
+        Folder for ``activity.json``.
+
+    Returns
+    -------
+    ActivityOutcome
+        With ``analysis`` None (and a note) when there are no rows or the fit is not possible.
+
+    Raises
+    ------
+    ConfigError
+        For a bad ``[activity]`` value.
+    """
+    settings = read_activity(config)
+    outcome = ActivityOutcome(None, settings)
+    if measurements is None or len(measurements) == 0:
+        outcome.notes.append("No measurements were found, so there is no activity trend yet.")
+        return outcome
+    try:
+        outcome.analysis = fit_activity(measurements, settings, outcome.notes)
+    except (ValueError, TypeError) as exc:
+        outcome.notes.append(f"The activity trend could not be fitted: {exc}")
+        return outcome
+    outcome.notes.append(_trend_note(settings))
+    payload = outcome.analysis.to_dict()
+    payload["settings"] = {k: (v if isinstance(v, (int, float, str, type(None))) else str(v))
+                           for k, v in settings.as_dict().items()}
+    path = Path(out_dir) / "activity.json"
+    write_text(path, json.dumps(payload, indent=2, default=str) + "\n")
+    outcome.path = str(path)
+    return outcome
