@@ -27,7 +27,10 @@ from photpipe.config import (
     geometry_at_location,
     location_for_night,
     night_folders,
+    read_catalogue_columns,
+    read_filters,
     read_frames,
+    read_instruments,
     read_nucleus,
     read_photometry,
     read_run,
@@ -125,6 +128,8 @@ class _Run:
         self._reference = None
         self.frame_stages = FRAME_STAGES
         self.frames = read_frames(config)
+        self.instruments = read_instruments(config)
+        self.filters = read_filters(config)
         self.photometry = read_photometry(config)
         self.nucleus = read_nucleus(config)
 
@@ -133,8 +138,10 @@ class _Run:
         if self._reference is None:
             phot = self.photometry
             store_path = phot.reference_store or self.results / DEFAULT_STORE_NAME
+            bands = list(dict.fromkeys([phot.band] + [e.band for e in self.filters.entries]))
             self._reference = campaign_reference_store(
-                phot.reference_stars, store_path, band=phot.band, colour=phot.colour)
+                phot.reference_stars, store_path, band=phot.band, colour=phot.colour,
+                bands=bands, columns=read_catalogue_columns(self.config))
             ref = self._reference
             if ref.problem:
                 self.echo(f"reference stars: {ref.problem}; frames are calibrated but not "
@@ -162,8 +169,13 @@ class _Run:
             self.skip(night, entry["path"], "ingest", str(exc))
             self.echo(f"night {name}: {exc}; going on with the other nights")
             return
-        inventory = frames.scan_night(files, kind_map=self.frames.kind_map)
+        inventory = frames.scan_night(files, kind_map=self.frames.kind_map,
+                                      profiles=self.instruments,
+                                      night_profile=entry.get("instrument"))
         night.counts = inventory.counts()
+        for note in inventory.notes:
+            self.echo(f"night {name}: {note}")
+            log.info("night %s: %s", name, note)
         for s in inventory.skipped:
             self.skip(night, s.item, s.stage, s.reason)
         hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
@@ -231,7 +243,9 @@ class _Run:
                   "calibration": self.frames.calibration_options(),
                   "photometry": self.photometry.options(),
                   "nucleus": self.nucleus.fit_options(), "psf": self.nucleus.psf_options(),
-                  "site_location": site}
+                  "site_location": site, "filters": self.filters,
+                  "plate_solve": {"mode": self.photometry.plate_solve,
+                                  "max_offset": self.photometry.plate_max_offset}}
         if "photometry" in self.frame_stages:
             reference = self.reference()
             shared.update(reference_store=reference.store_path,

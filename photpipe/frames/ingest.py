@@ -20,7 +20,7 @@ from photpipe._records import Skipped
 from ._fitsfile import merged_header, open_image, trimmed_shape
 from ._headers import first_present, integer, keyword_errors, number, parse_time
 from .errors import FrameError
-from .instruments import choose_profile, pixel_scale_from_header
+from .instruments import DEFAULT_PROFILE, choose_profile, pixel_scale_from_header
 from .kinds import KindMap
 from .sites import site_from_header
 from .types import FrameInfo
@@ -196,7 +196,9 @@ def _frame_info(path, header, shape, *, kind_map, defaults, profile, profiles, n
             profile = choose_profile(header, profiles, night_profile=night_profile)
         except ValueError as exc:
             raise FrameError(path, str(exc)) from exc
-    kind = _frame_kind(path, header, kind_map or profile.kind_map)
+    # a configured camera's own frame types; else the ones given, else the defaults
+    own = profile.name != DEFAULT_PROFILE.name
+    kind = _frame_kind(path, header, profile.kind_map if own else kind_map or profile.kind_map)
     for key in ("BSCALE", "BZERO"):
         if key in header:
             number(path, key, header[key])

@@ -20,7 +20,7 @@ from photpipe.frames.types import CalibratedFrame
 from .detection import detect_sources, sky_statistics
 from .platesolve import PlateSolveError, pointing_from_header, solve_plate
 
-__all__ = ["solve_frame", "SOLVE_MODES"]
+__all__ = ["solve_frame", "solve_frame_from_store", "SOLVE_MODES"]
 
 #: When to solve: ``"never"`` (keep the header WCS), ``"missing"`` (only frames with no
 #: celestial WCS), ``"always"`` (every frame; a header WCS is checked and replaced).
@@ -115,6 +115,36 @@ def solve_frame(frame, reference_stars, *, band, pixel_scale=None, comet_positio
         details["header_wcs_error_arcsec"] = _largest_difference(frame.wcs.celestial,
                                                                  solution.wcs, frame.data.shape)
     return _with_solution(frame, solution), solution, details
+
+
+def solve_frame_from_store(frame, store, *, band, pixel_scale=None, comet_position=None,
+                           mode="missing", max_offset=16 * u.arcmin, **options):
+    """`solve_frame` with the catalogue stars taken from a reference-star store.
+
+    The store (`~photpipe.photometry.ReferenceStarStore`) is asked for the cone around the
+    first guess that holds the frame wherever the search may put it.
+
+    Returns
+    -------
+    frame, solution, details
+        As `solve_frame`.
+    """
+    has_wcs = frame.wcs is not None and frame.wcs.has_celestial
+    if mode == "never" or (mode == "missing" and has_wcs):
+        return frame, None, {}
+    guess, _ = _guess(frame, comet_position)
+    scale = _scale(frame, pixel_scale)
+    if guess is None or scale is None:
+        # solve_frame names what is missing
+        return solve_frame(frame, store.cone(SkyCoord(0 * u.deg, 0 * u.deg), 1 * u.arcsec),
+                           band=band, pixel_scale=scale, comet_position=comet_position,
+                           mode=mode, max_offset=max_offset, **options)
+    ny, nx = frame.data.shape
+    radius = (0.5 * np.hypot(nx, ny) * u.Quantity(scale, u.arcsec)
+              + u.Quantity(max_offset, u.arcmin) + 1 * u.arcmin)
+    stars = store.cone(guess, radius.to(u.deg))
+    return solve_frame(frame, stars, band=band, pixel_scale=scale, comet_position=comet_position,
+                       mode=mode, max_offset=max_offset, **options)
 
 
 def _bright_stars(frame, binning, n_stars=200):

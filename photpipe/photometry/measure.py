@@ -144,7 +144,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
                         max_centroid_shift=5 * u.arcsec, max_wcs_offset=30 * u.arcsec,
                         wcs_shift_limit=3 * u.pix, detect_threshold=5.0, detect_binning=2,
                         star_aperture_fwhm=1.5, max_zp_stars=150, min_elongation=45 * u.deg,
-                        coma_correction=True, site=None, airmass_formula="kasten-young"):
+                        coma_correction=True, site=None, airmass_formula="kasten-young",
+                        solar_band=None):
     """Measure the comet in one calibrated frame against the field stars.
 
     Parameters
@@ -160,6 +161,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         in those units.
     band : str, optional
         Catalogue band the frame is calibrated to (also selects the solar magnitude).
+    solar_band : str, optional
+        Band of the solar magnitude, when it differs from ``band`` (``[filters.NAME]``).
     colour : str, optional
         Catalogue colour column for the colour term and the star table.
     fit_colour_term : bool, optional
@@ -602,7 +605,7 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
     rho_km_rows = np.concatenate([km_radii, arcsec_radii / _ARCSEC_PER_RAD * delta_km])
     rho_as_rows = np.concatenate([r_km * scale, arcsec_radii])
     try:
-        m_sun = solar_magnitude(band, mag_system).to_value(u.mag)
+        m_sun = solar_magnitude(solar_band or band, mag_system).to_value(u.mag)
     except ValueError:
         m_sun = np.nan
         _flag(flags, messages, "no_solar_magnitude", f"band {band!r}, {mag_system}")
