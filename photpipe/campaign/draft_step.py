@@ -152,7 +152,7 @@ def _catalogue_lines(catalogue, colnames):
         lines.append(f"band = {_q(bands[0])}   # catalogue bands found: {', '.join(bands)}")
     if g["colours"]:
         lines.append(f"colour = {_q(g['colours'][0])}")
-    lines += ['plate_solve = "missing"   # frames without a WCS are solved from the catalogue',
+    lines += ['plate_solve = "always"   # every frame\'s WCS is solved from the catalogue',
               "", "[catalogue]   # the file's columns: " + ", ".join(colnames[:20])]
     for key in ("ra", "dec"):
         lines.append(f"{key} = {_q(g[key])}" if g[key] else

@@ -200,8 +200,8 @@ PHOTOMETRY = Section("photometry", (
         "spreads out"),
     Key("airmass_formula", "text", "kasten-young", "airmass when the header has none",
         choices=("kasten-young", "pickering")),
-    Key("plate_solve", "text", "missing", 'plate-solve frames from the catalogue: "missing" '
-        '(frames without a WCS), "always" (a header WCS is checked and replaced), "never"',
+    Key("plate_solve", "text", "always", 'plate-solve frames from the catalogue: "always" (a '
+        'header WCS is checked and replaced), "missing" (only frames without a WCS), "never"',
         choices=("never", "missing", "always")),
     Key("plate_max_offset_arcmin", "number", 16.0, "largest pointing error the plate solution "
         "searches", unit="arcmin", low=0.0),

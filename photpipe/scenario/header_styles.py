@@ -56,6 +56,8 @@ class HeaderStyle:
         ``.fit.gz`` (gzip).
     extra : tuple of (str, object)
         More cards.
+    wcs_error_pix : tuple of float
+        Shift (x, y) of the header WCS's reference pixel: a header WCS that is wrong.
     """
 
     name: str
@@ -69,6 +71,7 @@ class HeaderStyle:
     overscan_columns: int = 0
     ending: str = ".fits"
     extra: tuple = field(default=())
+    wcs_error_pix: tuple = (0.0, 0.0)
 
 
 #: Styles the tests and the demo use, by name.
@@ -129,6 +132,8 @@ def _restyle_header(header, shape, style, rng):
         if key in style.drop or (style.drop_wcs and key.startswith(_WCS_PREFIXES)):
             continue
         value = card.value
+        if key in ("CRPIX1", "CRPIX2"):
+            value = float(value) + float(style.wcs_error_pix[int(key[-1]) - 1])
         if key == "IMAGETYP" and kind in kinds:
             value = kinds[kind]
         if key == "DATE-OBS" and style.split_date and "T" in str(value):

@@ -84,3 +84,19 @@ def test_small_observatory_night_measured_with_no_hand_edits(tmp_path):
     for frame in a:
         # the same pixels, calibrated on the same stars: equal within the zero point's error
         assert abs(a[frame][0] - b[frame][0]) < a[frame][1]
+
+
+@pytest.mark.slow
+def test_header_wcs_off_by_arcminutes_is_solved_and_measured(tmp_path):
+    """A header WCS 2.2 arcmin off (beyond the 30 arcsec refinement): solved, then measured."""
+    from photpipe.scenario.header_styles import HeaderStyle
+
+    truth = render_small_night(tmp_path / "clean", n_science=2, seed=2,
+                               stars_path=tmp_path / "stars.ecsv")
+    wrong = HeaderStyle(name="wrong-wcs", wcs_error_pix=(70.0, -55.0))
+    restyle_night(truth, tmp_path / "wrong", wrong, rng=1)
+    config = load_config(write_config(tmp_path, [str(tmp_path / "wrong")],
+                                      stars_path=str(tmp_path / "stars.ecsv")))
+    summary = run_campaign(config, workers=0, progress=False, echo=_quiet)
+    assert summary.measured == 2
+    assert len(_zero_points(config)) == 2
