@@ -140,7 +140,7 @@ def _filter_lines(survey):
     return lines
 
 
-def _catalogue_lines(catalogue, colnames):
+def _catalogue_lines(catalogue, colnames, filters=()):
     if catalogue is None:
         return ["[photometry]",
                 'reference_stars = "stars.ecsv"   # TO SUPPLY: the reference-star catalogue',
@@ -148,6 +148,8 @@ def _catalogue_lines(catalogue, colnames):
     g = catalogue_columns_guess(colnames)
     lines = ["[photometry]", f"reference_stars = {_q(os.path.abspath(catalogue))}"]
     bands = list(g["magnitudes"])
+    # the band of the filters observed first, so [photometry] band agrees with [filters]
+    bands.sort(key=lambda b: b not in {BAND_ALIASES.get(f) and f for f in filters})
     if bands:
         lines.append(f"band = {_q(bands[0])}   # catalogue bands found: {', '.join(bands)}")
     if g["colours"]:
@@ -191,7 +193,8 @@ def draft_configuration(survey, *, catalogue=None, catalogue_colnames=()):
     for name, cam in survey.cameras.items():
         lines += _camera_lines(cam, cam_names[name])
     lines += _filter_lines(survey)
-    lines += _catalogue_lines(catalogue, list(catalogue_colnames))
+    filters = sorted({f for cam in survey.cameras.values() for f in cam.filters})
+    lines += _catalogue_lines(catalogue, list(catalogue_colnames), filters)
     lines += ["[target]", 'name = "my comet"   # TO SUPPLY', "",
               "[target.orbit]   # TO SUPPLY: the osculating elements (or [target] "
               "ephemeris_table)",
