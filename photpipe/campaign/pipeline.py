@@ -94,23 +94,42 @@ def _night_site(config, night):
         return None, f"{type(exc).__name__}: {exc}"
 
 
+def _site_groups(site, infos):
+    """Frames grouped by where they were taken: the header's site, else the night's."""
+    groups = {}
+    for i, info in enumerate(infos):
+        where = info.site if getattr(info, "site", None) is not None else site
+        key = None if where is None else tuple(round(float(v.to_value("m"))) for v in
+                                               where.geocentric)
+        groups.setdefault(key, (where, []))[1].append(i)
+    return list(groups.values())
+
+
 def _night_geometry(config, site, infos):
-    """Geometry rows of the night's science frames seen from ``site``, computed once here."""
+    """Geometry rows of the night's science frames, each seen from its own site.
+
+    A frame whose header names its site (OBSGEO-*, SITELAT/SITELONG) is seen from there; the
+    others from the night's ``site``. Computed once per site here.
+    """
     if not infos:
         return [], None, []
-    times = Time([info.time_mid for info in infos])
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            table = geometry_at_location(config, site, times)
-        except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
-            return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
-    cautions = sorted({str(w.message) for w in caught
-                       if w.category.__name__ == "SolarElongationWarning"})
-    for w in caught:
-        if w.category.__name__ != "SolarElongationWarning":
-            log.warning("geometry: %s: %s", w.category.__name__, w.message)
-    return [table[i:i + 1] for i in range(len(infos))], None, cautions
+    rows, cautions = [None] * len(infos), set()
+    for where, idx in _site_groups(site, infos):
+        times = Time([infos[i].time_mid for i in idx])
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                table = geometry_at_location(config, where, times)
+            except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
+                return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
+        cautions |= {str(w.message) for w in caught
+                     if w.category.__name__ == "SolarElongationWarning"}
+        for w in caught:
+            if w.category.__name__ != "SolarElongationWarning":
+                log.warning("geometry: %s: %s", w.category.__name__, w.message)
+        for k, i in enumerate(idx):
+            rows[i] = table[k:k + 1]
+    return rows, None, sorted(cautions)
 
 
 class _Run:
