@@ -3,6 +3,7 @@
 from types import SimpleNamespace
 
 import numpy as np
+import pytest
 from astropy import units as u
 from astropy.coordinates import EarthLocation
 from astropy.time import Time
@@ -13,6 +14,7 @@ from photpipe.config import geometry_at_location, load_config
 from ._nights import DEMO
 
 
+@pytest.mark.slow
 def test_each_frame_geometry_from_its_own_site():
     config = load_config(DEMO)
     night_site = EarthLocation.from_geodetic(-111.42 * u.deg, 34.17 * u.deg, 1710 * u.m)

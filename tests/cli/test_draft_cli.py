@@ -1,6 +1,7 @@
 """``photpipe draft``: a first configuration from a folder of small-observatory frames."""
 
 import numpy as np
+import pytest
 from astropy.table import QTable
 from campaign._nights import SMALL, render_small_night
 
@@ -9,6 +10,7 @@ from photpipe.config import load_config, read_catalogue_columns, read_filters, r
 from photpipe.scenario.header_styles import restyle_night
 
 
+@pytest.mark.slow
 def test_draft_from_a_small_observatory_folder(tmp_path, capsys):
     truth = render_small_night(tmp_path / "clean" / "n1", n_science=2, seed=3,
                                stars_path=tmp_path / "stars.ecsv")
