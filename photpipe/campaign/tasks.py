@@ -150,7 +150,10 @@ def process_frame(item, shared):
 
     photometry = None
     if solve_problem:
-        problems.append(("photometry", solve_problem))
+        # with a header WCS the frame goes on (a note under "astrometry"); without, no photometry
+        problems.append(("astrometry" if frame.wcs is not None else "photometry",
+                         solve_problem + ("; the header WCS is used" if frame.wcs is not None
+                                          else "")))
     if "photometry" in stages and geometry_row is not None and frame.wcs is not None:
         try:
             photometry = _run_photometry(frame, geometry_row, shared)
