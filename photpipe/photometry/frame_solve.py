@@ -3,7 +3,7 @@
 `solve_frame` detects the frame's stars, takes the first guess of the pointing from the header
 WCS, the header's pointing keywords or the comet's predicted place (in that order), solves the
 plate against the reference stars (`photpipe.photometry.platesolve.solve_plate`) and returns the
-frame with the solved WCS, its quality recorded in the header (``PPSOL*`` cards), and how far
+frame with the solved WCS, its quality recorded in the header (``SOLV*`` cards), and how far
 the header's own WCS was off.
 """
 
@@ -76,7 +76,7 @@ def solve_frame(frame, reference_stars, *, band, pixel_scale=None, comet_positio
     Returns
     -------
     frame : `~photpipe.frames.CalibratedFrame`
-        A copy carrying the solved WCS and ``PPSOL*`` header cards (the input itself when not
+        A copy carrying the solved WCS and ``SOLV*`` header cards (the input itself when not
         solved).
     solution : `PlateSolution` or None
     details : dict

@@ -81,13 +81,13 @@ class PlateSolution:
 
     def header_cards(self):
         """FITS cards recording the solution's quality (keyword, value, comment)."""
-        return [("PPSOLVED", True, "photpipe plate solution from reference stars"),
-                ("PPSOLN", self.n_matched, "stars matched in the plate solution"),
-                ("PPSOLRMS", round(self.rms_arcsec, 4), "[arcsec] rms of the solution"),
-                ("PPSOLMED", round(self.median_arcsec, 4), "[arcsec] median residual"),
-                ("PPSOLFAL", round(self.log10_false, 2), "log10 chance-match probability"),
-                ("PPSOLSIP", self.sip_degree, "SIP degree of the solution"),
-                ("PPSOLOFF", round(self.offset_arcsec, 2), "[arcsec] solved centre - guess")]
+        return [("SOLVED", True, "photpipe plate solution from reference stars"),
+                ("SOLVNSTR", self.n_matched, "stars matched in the plate solution"),
+                ("SOLVRMS", round(self.rms_arcsec, 4), "[arcsec] rms of the solution"),
+                ("SOLVMED", round(self.median_arcsec, 4), "[arcsec] median residual"),
+                ("SOLVFALS", round(self.log10_false, 2), "log10 chance-match probability"),
+                ("SOLVSIP", self.sip_degree, "SIP degree of the solution"),
+                ("SOLVOFF", round(self.offset_arcsec, 2), "[arcsec] solved centre - guess")]
 
 
 def _angle(value, *, hours):

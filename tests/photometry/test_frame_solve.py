@@ -41,7 +41,7 @@ def test_frame_without_wcs_solved_from_sexagesimal_pointing(rendered):
     assert details["guess_source"] == "header pointing"
     assert largest_difference_arcsec(solved.wcs, rendered.truth.wcs, (512, 512)) < 0.3
     assert sol.median_arcsec <= 0.2
-    assert solved.info.header["PPSOLVED"] is True
+    assert solved.info.header["SOLVED"] is True
     assert "plate solved" in solved.history[-1]
 
 
@@ -99,3 +99,19 @@ def test_solved_position_of_a_star_matches_truth(rendered):
     cat = SkyCoord(rendered.stars["ra"][[ref[int(i)] for i in st["id"]]],
                    rendered.stars["dec"][[ref[int(i)] for i in st["id"]]])
     assert np.median(sky.separation(cat).arcsec) < 0.1
+
+
+def test_calibrated_file_keeps_the_solution_and_its_quality(synthetic, tmp_path):
+    from astropy.io import fits
+    from astropy.wcs import WCS
+
+    from photpipe.frames import write_calibrated
+
+    s = synthetic(shape=(256, 256), afrho=None, n_stars=80, seed=3, wcs_offset_pix=(40, 10))
+    solved, sol, _ = solve_frame(s.frame, s.stars, band="R")
+    path = write_calibrated(solved, tmp_path / "cal.fits")
+    with fits.open(path) as hdul:
+        assert hdul[0].header["SOLVED"] is True
+        assert hdul[0].header["SOLVNSTR"] == sol.n_matched
+        written = WCS(hdul["DATA"].header)
+    assert largest_difference_arcsec(written, s.truth.wcs, (256, 256)) < 0.3

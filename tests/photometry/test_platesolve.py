@@ -151,9 +151,9 @@ def test_solution_quality_cards():
     rng = np.random.default_rng(12)
     sol = _solve(make_field(rng, n_in=50))
     cards = dict((k, v) for k, v, _ in sol.header_cards())
-    assert cards["PPSOLVED"] is True
-    assert cards["PPSOLN"] == sol.n_matched >= 8
-    assert cards["PPSOLFAL"] < -6
+    assert cards["SOLVED"] is True
+    assert cards["SOLVNSTR"] == sol.n_matched >= 8
+    assert cards["SOLVFALS"] < -6
     assert isinstance(sol.wcs, WCS)
 
 
