@@ -14,6 +14,7 @@ import numpy as np
 from astropy import units as u
 
 from photpipe.config import ConfigError, read_size
+from photpipe.orbit.bound import acceleration_limit_from_fit
 from photpipe.size import assess_nucleus, mean_absolute_magnitude, reduce_magnitude
 
 from .result_files import read_ecsv, read_json, write_text
@@ -143,6 +144,24 @@ def _activity_distance(rows, settings, notes):
     return r_act * u.au
 
 
+def _accel_limit(settings, out_dir, r_act, notes):
+    # the typed [size] limit wins; else the limit of <out_dir>/orbit.json (photpipe orbit)
+    if settings.accel_limit is not None:
+        return settings.accel_limit, {"accel_limit_source": "[size] configuration",
+                                      "accel_limit_confidence": None}
+    path = Path(out_dir) / "orbit.json"
+    fit = read_json(path, "orbit fit")
+    if fit is None:
+        return None, {}
+    limit, prov = acceleration_limit_from_fit(fit.get("nongrav", {}), r_h=r_act,
+                                              source=str(path))
+    if limit is not None:
+        notes.append(f"acceleration limit from the orbit fit ({path.name}, "
+                     f"{100 * prov['accel_limit_confidence']:.0f} % confidence, "
+                     f"{prov['accel_limit_law']} law at r_h {prov['accel_limit_r_h_au']:.3g} AU)")
+    return limit, prov
+
+
 def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
     """Run the size stage on a lightcurve and write ``<out_dir>/size.json``.
 
@@ -182,19 +201,22 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
     notes = []
     reduced = _reduced_magnitudes(rows, settings, where, notes)
     h = _absolute_magnitude(rows, reduced, rotation, notes)
+    r_act = _activity_distance(rows, settings, notes)
+    accel_limit, accel_provenance = _accel_limit(settings, out_dir, r_act, notes)
     result = assess_nucleus(
         h, band=_band(settings, rows, name_of_file), m_sun=settings.m_sun,
         albedo=settings.albedo, albedo_range=settings.albedo_range,
         albedo_prior=settings.albedo_prior, density_range=settings.density_range,
         mass_loss=settings.mass_loss, outflow_speed=settings.outflow_speed,
-        accel_limit=settings.accel_limit, efficiency=settings.momentum_efficiency,
+        accel_limit=accel_limit, efficiency=settings.momentum_efficiency,
         composition=settings.composition,
-        activity_r_h=_activity_distance(rows, settings, notes),
+        activity_r_h=r_act,
         sublimation_geometry=settings.sublimation_geometry, bond_albedo=settings.bond_albedo,
         emissivity=settings.emissivity, n_samples=settings.n_samples,
         rng=np.random.default_rng(settings.seed), notes=notes,
     )
     out = result.to_dict()
+    out.update(accel_provenance)
     out["summary"] = result.summary()
     path = Path(out_dir) / "size.json"
     write_text(path, json.dumps(out, indent=2, allow_nan=False) + "\n")

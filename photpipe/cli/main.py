@@ -20,6 +20,7 @@ COMMANDS = {
     "rotation": "photpipe.cli.rotation",
     "size": "photpipe.cli.size",
     "report": "photpipe.cli.report",
+    "orbit": "photpipe.cli.orbit",
     "draft": "photpipe.cli.draft",
 }
 
