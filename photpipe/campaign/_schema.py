@@ -10,10 +10,16 @@ from dataclasses import dataclass
 
 from astropy import units as u
 
-__all__ = ["SCHEMA_VERSION", "Column", "TABLES", "RESULT_TABLES", "schema_sql", "column_unit"]
+__all__ = ["SCHEMA_VERSION", "Column", "TABLES", "RESULT_TABLES", "schema_sql", "column_unit",
+           "LABELS", "column_label", "NAMING_RULE"]
+
+#: How every column of every result file is named (also in the README, "Column names").
+NAMING_RULE = ("lower-case snake_case; a quantity with a unit ends in that unit: _au, _km, _deg, "
+               "_arcsec, _mag, _cm, _h, _s, _pix, _e_s (electron/s); its error is the same name "
+               "with _err before the unit (afrho_err_cm, zp_err_mag)")
 
 #: Version of the layout below; stored in the ``schema_version`` table of every store.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 
 @dataclass(frozen=True)
@@ -58,8 +64,8 @@ MEASUREMENT_COLUMNS = (
     _c("y_pix", unit=u.pix),
     _c("ra_deg", unit=u.deg),
     _c("dec_deg", unit=u.deg),
-    _c("r_h_au", unit=u.AU),
-    _c("delta_au", unit=u.AU),
+    _c("r_h_au", unit=u.au),
+    _c("delta_au", unit=u.au),
     _c("phase_deg", unit=u.deg),
     _c("elong_deg", unit=u.deg),
     _c("rho_km", unit=u.km, description="aperture radius at the comet"),
@@ -71,6 +77,7 @@ MEASUREMENT_COLUMNS = (
     _c("a0frho_cm", unit=u.cm, description="Afrho corrected to 0 deg phase"),
     _c("a0frho_err_cm", unit=u.cm),
     _c("coma_slope"),
+    _c("coma_slope_err", description="1-sigma error of coma_slope from the profile fit"),
     _c("coma_apcorr_mag", unit=_MAG,
        description="aperture correction of the PSF-blurred coma applied to the sum"),
     _c("nucleus_share", description="share of the aperture's light from the fitted nucleus"),
@@ -91,7 +98,8 @@ NUCLEUS_COLUMNS = (
     _c("coma_k", unit=u.electron / u.s,
        description="K of the coma surface brightness K rho^-gamma, rho in pixels"),
     _c("coma_gamma"),
-    _c("fwhm_arcsec", unit=u.arcsec),
+    _c("fwhm_arcsec", unit=u.arcsec,
+       description="FWHM of the PSF model fitted to the field stars and used in the nucleus fit"),
     _c("nucleus_fraction"),
     _c("chi2_red"),
     _c("method", "TEXT"),
@@ -110,7 +118,10 @@ ZERO_POINT_COLUMNS = (
     _c("chi2_red"),
     _c("band", "TEXT"),
     _c("aperture_correction"),
-    _c("fwhm_arcsec", unit=u.arcsec),
+    _c("gauss_fwhm_arcsec", unit=u.arcsec,
+       description="median FWHM of Gaussian fits to the cores of field stars: the quick "
+                   "estimate that sizes the star apertures (wider than the PSF model's FWHM "
+                   "for stars with Moffat wings)"),
     _c("airmass"),
     _FLAGS,
 )
@@ -135,8 +146,8 @@ STAR_COLUMNS = (
 
 #: Observing geometry at each frame's mid-exposure time (one row per frame).
 GEOMETRY_COLUMNS = (
-    _c("r_h_au", unit=u.AU),
-    _c("delta_au", unit=u.AU),
+    _c("r_h_au", unit=u.au),
+    _c("delta_au", unit=u.au),
     _c("phase_deg", unit=u.deg),
     _c("elong_deg", unit=u.deg),
     _c("ra_deg", unit=u.deg),
@@ -177,6 +188,59 @@ TABLES = {
         _c("run", "INTEGER"),
     ),
 }
+
+
+#: Column name -> human label (the unit is added from the column's unit).
+LABELS = {
+    "frame": "frame", "night": "night", "mjd_utc_mid": "mid-exposure time (MJD, UTC)",
+    "filter": "filter", "exptime_s": "exposure time", "airmass": "airmass",
+    "zp_mag": "zero point", "zp_err_mag": "zero-point error", "n_stars": "reference stars",
+    "x_pix": "comet x", "y_pix": "comet y", "ra_deg": "right ascension",
+    "dec_deg": "declination", "r_h_au": "heliocentric distance r_h",
+    "delta_au": "geocentric distance Δ", "phase_deg": "phase angle",
+    "elong_deg": "solar elongation", "rho_km": "aperture radius ρ",
+    "rho_arcsec": "aperture radius on the sky", "mag": "magnitude in the aperture",
+    "mag_err": "magnitude error", "afrho_cm": "Afρ", "afrho_err_cm": "Afρ error",
+    "a0frho_cm": "A(0°)fρ", "a0frho_err_cm": "A(0°)fρ error",
+    "coma_slope": "coma slope d ln Σ / d ln ρ",
+    "coma_slope_err": "coma slope error", "coma_apcorr_mag": "coma aperture correction",
+    "nucleus_share": "nucleus share of the aperture", "afrho_coma_cm": "Afρ of the coma",
+    "afrho_coma_err_cm": "Afρ of the coma, error", "a0frho_coma_cm": "A(0°)fρ of the coma",
+    "a0frho_coma_err_cm": "A(0°)fρ of the coma, error", "flags": "flags",
+    "nucleus_mag": "nucleus magnitude", "nucleus_mag_err": "nucleus magnitude error",
+    "nucleus_flux_e_s": "nucleus flux", "coma_k": "coma brightness K", "coma_gamma":
+    "coma index γ", "fwhm_arcsec": "PSF FWHM (nucleus fit)",
+    "gauss_fwhm_arcsec": "star FWHM (Gaussian core)", "nucleus_fraction": "nucleus fraction",
+    "chi2_red": "reduced χ²", "method": "method", "colour_term": "colour term",
+    "colour_term_err": "colour-term error", "n_rejected": "stars rejected",
+    "rms_mag": "star residual rms", "band": "band", "aperture_correction":
+    "aperture correction", "light_time_s": "light time",
+}
+
+
+def column_label(name):
+    """Human label of a column with its unit, from the schema (the name itself if unknown).
+
+    Examples
+    --------
+    >>> column_label("r_h_au")
+    'heliocentric distance r_h (au)'
+    >>> column_label("coma_gamma")
+    'coma index γ'
+    """
+    label = LABELS.get(name, name)
+    unit = None
+    for columns, _ in RESULT_TABLES.values():
+        for col in columns:
+            if col.name == name and col.unit is not None:
+                unit = col.unit
+                break
+        if unit is not None:
+            break
+    if unit is None:
+        return label
+    text = "au" if unit == u.au else unit.to_string()
+    return f"{label} ({text})"
 
 
 def column_unit(table, name):

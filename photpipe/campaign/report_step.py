@@ -10,9 +10,10 @@ from pathlib import Path
 
 from astropy import units as u
 
-from . import report_content as content
+from photpipe.report import content
+from photpipe.report.page import write_report
+
 from .activity_step import run_activity_stage
-from .report import write_report
 
 __all__ = ["run_report_stage"]
 
@@ -53,13 +54,15 @@ def run_report_stage(config, measurements, nucleus=None, extra=None, out_dir=Non
     notes = list(activity.notes)
     for src in extra.get("sources", []):
         notes.append(f"Input: {src}")
-    figures, captions = content.draw_figures(measurements, nucleus, analysis, settings, notes)
+    figures, captions = content.draw_figures(measurements, nucleus, analysis, settings, notes,
+                                             extra=extra, out_dir=out)
     summary = content.summary_items(config, measurements, nucleus, analysis, extra, settings)
     elong = None
     if measurements is not None and len(measurements) and "elong_deg" in measurements.colnames:
         elong = content.column_values(measurements, "elong_deg", u.deg)
     target = Path(report_path) if report_path is not None else out / "report.html"
     return write_report(target, campaign_name=summary["campaign"], summary=summary,
-                        tables=content.result_tables(analysis, extra), figures=figures,
-                        notes=notes, elongations=elong,
-                        caution_elongation=settings["caution_elongation"], captions=captions)
+                        tables=content.result_tables(analysis, extra, measurements, nucleus),
+                        figures=figures, notes=notes, elongations=elong,
+                        caution_elongation=settings["caution_elongation"], captions=captions,
+                        **content.page_extras(measurements, nucleus, analysis, extra))

@@ -22,7 +22,7 @@ from astropy.table import MaskedColumn, QTable
 from photpipe import __version__
 
 from ._schema import RESULT_TABLES, SCHEMA_VERSION, TABLES, schema_sql
-from .result_files import write_atomic
+from .result_files import write_ecsv
 
 __all__ = ["CampaignStore", "StoreError", "EXPORTABLE"]
 
@@ -585,4 +585,4 @@ def _build_table(rows, specs):
 
 def write_table_atomic(table, path):
     """Write ``table`` to ``path`` as ECSV through a temporary file and a rename."""
-    return write_atomic(path, lambda tmp: table.write(tmp, format="ascii.ecsv", overwrite=True))
+    return write_ecsv(path, table)

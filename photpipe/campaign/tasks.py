@@ -160,6 +160,7 @@ def process_frame(item, shared):
         except Exception as exc:  # noqa: BLE001
             problems.append(("photometry", _reason(exc, info)))
         else:
+            photometry.comet["coma_slope_err"] = photometry.details.get("coma_slope_err", np.nan)
             record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
                           zero_point=_zero_point_row(photometry))
     if "nucleus" in stages and photometry is not None:
@@ -267,7 +268,7 @@ def _zero_point_row(photometry):
     fwhm_pix = photometry.details.get("fwhm_pix")
     scale = _pixel_scale_arcsec(photometry.wcs)
     if fwhm_pix is not None and scale is not None:
-        row["fwhm_arcsec"] = float(fwhm_pix) * scale
+        row["gauss_fwhm_arcsec"] = float(fwhm_pix) * scale
     if len(photometry.comet) and "airmass" in photometry.comet.colnames:
         row["airmass"] = photometry.comet["airmass"][0]
     return row

@@ -1,7 +1,10 @@
 """``photpipe ephem``: the target's observing geometry over a time span, printed and as ECSV.
 
-Uses the configured orbit (or ephemeris table), site and ephemeris. Rows where the target is
-close to the Sun in the sky are marked, and the Sun caution is printed above and below.
+Uses the configured orbit (or ephemeris table), site and ephemeris. At a site it adds the
+target's altitude and airmass, the Sun's altitude, the hours the target can be observed in a
+dark sky, and, when the campaign has results, the magnitude its own Afρ trend and nucleus H
+predict. Rows where the target is close to the Sun in the sky are marked, and the Sun caution
+is printed above and below.
 """
 
 import os
@@ -14,8 +17,9 @@ from astropy import units as u
 from astropy.time import Time
 
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
-from photpipe.campaign.result_files import write_atomic
+from photpipe.campaign.result_files import read_json, write_ecsv
 from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
+from photpipe.cli._sky import DARK_SUN_ALTITUDE, dark_windows, predicted_magnitude, sky_columns
 from photpipe.config import (
     GEOCENTRE,
     geometry_at_location,
@@ -24,11 +28,13 @@ from photpipe.config import (
     read_geometry,
 )
 from photpipe.geometry import solar_elongation_caution
+from photpipe.geometry._columns import for_file
 
 __all__ = ["HELP", "add_arguments", "execute", "parse_step", "time_grid", "format_table",
            "MAX_ROWS"]
 
-HELP = "the target's r_h, Δ, phase, elongation and sky position over a time span (ECSV too)"
+HELP = ("the target's r_h, Δ, phase, elongation, altitude, dark hours and predicted magnitude "
+        "over a time span (ECSV too)")
 
 #: Largest number of rows one call may produce.
 MAX_ROWS = 200_000
@@ -49,6 +55,8 @@ def add_arguments(parser):
     parser.add_argument("--site", default=None, metavar="NAME",
                         help=f"a [sites.NAME] key, or '{GEOCENTRE}' (default: the first "
                              "[[night]]'s site)")
+    parser.add_argument("--min-altitude", type=float, default=20.0, metavar="DEG",
+                        help="lowest altitude counted as observable (default 20 degrees)")
     parser.add_argument("--output", default=None, metavar="FILE",
                         help="ECSV to write (default: <results>/ephemeris.ecsv)")
 
@@ -119,6 +127,19 @@ def _sexagesimal(value_deg, *, hours):
     return f"{sign}{a:02d}:{b:02d}:{c:02.0f}"
 
 
+#: Optional columns of the printed table: name -> (heading, unit line, width).
+_EXTRA = {"alt": ("alt", "deg", 5), "airmass": ("air-", "mass", 5),
+          "sun_alt": ("Sun", "alt", 5), "mag_pred": ("mag", "pred", 5)}
+
+
+def _extra_cell(row, name):
+    value = row[name]
+    value = value.value if isinstance(value, u.Quantity) else float(value)
+    if not np.isfinite(value):
+        return "-"
+    return f"{value:.2f}" if name == "airmass" else f"{value:.1f}"
+
+
 def format_table(geometry, *, limit):
     """The readable text table for the terminal: one line per row, near-Sun rows marked.
 
@@ -137,11 +158,12 @@ def format_table(geometry, *, limit):
     >>> last.split()[:4], last.split()[-3:]
     (['2026-12-01', '00:00', '17:14:55.2', '-00:19:12'], ['208.0', '55.6', 'SUN'])
     """
-    widths = (16, 10, 9, 7, 8, 6, 6, 7, 6, 6, 6)
+    extra = [c for c in ("alt", "airmass", "sun_alt", "mag_pred") if c in geometry.colnames]
+    widths = (16, 10, 9, 7, 8, 6, 6, 7, 6, 6, 6) + tuple(_EXTRA[c][2] for c in extra)
     top = ("UTC", "RA", "Dec", "r_h", "Delta", "phase", "elong", "motion", "PA of", "PA to",
-           "PA of")
-    sub = ("date       time", "h:m:s", "d:m:s", "AU", "AU", "deg", "deg", '"/h', "motion",
-           "Sun", "-v")
+           "PA of") + tuple(_EXTRA[c][0] for c in extra)
+    sub = ("date       time", "h:m:s", "d:m:s", "au", "au", "deg", "deg", '"/h', "motion",
+           "Sun", "-v") + tuple(_EXTRA[c][1] for c in extra)
     lines = ["  ".join(f"{t:<{w}}" if k == 0 else f"{t:>{w}}"
                        for k, (t, w) in enumerate(zip(hdr, widths, strict=True))).rstrip()
              for hdr in (top, sub)]
@@ -162,7 +184,7 @@ def format_table(geometry, *, limit):
             f"{float(np.degrees(np.arctan2(rr, dr)) % 360.0):.1f}",
             f"{row['pa_sun'].to_value(u.deg):.1f}",
             f"{row['pa_neg_velocity'].to_value(u.deg):.1f}",
-        )
+        ) + tuple(_extra_cell(row, c) for c in extra)
         line = "  ".join(f"{c:>{w}}" for c, w in zip(cells, widths, strict=True))
         lines.append(line + ("  SUN" if elong < lim else ""))
     return "\n".join(lines)
@@ -189,6 +211,7 @@ def execute(args):
     if outcome.code is not None:
         return outcome.code
 
+    prediction = _add_sky_and_prediction(geometry, config, location)
     caution = solar_elongation_caution(geometry["elong"], limit=limit)
     target = config.get("target", {}).get("name", "target")
     observer = site if site not in (None, GEOCENTRE) else GEOCENTRE
@@ -203,13 +226,60 @@ def execute(args):
     print(format_table(geometry, limit=limit))
     if caution:
         print(caution)
+    for line in _observable_lines(geometry, location, args.min_altitude * u.deg, prediction):
+        print(line)
     for w in caught:
         if not issubclass(w.category, SolarElongationWarning):
             print(f"note: {w.message}", file=sys.stderr)
     try:
-        path = write_atomic(output, lambda tmp: geometry.write(tmp, format="ascii.ecsv",
-                                                                overwrite=True))
+        path = write_ecsv(output, for_file(geometry))
     except OSError as exc:
         return fail("ephem", str(exc), FAILED)
     print(f"written: {path}")
     return OK
+
+
+def _add_sky_and_prediction(geometry, config, location):
+    """Add altitude, airmass and the Sun's altitude (at a site), and the predicted magnitude."""
+    if location is not None:
+        alt, airmass, sun_alt = sky_columns(geometry["time"], location, geometry["ra"],
+                                            geometry["dec"])
+        geometry["alt"], geometry["airmass"], geometry["sun_alt"] = alt, airmass, sun_alt
+    results = config["campaign"]["results"]
+    try:
+        activity = read_json(os.path.join(results, "activity.json"), "activity result")
+        size = read_json(os.path.join(results, "size.json"), "size result")
+    except ValueError as exc:
+        return f"no predicted magnitude: {exc}"
+    mag, note = predicted_magnitude(geometry, activity=activity, size=size)
+    if mag is None:
+        return note
+    geometry["mag_pred"] = mag * u.mag
+    geometry.meta["mag_pred"] = f"predicted magnitude: {note}"
+    return note
+
+
+def _observable_lines(geometry, location, min_altitude, prediction):
+    """Lines naming the dark-sky windows and what the predicted magnitude rests on."""
+    lines = []
+    if prediction and "mag_pred" in geometry.colnames:
+        lines.append(f"mag pred: predicted from the campaign's own results ({prediction})")
+    elif prediction:
+        lines.append(prediction)
+    if location is None:
+        lines.append("altitude, airmass and dark hours need a site (--site NAME)")
+        return lines
+    windows = dark_windows(geometry["time"], geometry["alt"], geometry["sun_alt"],
+                           min_altitude=min_altitude)
+    head = (f"observable in a dark sky (Sun below {DARK_SUN_ALTITUDE.to_value(u.deg):g}°, "
+            f"target above {min_altitude.to_value(u.deg):g}°), to the grid's step:")
+    if not windows:
+        return lines + [f"{head} never in this span"]
+    total = 0.0
+    lines.append(head)
+    for a, b in windows:
+        hours = (b - a).to_value(u.h)
+        total += hours
+        lines.append(f"  {a.utc.iso[:16]} to {b.utc.iso[:16]} UTC ({hours:.1f} h)")
+    lines.append(f"  {total:.1f} h in all")
+    return lines

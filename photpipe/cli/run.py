@@ -56,5 +56,27 @@ def execute(args):
     unread = [n for n in summary.nights if not n.counts]
     if summary.nights and len(unread) == len(summary.nights):
         return fail("run", "none of the nights could be read; check the [[night]] paths", NO_DATA)
-    print(f"\nresults are in {summary.results}")
+    lines = _headline(config, summary)
+    if lines:
+        print("\nheadline (errors are 1σ):")
+        print("\n".join(f"  {line}" for line in lines))
     return OK
+
+
+def _headline(config, summary):
+    """The campaign's headline numbers, read back from the results; none if they cannot be."""
+    from pathlib import Path
+
+    from photpipe.campaign.report_inputs import read_inputs
+    from photpipe.campaign.result_files import read_json
+    from photpipe.report import headline_lines
+
+    try:
+        measurements, nucleus, extra = read_inputs(config)
+        activity = read_json(Path(summary.results) / "activity.json", "activity result")
+    except (OSError, ValueError) as exc:
+        return [f"(no headline: {exc})"]
+    report = Path(summary.results) / "report.html"
+    return headline_lines(measurements=measurements, nucleus=nucleus,
+                          rotation=extra.get("rotation"), size=extra.get("size"),
+                          activity=activity, report=str(report) if report.is_file() else None)

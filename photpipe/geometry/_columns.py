@@ -17,7 +17,8 @@ from photpipe.geometry._constants import (
 )
 from photpipe.geometry.caution import near_sun
 
-__all__ = ["GEOMETRY_COLUMNS", "geometry_table", "angle_between"]
+__all__ = ["GEOMETRY_COLUMNS", "FILE_NAMES", "for_file", "from_file", "geometry_table",
+           "angle_between"]
 
 #: Column name -> unit of the geometry table (DEVELOPERS.md, "Geometry").
 GEOMETRY_COLUMNS = {
@@ -38,6 +39,52 @@ GEOMETRY_COLUMNS = {
     "light_time": u.s,
     "flags": None,
 }
+
+
+#: Geometry column -> its name in files: the unit at the end, as in every result table
+#: (``measurements.ecsv`` has ``r_h_au``, ``delta_au``, ``ra_deg``; the README, "Column names").
+FILE_NAMES = {
+    "r_h": "r_h_au", "delta": "delta_au", "phase": "phase_deg", "elong": "elong_deg",
+    "ra": "ra_deg", "dec": "dec_deg", "ra_rate": "ra_rate_arcsec_h",
+    "dec_rate": "dec_rate_arcsec_h", "pa_sun": "pa_sun_deg",
+    "pa_neg_velocity": "pa_neg_velocity_deg", "true_anomaly": "true_anomaly_deg",
+    "r_h_dot": "r_h_dot_km_s", "delta_dot": "delta_dot_km_s", "light_time": "light_time_s",
+    "alt": "alt_deg", "sun_alt": "sun_alt_deg", "mag_pred": "pred_total_mag",
+}
+
+
+def for_file(table):
+    """A copy of a geometry table with its columns named as in files (`FILE_NAMES`).
+
+    Examples
+    --------
+    >>> from astropy.table import QTable
+    >>> for_file(QTable({"r_h": [1.3] * u.au})).colnames
+    ['r_h_au']
+    """
+    out = table.copy(copy_data=False)
+    for name, file_name in FILE_NAMES.items():
+        if name in out.colnames:
+            out.rename_column(name, file_name)
+    return out
+
+
+def from_file(table):
+    """A table read from a file with its geometry columns given their in-memory names.
+
+    Both spellings are accepted: ``r_h_au`` (as photpipe writes) and ``r_h``.
+
+    Examples
+    --------
+    >>> from astropy.table import QTable
+    >>> from_file(QTable({"r_h_au": [1.3] * u.au, "delta": [2.0] * u.au})).colnames
+    ['r_h', 'delta']
+    """
+    out = table.copy(copy_data=False)
+    for name, file_name in FILE_NAMES.items():
+        if file_name in out.colnames and name not in out.colnames:
+            out.rename_column(file_name, name)
+    return out
 
 
 def angle_between(a, b):

@@ -9,7 +9,7 @@ from astropy.time import Time
 from scipy.interpolate import CubicSpline
 
 from photpipe._warnings import PoorResultWarning
-from photpipe.geometry._columns import geometry_table
+from photpipe.geometry._columns import from_file, geometry_table
 from photpipe.geometry._constants import C_AU_PER_DAY, GM_SUN_AU3_D2
 from photpipe.geometry._timescales import tdb_parts
 from photpipe.geometry.caution import DEFAULT_CAUTION_ELONGATION, warn_if_near_sun
@@ -122,6 +122,7 @@ def geometry_from_ephemeris_table(table, times, *, location=None, ephemeris="bui
     if not isinstance(table, Table):
         msg = f"{source}: expected an astropy Table, got {type(table).__name__}"
         raise TypeError(msg)
+    table = from_file(table)  # photpipe's own files name the columns r_h_au, ra_deg, ...
     missing = [c for c in REQUIRED_TABLE_COLUMNS if c not in table.colnames]
     if missing:
         msg = (f"{source}: missing column(s) {', '.join(missing)}; an ephemeris table needs "

@@ -33,17 +33,21 @@ def _builders(campaign):
         "coma_slope": lambda: F.coma_slope_figure(meas, perihelion_time=sim.perihelion_time),
         "quality": lambda: F.quality_figure(meas, nuc),
         "outburst": lambda: F.outburst_figure(res.trend, res.outbursts),
+        "afrho_aperture": lambda: F.afrho_aperture_figure(meas),
+        "total_magnitude": lambda: F.total_magnitude_figure(meas),
     }
 
 
 EXPECTED_LABELS = {
-    "afrho_time": [("days from perihelion", "A(0°)fρ (cm)")],
+    "afrho_time": [("date (UTC)", "A(0°)fρ (cm)")],
     "afrho_rh": [("heliocentric distance r_h (au)", "A(0°)fρ (cm)")],
-    "nucleus": [("days from perihelion", "nucleus magnitude (mag)")],
-    "coma_slope": [("days from perihelion", "coma slope d ln Σ / d ln ρ")],
+    "nucleus": [("date (UTC)", "nucleus magnitude (mag)")],
+    "coma_slope": [("date (UTC)", "coma slope d ln Σ / d ln ρ")],
     "quality": [("", "zero point (mag)"), ("", "reference stars"),
-                ("frame number, in time order", "FWHM (arcsec)")],
-    "outburst": [("days from perihelion", "Δm from trend (mag)")],
+                ("date (UTC)", "PSF FWHM (arcsec)")],
+    "outburst": [("date (UTC)", "Δm from trend (mag)")],
+    "afrho_aperture": [("aperture radius ρ at the comet (km)", "A(0°)fρ (cm)")],
+    "total_magnitude": [("date (UTC)", "magnitude in the aperture (mag)")],
 }
 
 
@@ -72,18 +76,62 @@ def test_outburst_is_marked(campaign):
     assert len(notes) == 1 and notes[0].startswith("Δm = -")
 
 
-def test_time_axis_in_mjd_without_perihelion(campaign):
+def test_time_axis_in_dates_and_magnitudes_brighter_up(campaign):
     meas, nuc, _, _ = campaign
     fig = F.nucleus_lightcurve_figure(nuc)
-    assert fig.axes[0].get_xlabel() == "time (MJD, UTC)"
+    assert fig.axes[0].get_xlabel() == "date (UTC)"
     assert fig.axes[0].yaxis_inverted()  # magnitudes: brighter up
+
+
+def test_time_axis_is_not_stretched_to_a_distant_perihelion(campaign):
+    from astropy.time import Time
+    from matplotlib.dates import num2date
+
+    meas, nuc, _, _ = campaign
+    far = Time(float(np.min(meas["mjd_utc_mid"].value)) - 300, format="mjd")
+    ax = F.afrho_time_figure(meas, perihelion_time=far).axes[0]
+    lo = num2date(ax.get_xlim()[0])
+    first = Time(float(np.min(meas["mjd_utc_mid"].value)), format="mjd").datetime
+    assert (first - lo.replace(tzinfo=None)).days < 10  # the axis starts near the data
+    assert any("perihelion 300 d before" in t.get_text() for t in ax.texts)
+
+
+def test_power_laws_on_log_axes_with_the_fit_drawn(campaign):
+    meas, _, _, res = campaign
+    ax = F.afrho_rh_figure(meas, trend=res.trend).axes[0]
+    assert ax.get_xscale() == "log" and ax.get_yscale() == "log"
+    assert sum(1 for line in ax.lines if len(line.get_xdata()) == 50) == 2  # both branches
+
+
+def test_every_point_has_an_error_bar(campaign):
+    meas, nuc, _, res = campaign
+    for name in ("afrho_time", "afrho_rh", "nucleus", "coma_slope", "total_magnitude"):
+        ax = _builders(campaign)[name]().axes[0]
+        assert ax.containers, name  # errorbar containers
+
+
+def test_empty_departures_panel_says_why():
+    from photpipe.activity import analyse_activity
+    from photpipe.activity.synthetic import simulate_activity
+
+    sim = simulate_activity(seed=0)
+    few = slice(0, 2)  # two nights: no branch can be fitted
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        res = analyse_activity(sim.time[few], sim.r_h[few], sim.afrho[few], sim.afrho_err[few],
+                               perihelion_time=sim.perihelion_time)
+    ax = F.outburst_figure(res.trend, res.outbursts).axes[0]
+    assert ax.get_legend() is None
+    assert any("no branch of the activity trend" in t.get_text() for t in ax.texts)
 
 
 def test_plain_table_with_units_works(campaign):
     meas, _, _, _ = campaign
     plain = Table(meas)  # as read back by Table.read: Columns with units, not Quantities
     fig = F.coma_slope_figure(plain)
-    assert len(fig.axes[0].lines[0].get_xdata()) == len(np.unique(meas["frame"]))
+    assert len(fig.axes[0].containers[0].lines[0].get_xdata()) == len(np.unique(meas["frame"]))
 
 
 def test_no_pyplot_global_state():

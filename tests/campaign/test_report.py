@@ -75,7 +75,7 @@ def test_text_is_escaped_and_units_shown(tmp_path):
     text = _write(tmp_path).read_text(encoding="utf-8")
     assert "Invented comet &lt;b&gt;" in text
     assert "a &amp; b" in text
-    assert "<small>AU</small>" in text
+    assert "<small>au</small>" in text
 
 
 @pytest.mark.parametrize(

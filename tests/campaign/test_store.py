@@ -133,8 +133,9 @@ def test_export_writes_ecsv_with_units(store, tmp_path):
         "frame", "mjd_utc_mid", "filter", "exptime_s", "airmass", "zp_mag", "zp_err_mag",
         "n_stars", "x_pix", "y_pix", "ra_deg", "dec_deg", "r_h_au", "delta_au", "phase_deg",
         "elong_deg", "rho_km", "rho_arcsec", "mag", "mag_err", "afrho_cm", "afrho_err_cm",
-        "a0frho_cm", "a0frho_err_cm", "coma_slope", "coma_apcorr_mag", "nucleus_share",
-        "afrho_coma_cm", "afrho_coma_err_cm", "a0frho_coma_cm", "a0frho_coma_err_cm", "flags"]
+        "a0frho_cm", "a0frho_err_cm", "coma_slope", "coma_slope_err", "coma_apcorr_mag",
+        "nucleus_share", "afrho_coma_cm", "afrho_coma_err_cm", "a0frho_coma_cm",
+        "a0frho_coma_err_cm", "flags"]
     nucleus = store.export_table("nucleus", night="2026-12-01")
     # The nucleus.ecsv contract columns, in order (DEVELOPERS.md, Nucleus).
     assert nucleus.colnames == [
@@ -243,7 +244,7 @@ def test_older_store_gains_the_new_columns_and_keeps_its_rows(tmp_path):
     db.commit()
     db.close()
     with CampaignStore(path) as store:
-        assert store.schema_version == 2
+        assert store.schema_version == 3
         table = store.export_table("measurements")
     assert len(table) == 3
     assert np.all(np.isnan(u.Quantity(table["afrho_coma_cm"]).value))

@@ -65,13 +65,13 @@ def test_ephem_prints_and_writes_ecsv(tmp_path, capsys):
     assert "Vesperine: geometry from orbit, observer kettle_rock, ephemeris builtin; 7 rows" in text
     assert "SUN CAUTION" not in text
     table = QTable.read(out, format="ascii.ecsv")
-    assert len(table) == 7 and table["delta"].unit == u.au
+    assert len(table) == 7 and table["delta_au"].unit == u.au
     # the file holds what observing_geometry gives for the same site and times
     cfg_dict = load_config(cfg)
     ref = observing_geometry(orbit_from_config(cfg_dict), Time(table["time"]),
                              location=location_for_night(cfg_dict, 0))
-    np.testing.assert_allclose(table["ra"].to_value(u.deg), ref["ra"].to_value(u.deg),
-                               rtol=0, atol=1e-9)
+    np.testing.assert_allclose(table["ra_deg"].to_value(u.deg), ref["ra"].to_value(u.deg),
+                               rtol=0, atol=1e-6)  # the file keeps 6 decimals of a degree
     # one printed line per row, RA and Dec sexagesimal
     rows = [line for line in text.splitlines() if line.startswith("2026-12-01 0")]
     assert len(rows) == 7 and rows[0].split()[1] == "00:00"
@@ -181,3 +181,54 @@ def test_step_and_grid():
         time_grid("2026-01-01", "2027-01-01", parse_step("1min"))
     with pytest.raises(ValueError, match="--step '-1h'"):
         parse_step("-1h")
+
+
+def test_altitude_airmass_and_dark_hours_at_the_site(tmp_path, capsys):
+    from astropy.coordinates import AltAz, SkyCoord, get_sun
+
+    from photpipe.geometry._offline import offline_earth_orientation
+
+    cfg = _config(tmp_path)
+    out = tmp_path / "eph.ecsv"
+    assert main(["ephem", str(cfg), "--start", "2026-12-01T00:00", "--stop",
+                 "2026-12-01T12:00", "--step", "30min", "--min-altitude", "30",
+                 "--output", str(out)]) == 0
+    text = capsys.readouterr().out
+    table = QTable.read(out, format="ascii.ecsv")
+    # the geometric altitude from astropy's AltAz (reference library), refraction added by
+    # photpipe: the two agree to well under a degree above 10° altitude
+    site = location_for_night(load_config(cfg), 0)
+    with offline_earth_orientation():
+        frame = AltAz(obstime=Time(table["time"]), location=site, pressure=0 * u.hPa)
+        alt = SkyCoord(table["ra_deg"], table["dec_deg"]).transform_to(frame).alt
+        sun = get_sun(Time(table["time"])).transform_to(frame).alt
+    high = alt > 10 * u.deg
+    diff = (table["alt_deg"] - alt).to_value(u.deg)[high]
+    assert np.all((diff > 0) & (diff < 0.1))  # refraction lifts, < 6' above 10° (Bennett 1982)
+    np.testing.assert_allclose(table["sun_alt_deg"].to_value(u.deg), sun.to_value(u.deg),
+                               atol=1e-4)
+    # airmass near sec z high in the sky (Kasten & Young 1989 tends to sec z)
+    zen = high & (alt > 60 * u.deg)
+    np.testing.assert_allclose(table["airmass"][zen], 1 / np.sin(alt[zen]), rtol=3e-3)
+    dark = (sun < -18 * u.deg) & (table["alt_deg"] >= 30 * u.deg)
+    assert "observable in a dark sky (Sun below -18°, target above 30°)" in text
+    assert f"{np.count_nonzero(dark) * 0.5 - 0.5:.1f} h in all" in text  # one span here
+
+
+def test_predicted_magnitude_from_the_campaign_trend():
+    from photpipe.cli._sky import predicted_magnitude
+
+    geo = QTable({"time": Time(["2026-12-01T00:00"]), "r_h": [1.0] * u.au,
+                  "delta": [1.0] * u.au, "phase": [0.0] * u.deg})
+    activity = {"trend": {"rho_km": 10000.0, "perihelion_time": "2026-11-20T09:30:00.000",
+                          "branches": [{"branch": "post", "k": -2.0,
+                                        "log10_afrho_1au_cm": 2.0, "r_h_min": 0.9,
+                                        "r_h_max": 1.5}]}}
+    mag, note = predicted_magnitude(geo, activity=activity, size={"m_sun_mag": -27.15})
+    # A'Hearn et al. (1984, AJ 89, 579): Afρ = 4 r_h² Δ² / ρ 10^(0.4 (m_sun - m)), r_h in au,
+    # Δ and ρ in cm; Afρ = 100 cm at r_h = Δ = 1 au, ρ = 1e9 cm, m_sun(R) = -27.15 (Willmer
+    # 2018): m = -27.15 - 2.5 log10(100 · 1e9 / (4 · 1.495978707e13²)) = 12.7298
+    assert abs(mag[0] - 12.7298) < 1e-4
+    assert "ρ = 10000 km" in note
+    none, why = predicted_magnitude(geo, activity=None, size={"H_mag": 14.0})
+    assert none is None and "no fitted A(0)fρ trend" in why

@@ -18,7 +18,7 @@ def test_report_command_writes_page_and_activity(tmp_path, capsys):
     page = (results / "report.html").read_text(encoding="utf-8")
     assert "Sun caution" in page  # synthetic elongations start at 40°, limit 45°
     assert "rotation period" in page and "7.300 ± 0.020 h" in page
-    assert page.count("data:image/png;base64,") == 6
+    assert page.count("data:image/png;base64,") == 8  # two new: total magnitude, Afρ(ρ)
     assert "http://" not in page and "https://" not in page
     activity = json.loads((results / "activity.json").read_text())
     assert len(activity["outbursts"]) == 1

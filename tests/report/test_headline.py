@@ -1,0 +1,46 @@
+import numpy as np
+from astropy import units as u
+from astropy.table import QTable
+
+from photpipe.report.headline import headline_lines, nightly_afrho
+
+
+def _meas():
+    # two nights, two frames each, apertures 5000 and 10000 km
+    return QTable({
+        "frame": ["a", "a", "b", "b", "c", "c", "d", "d"],
+        "mjd_utc_mid": [61375.1, 61375.1, 61375.2, 61375.2, 61376.1, 61376.1, 61376.2, 61376.2],
+        "rho_km": [5000.0, 10000.0] * 4 * u.km,
+        "a0frho_cm": [1.0, 100.0, 1.0, 110.0, 1.0, 90.0, 1.0, 90.0] * u.cm,
+        "a0frho_err_cm": [1.0, 5.0, 1.0, 10.0, 1.0, 3.0, 1.0, 3.0] * u.cm,
+        "flags": ["", "", "edge", "", "", "", "", "airmass_computed"]})
+
+
+def test_night_means_are_weighted_and_scaled_by_their_scatter():
+    rows = nightly_afrho(_meas())
+    date, mean, err, rho, n = rows[0]
+    # weighted mean of 100 ± 5 and 110 ± 10 (inverse-variance weights, common practice)
+    w = np.array([1 / 25, 1 / 100])
+    assert date == "2026-12-01" and rho == 10000 and n == 2
+    assert np.isclose(mean, (100 * w[0] + 110 * w[1]) / w.sum())
+    chi2 = (w[0] * (100 - mean) ** 2 + w[1] * (110 - mean) ** 2) / 1
+    assert np.isclose(err, np.sqrt(1 / w.sum()) * max(1, np.sqrt(chi2)))
+    assert np.isclose(rows[1][1], 90.0) and np.isclose(rows[1][2], 3 / np.sqrt(2))
+
+
+def test_headline_names_caveats_and_where_to_look():
+    nuc = QTable({"nucleus_mag": [15.2, 15.4, 16.0] * u.mag,
+                  "flags": ["", "", "upper_limit"]})
+    lines = headline_lines(measurements=_meas(), nucleus=nuc,
+                           rotation={"status": "none", "reason": "weak detection"},
+                           size={"radius_km": 4.43, "radius_lo_km": 3.82,
+                                 "radius_hi_km": 5.46, "albedo": 0.04},
+                           report="results/report.html")
+    text = "\n".join(lines)
+    assert "A(0°)fρ 2026-12-01 (ρ = 10000 km, 2 frames): 102.0 ± 4.5 cm" in text
+    assert "nucleus magnitude: 15.20–15.40 mag over 2 frames; 1 frame(s) give only an upper " \
+           "limit" in text
+    assert "rotation period: none found (weak detection)" in text
+    assert "nucleus radius: 4.4 km (68 % interval 3.8–5.5 km)" in text
+    assert "flagged measurement rows: edge (1)" in text  # airmass_computed only informs
+    assert lines[-1] == "open the report: results/report.html"
