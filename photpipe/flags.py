@@ -42,6 +42,8 @@ FLAGS = {
     "low_elongation": ("photometry", "small solar elongation: pointing optics near the Sun can "
                                      "blind and damage them; follow local rules and "
                                      "experienced practice"),
+    "phase_extrapolated": ("photometry", "phase angle outside the range where the dust phase "
+                                         "function is checked; A(0)fρ uses its edge value"),
     "airmass_computed": ("photometry", "no AIRMASS in the header: computed from the site and "
                                        "time (informational)"),
     # nucleus
@@ -73,6 +75,13 @@ FLAGS = {
                                           "demonstrated"),
     "filter_offsets_removed": ("rotation", "a constant offset per filter was removed"),
     "phase_beyond_hg": ("rotation", "phase angle above 120°, beyond the H, G law's range"),
+    "upper_limits_set_aside": ("rotation", "nucleus upper limits were left out of the period "
+                               "search (counted in n_upper_limits_set_aside)"),
+    "bad_points_set_aside": ("rotation", "points with a NaN, infinite or non-positive error, "
+                             "magnitude or epoch were left out"),
+    "period_ambiguous": ("rotation", "several periods fit about as well, or the sampling cannot "
+                         "tell: no single period is claimed"),
+    "period_none": ("rotation", "no significant variation: no rotation period"),
     # activity
     "few_nights": ("activity", "fewer than 5 nights in the power-law fit"),
     "narrow_r_h": ("activity", "the nights span too narrow a range of r_h for a reliable "
@@ -83,9 +92,18 @@ FLAGS = {
     "wide_bracket": ("activity", "more than 3 days between the last quiet night and the "
                                  "outburst night"),
     "across_perihelion": ("activity", "the onset bracket spans perihelion"),
+    "onset_uncertain": ("activity", "another onset inside the night fits almost as well "
+                                    "(within-night search)"),
+    "decay_unresolved": ("activity", "the decay time is not bounded above by the night "
+                                     "(within-night search)"),
+    "total_light": ("activity", "no coma-only Afρ on this row: the total light's was used"),
     # size
     "below_momentum_bound": ("size", "the radius is below what the momentum balance of the "
                                      "outgassing allows"),
+    "h_error_large": ("size", "the H error, phase coefficient's range included, exceeds the "
+                      "stated limit: the radius is poorly constrained"),
+    "rotation_unknown": ("size", "H formed without a rotation model; its error covers the unknown "
+                         "rotational sampling"),
 }
 
 #: Words that inform rather than warn.

@@ -1,4 +1,4 @@
-"""Campaign: the measurement store, the Dask task runner, the batch run, figures and report."""
+"""Campaign: the batch run, the Dask task runner, the campaign steps, figures and report."""
 
 from .figures import *  # noqa: F401,F403
 from .figures import __all__ as _figures_all
@@ -10,8 +10,6 @@ from .report import *  # noqa: F401,F403
 from .report import __all__ as _report_all
 from .runner import *  # noqa: F401,F403
 from .runner import __all__ as _runner_all
-from .store import *  # noqa: F401,F403
-from .store import __all__ as _store_all
 
-__all__ = (list(_hashing_all) + list(_records_all) + list(_runner_all) + list(_store_all)
+__all__ = (list(_hashing_all) + list(_records_all) + list(_runner_all)
            + list(_figures_all) + list(_report_all))

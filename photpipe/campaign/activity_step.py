@@ -1,8 +1,10 @@
 """The activity step of a campaign: ``[activity]`` settings -> Afρ trend and outbursts.
 
 `run_activity_stage` fits the Afρ(r_h) trend before and after perihelion and searches for
-outbursts (`photpipe.activity.analyse_activity`) on the campaign's measurement rows, writes
-``<results>/activity.json`` and returns the analysis in memory for the report step.
+outbursts from night to night (`photpipe.activity.analyse_activity`) and inside each night
+(`photpipe.activity.find_night_outbursts`) on the campaign's measurement rows, following the
+configured Afρ column (the coma alone by default), writes ``<results>/activity.json`` and
+returns the analysis in memory for the report step.
 """
 
 import json
@@ -14,7 +16,7 @@ import numpy as np
 from astropy import units as u
 from astropy.time import Time
 
-from photpipe.activity import analyse_activity
+from photpipe.activity import FALLBACK_FLAG, afrho_series, analyse_activity, find_night_outbursts
 from photpipe.config import read_activity
 
 from .result_files import write_text
@@ -30,6 +32,8 @@ class ActivityOutcome:
     ----------
     analysis : `~photpipe.activity.ActivityAnalysis` or None
         None when there was nothing to fit (``notes`` say why).
+    night_outbursts : `~photpipe.activity.NightOutbursts` or None
+        The within-night search on the same rows.
     settings : `~photpipe.config.ActivitySettings`
     notes : list of str
         What was done, warnings raised, and why nothing was fitted when so.
@@ -39,6 +43,7 @@ class ActivityOutcome:
 
     analysis: object
     settings: object
+    night_outbursts: object = None
     notes: list = field(default_factory=list)
     path: str | None = None
 
@@ -48,8 +53,10 @@ class ActivityOutcome:
         if self.analysis is None:
             return self.notes[-1] if self.notes else "no activity trend"
         n = len(self.analysis.outbursts)
+        within = ("" if self.night_outbursts is None else
+                  f"; {len(self.night_outbursts.outbursts)} inside a night")
         return (f"Afρ trend over {len(self.analysis.trend.nights)} night(s); {n} outburst(s) "
-                "found")
+                f"from night to night{within}")
 
 
 def _values(table, name, unit):
@@ -83,14 +90,24 @@ def _perihelion(settings, rows, notes):
 def fit_activity(measurements, settings, notes):
     """Fit the trend and search for outbursts on the rows not flagged ``exclude_flags``.
 
+    The Afρ followed is ``settings.column`` (by default the coma alone at 0° phase), the total
+    light's where a row has no coma-only value (`photpipe.activity.afrho_series`). Outbursts are
+    searched from night to night (`photpipe.activity.analyse_activity`) and inside each night
+    (`photpipe.activity.find_night_outbursts`, on the trend's aperture).
+
+    Returns
+    -------
+    analysis : `~photpipe.activity.ActivityAnalysis`
+    within : `~photpipe.activity.NightOutbursts`
+    n_fallback : int
+        Rows that used the total light's Afρ.
+
     Raises
     ------
     ValueError
         If the measurements lack a column the fit needs.
     """
-    column = settings.column
-    err_column = column.replace("_cm", "_err_cm")
-    for name in ("mjd_utc_mid", "r_h_au", "rho_km", column, err_column):
+    for name in ("mjd_utc_mid", "r_h_au", "rho_km"):
         if name not in measurements.colnames:
             msg = f"the measurements table has no column {name!r}"
             raise ValueError(msg)
@@ -99,22 +116,30 @@ def fit_activity(measurements, settings, notes):
         notes.append(f"{np.count_nonzero(flagged)} measurement rows flagged "
                      f"{', '.join(settings.exclude_flags)} were left out of the trend.")
     rows = measurements[~flagged]
+    afrho, afrho_err, fallback = afrho_series(rows, column=settings.column)
+    if np.any(fallback == FALLBACK_FLAG):
+        notes.append(f"{np.count_nonzero(fallback == FALLBACK_FLAG)} of {len(rows)} rows have "
+                     f"no {settings.column} (no nucleus fit): the total light's Afρ is used "
+                     f"there (flag {FALLBACK_FLAG}).")
     perihelion = _perihelion(settings, rows, notes)
     time = Time(_values(rows, "mjd_utc_mid", u.day).value, format="mjd", scale="utc")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         analysis = analyse_activity(
-            time, _values(rows, "r_h_au", u.au), _values(rows, column, u.cm),
-            _values(rows, err_column, u.cm), perihelion_time=perihelion,
+            time, _values(rows, "r_h_au", u.au), afrho, afrho_err, perihelion_time=perihelion,
             rho=_values(rows, "rho_km", u.km), aperture=settings.aperture,
             sigma=settings.sigma, jump_sigma=settings.jump_sigma,
             quiet_sigma=settings.quiet_sigma, max_false_alarm=settings.max_false_alarm,
             method=settings.method, night_gap=settings.night_gap)
+        within = find_night_outbursts(
+            time, afrho, afrho_err, rho=_values(rows, "rho_km", u.km),
+            aperture=analysis.trend.rho, max_false_alarm=settings.night_max_false_alarm,
+            min_frames=settings.night_min_frames, night_gap=settings.night_gap)
     for w in caught:
         text = f"{w.category.__name__}: {w.message}"
         if text not in notes:
             notes.append(text)
-    return analysis
+    return analysis, within, int(np.count_nonzero(fallback == FALLBACK_FLAG))
 
 
 def _trend_note(settings):
@@ -123,7 +148,12 @@ def _trend_note(settings):
             f"{settings.sigma:g} σ above the trend with a sudden rise (> "
             f"{settings.jump_sigma:g} σ) from the night before and a campaign-wide "
             f"false-alarm chance below {settings.max_false_alarm:g}. "
-            "Δm = -2.5 log10(Afρ/Afρ_trend) is the brightening of the dust in the aperture.")
+            "Δm = -2.5 log10(Afρ/Afρ_trend) is the brightening of the dust in the aperture. "
+            "Inside each night of at least "
+            f"{settings.night_min_frames} frames, a step-plus-decay search on the frame series "
+            "(likelihood ratio calibrated by simulating the night without an outburst) claims an "
+            f"outburst when a quiet night would look as extreme with a chance below "
+            f"{settings.night_max_false_alarm:g}.")
 
 
 def run_activity_stage(config, measurements, out_dir):
@@ -154,12 +184,18 @@ def run_activity_stage(config, measurements, out_dir):
         outcome.notes.append("No measurements were found, so there is no activity trend yet.")
         return outcome
     try:
-        outcome.analysis = fit_activity(measurements, settings, outcome.notes)
+        outcome.analysis, outcome.night_outbursts, n_fallback = fit_activity(
+            measurements, settings, outcome.notes)
     except (ValueError, TypeError) as exc:
         outcome.notes.append(f"The activity trend could not be fitted: {exc}")
         return outcome
     outcome.notes.append(_trend_note(settings))
     payload = outcome.analysis.to_dict()
+    within = outcome.night_outbursts.to_dict()
+    payload["outbursts_within_night"] = within.pop("outbursts")
+    payload["within_night_search"] = within
+    payload["afrho_column"] = settings.column
+    payload["rows_total_light"] = n_fallback
     payload["settings"] = {k: (v if isinstance(v, (int, float, str, type(None))) else str(v))
                            for k, v in settings.as_dict().items()}
     path = Path(out_dir) / "activity.json"

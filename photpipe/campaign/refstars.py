@@ -75,8 +75,12 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
     Returns
     -------
     ReferenceSource
-        Never raises for a bad catalogue or store: the problem is returned, so the frames are
-        still calibrated and each photometry skip names it.
+        A catalogue that is missing, unreadable or lacks the band is returned as its problem.
+
+    Raises
+    ------
+    OSError
+        When the store cannot be written (a read-only folder, a full disk).
     """
     store_cls = ReferenceStarStore
     store_path = os.fspath(store_path)
@@ -102,8 +106,9 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
             return ReferenceSource(store_path, n_stars=len(store))
     try:
         table = read_reference_stars(catalogue, bands=bands, colour=colour, columns=columns)
-        Path(store_path).parent.mkdir(parents=True, exist_ok=True)
-        store = store_cls.build(table, store_path, nside=nside, meta=wanted)
     except (OSError, ValueError) as exc:
         return ReferenceSource(None, str(exc))
+    # a store that cannot be written (read-only folder, full disk) is not a catalogue problem
+    Path(store_path).parent.mkdir(parents=True, exist_ok=True)
+    store = store_cls.build(table, store_path, nside=nside, meta=wanted)
     return ReferenceSource(store_path, built=True, n_stars=len(store))

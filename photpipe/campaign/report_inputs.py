@@ -68,7 +68,7 @@ def read_inputs(config, *, from_tables=False):
     store_path = Path(config["campaign"].get("store", results / "campaign.sqlite"))
     extra = {"sources": []}
     if not from_tables and store_path.is_file():
-        from photpipe.campaign.store import CampaignStore
+        from photpipe.store import CampaignStore
 
         with CampaignStore(store_path) as store:
             measurements, nucleus = from_store(store)

@@ -47,11 +47,12 @@ def run_rotation_stage(config, table, out_dir):
         If the lightcurve cannot constrain a period (the message says why).
     """
     settings = read_rotation(config)
-    reduced = reduce_lightcurve(table, phase_law=settings.phase_law,
-                                phase_coefficient=settings.phase_coefficient,
-                                H_G_slope=settings.hg_slope)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RotationWarning)
+        # rows with bad errors are set aside with their reason, upper limits kept as limits
+        reduced = reduce_lightcurve(table, phase_law=settings.phase_law,
+                                    phase_coefficient=settings.phase_coefficient,
+                                    H_G_slope=settings.hg_slope)
         result = search_rotation(reduced, **settings.search_options())
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)

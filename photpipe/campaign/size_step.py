@@ -7,15 +7,26 @@ from its file (`read_rotation_result`).
 """
 
 import json
-import math
+import warnings
 from pathlib import Path
 
 import numpy as np
 from astropy import units as u
 
+from photpipe._warnings import PoorResultWarning
 from photpipe.config import ConfigError, read_size
 from photpipe.orbit.bound import acceleration_limit_from_fit
-from photpipe.size import assess_nucleus, mean_absolute_magnitude, reduce_magnitude
+from photpipe.size import (
+    absolute_magnitude_limit,
+    assess_nucleus,
+    assess_nucleus_limit,
+    count_detections,
+    fit_phase_coefficient,
+    h_method_for_rotation,
+    mean_absolute_magnitude,
+    phase_coefficient_assumed,
+    reduce_magnitude,
+)
 
 from .result_files import read_ecsv, read_json, write_text
 
@@ -117,23 +128,81 @@ def _reduced_magnitudes(rows, settings, where, notes):
                             phase_coefficient=beta).to_value(u.mag)
 
 
+def _emission_times(rows):
+    if "mjd_utc_mid" not in rows.colnames:
+        return None
+    times = _plain(rows["mjd_utc_mid"])
+    if "light_time_s" in rows.colnames:
+        times = times - _plain(rows["light_time_s"]) / 86400.0
+    return times
+
+
 def _absolute_magnitude(rows, reduced, rotation, notes):
     errors = _plain(rows["nucleus_mag_err"])
-    period_h = None if rotation is None else rotation.get("period_h")
-    if period_h is not None and math.isfinite(float(period_h)) and "mjd_utc_mid" in rows.colnames:
-        times = _plain(rows["mjd_utc_mid"])
-        if "light_time_s" in rows.colnames:
-            times = times - _plain(rows["light_time_s"]) / 86400.0
+    # the rotation model only for a firm period; else an error covering the rotation unknown
+    method, period = h_method_for_rotation(rotation)
+    times = _emission_times(rows)
+    if method == "harmonic" and times is not None:
         h = mean_absolute_magnitude(reduced, errors, method="harmonic", times=times * u.day,
-                                    period=float(period_h) * u.h)
+                                    period=period)
         notes.append(f"H is the constant term of a 4-harmonic Fourier fit in flux at the "
-                     f"rotation period {float(period_h):g} h (light-time corrected times)")
+                     f"rotation period {period.to_value(u.h):g} h (light-time corrected times)")
     else:
-        h = mean_absolute_magnitude(reduced, errors, method="flux-mean")
+        h = mean_absolute_magnitude(reduced, errors, method="rotation-unknown",
+                                    times=None if times is None else times * u.day)
+        status = "no rotation result" if not rotation else (
+            f"rotation period {rotation.get('status', 'unknown')}")
+        notes.append(f"H without a rotation model ({status}): the mean flux of all points, "
+                     "its error covering the unknown rotational sampling (the scatter of the "
+                     "nightly means from 4 nights on, else the rotational spread over "
+                     "sqrt(3 n_nights))")
     if rotation is not None and rotation.get("amplitude_mag") is not None:
         notes.append(f"lightcurve amplitude {float(rotation['amplitude_mag']):g} mag: the radius "
                      "is that of the mean cross-section, not of the long axis")
     return h
+
+
+def _phase_coefficient(rows, settings):
+    """The phase coefficient behind H: fitted where the campaign's phase span allows."""
+    if "phase_deg" not in rows.colnames:
+        return None
+    nominal = settings.phase_coefficient.to_value(u.mag / u.deg)
+    alpha = _plain(rows["phase_deg"])
+    if not all(c in rows.colnames for c in ("r_h_au", "delta_au")) or "night" not in \
+            rows.colnames:
+        return phase_coefficient_assumed(nominal, float(np.mean(alpha)),
+                                         value_range=settings.phase_coefficient_range)
+    unit_distance = (_plain(rows["nucleus_mag"])
+                     - 5 * np.log10(_plain(rows["r_h_au"]) * _plain(rows["delta_au"])))
+    return fit_phase_coefficient(unit_distance, _plain(rows["nucleus_mag_err"]), alpha,
+                                 np.asarray(rows["night"]).astype(str), nominal=nominal,
+                                 value_range=settings.phase_coefficient_range,
+                                 min_span_deg=settings.phase_fit_min_span_deg)
+
+
+def _limit_result(table, settings, band, count, where):
+    """Radius upper limit from every frame (limits and the few detections)."""
+    finite = np.isfinite(_plain(table["nucleus_mag"]))
+    rows = table[finite]
+    notes = []
+    reduced = _reduced_magnitudes(rows, settings, where, notes)
+    limit = _upper_limit_mask(rows)
+    h_lim = absolute_magnitude_limit(reduced, _plain(rows["nucleus_mag_err"]), limit)
+    phase = _phase_coefficient(rows, settings)
+    if phase is not None and phase.fitted:
+        phase = phase_coefficient_assumed(phase.nominal, phase.mean_phase_deg,
+                                          value_range=settings.phase_coefficient_range)
+    notes.append("H limit: mean of the frames' flux bounds (limits as given, detections at "
+                 "flux + 2 sigma)")
+    return assess_nucleus_limit(h_lim, band=band, reason=count.reason, n_points=len(rows),
+                                m_sun=settings.m_sun, albedo=settings.albedo,
+                                albedo_range=settings.albedo_range, phase=phase, notes=notes)
+
+
+def _upper_limit_mask(table):
+    if "flags" not in table.colnames:
+        return np.zeros(len(table), dtype=bool)
+    return np.array(["upper_limit" in str(f).split(",") for f in table["flags"]])
 
 
 def _activity_distance(rows, settings, notes):
@@ -197,14 +266,33 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
         msg = "no lightcurve given: an H needs a lightcurve behind it"
         raise ValueError(msg)
     where = lightcurve_table.meta.get("path", "lightcurve")
+    finite = lightcurve_table[np.isfinite(_plain(lightcurve_table["nucleus_mag"]))] \
+        if "nucleus_mag" in lightcurve_table.colnames else lightcurve_table
+    count = count_detections(_upper_limit_mask(finite), min_detections=settings.min_detections,
+                             min_fraction=settings.min_detected_fraction)
+    if len(finite) and not count.enough:
+        result = _limit_result(lightcurve_table, settings,
+                               _band(settings, finite, name_of_file), count, where)
+        return _write(result, out_dir)
     rows = _usable_rows(lightcurve_table, where)
     notes = []
     reduced = _reduced_magnitudes(rows, settings, where, notes)
+    with warnings.catch_warnings(record=True) as caught:
+        # poor but usable (a large H error, a mass below the momentum bound): kept, said
+        warnings.simplefilter("always", PoorResultWarning)
+        result, provenance = _assess(rows, reduced, rotation, settings, name_of_file, notes,
+                                     out_dir)
+    return _write(result, out_dir, [str(w.message) for w in caught
+                                    if issubclass(w.category, PoorResultWarning)], provenance)
+
+
+def _assess(rows, reduced, rotation, settings, name_of_file, notes, out_dir):
     h = _absolute_magnitude(rows, reduced, rotation, notes)
     r_act = _activity_distance(rows, settings, notes)
     accel_limit, accel_provenance = _accel_limit(settings, out_dir, r_act, notes)
-    result = assess_nucleus(
+    return assess_nucleus(
         h, band=_band(settings, rows, name_of_file), m_sun=settings.m_sun,
+        phase=_phase_coefficient(rows, settings), h_err_limit=settings.h_err_limit_mag,
         albedo=settings.albedo, albedo_range=settings.albedo_range,
         albedo_prior=settings.albedo_prior, density_range=settings.density_range,
         mass_loss=settings.mass_loss, outflow_speed=settings.outflow_speed,
@@ -214,9 +302,13 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
         sublimation_geometry=settings.sublimation_geometry, bond_albedo=settings.bond_albedo,
         emissivity=settings.emissivity, n_samples=settings.n_samples,
         rng=np.random.default_rng(settings.seed), notes=notes,
-    )
+    ), accel_provenance
+
+
+def _write(result, out_dir, caught=(), provenance=None):
     out = result.to_dict()
-    out.update(accel_provenance)
+    out["warnings"] = list(caught)
+    out.update(provenance or {})
     out["summary"] = result.summary()
     path = Path(out_dir) / "size.json"
     write_text(path, json.dumps(out, indent=2, allow_nan=False) + "\n")

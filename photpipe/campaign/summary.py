@@ -20,6 +20,8 @@ class NightSummary:
         Science frames measured in this run.
     reused : int
         Science frames already in the store with the same file content and configuration.
+    kept : int
+        Science frames tried again without success, whose earlier results were kept.
     skipped : list of `~photpipe._records.Skipped`
     outputs : list of str
     """
@@ -29,6 +31,7 @@ class NightSummary:
     counts: dict = field(default_factory=dict)
     measured: int = 0
     reused: int = 0
+    kept: int = 0
     skipped: list = field(default_factory=list)
     outputs: list = field(default_factory=list)
 
@@ -105,6 +108,11 @@ class RunSummary:
         return sum(n.measured for n in self.nights)
 
     @property
+    def kept(self):
+        """Science frames whose earlier results were kept (tried again without success)."""
+        return sum(n.kept for n in self.nights)
+
+    @property
     def reused(self):
         """Science frames found already measured, over all nights."""
         return sum(n.reused for n in self.nights)
@@ -132,11 +140,14 @@ class RunSummary:
         if self.nights:
             lines.append("")
             lines.append(f"{'night':<24}{'frames':>8}{'science':>9}{'measured':>10}"
-                         f"{'reused':>8}{'skipped':>9}")
+                         f"{'reused':>8}{'kept':>6}{'skipped':>9}")
             for n in self.nights:
                 lines.append(f"{n.name[:23]:<24}{sum(n.counts.values()):>8}"
                              f"{n.counts.get('science', 0):>9}{n.measured:>10}{n.reused:>8}"
-                             f"{len(n.skipped):>9}")
+                             f"{n.kept:>6}{len(n.skipped):>9}")
+            if self.kept:
+                lines.append(f"kept: {self.kept} frame(s) not measured this time keep their "
+                             "earlier results")
         groups = {}
         for night, s in [(n.name, s) for n in self.nights for s in n.skipped] + [
                 ("campaign", s) for s in self.skipped]:

@@ -110,7 +110,8 @@ def process_frame(item, shared):
     Parameters
     ----------
     item : dict
-        ``night, site, info`` (`~photpipe.frames.FrameInfo`), ``content_hash``,
+        ``night, frame`` (its key in the store), ``site, info`` (`~photpipe.frames.FrameInfo`),
+        ``content_hash``,
         ``calibrated_path``, ``geometry`` (one-row QTable of ``observing_geometry`` or None).
     shared : dict
         ``masters`` (`~photpipe.frames.MasterSet`), ``stages`` (frame stages available, in
@@ -128,7 +129,7 @@ def process_frame(item, shared):
     info = item["info"]
     stages = tuple(shared["stages"])
     problems = []
-    base = dict(night=item["night"], frame=info.name, path=info.path,
+    base = dict(night=item["night"], frame=item.get("frame", info.name), path=info.path,
                 content_hash=item["content_hash"], kind=info.kind,
                 mjd_utc_mid=float(info.time_mid.utc.mjd), filter=info.filter,
                 exptime_s=float(info.exptime.to_value(u.s)), site=item.get("site"),

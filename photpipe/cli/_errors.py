@@ -37,7 +37,7 @@ def store_problem():
     >>> store_problem().code
     3
     """
-    from photpipe.campaign.store import StoreError
+    from photpipe.store import StoreError
 
     return Problem(StoreError, STORE_PROBLEM, "campaign store problem")
 

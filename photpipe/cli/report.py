@@ -12,6 +12,7 @@ from photpipe.campaign.report_step import run_report_stage
 from photpipe.cli._errors import (
     CONFIG,
     CONFIG_PROBLEM,
+    FAILED,
     NO_DATA,
     OK,
     STORE_PROBLEM,
@@ -40,7 +41,8 @@ def execute(args):
     """Write the report; print its path; return the exit code.
 
     Returns 0 when the page was written, 2 for a configuration problem, 3 for a damaged
-    campaign store, 4 when there are no measurements to report on.
+    campaign store, 4 when there are no measurements to report on, 1 when the report cannot
+    be written.
     """
     with Failures("report", CONFIG, store_problem(), Problem(ValueError, NO_DATA)) as outcome:
         config = load_config(args.config)
@@ -52,7 +54,7 @@ def execute(args):
         results = config["campaign"]["results"]
         return fail("report", f"no measurements under {results} (no measurements.ecsv and no "
                     "campaign store); run 'photpipe run' first", NO_DATA)
-    cannot_write = Problem(OSError, CONFIG_PROBLEM, "cannot write the report")
+    cannot_write = Problem(OSError, FAILED, "cannot write the report")
     with Failures("report", cannot_write) as outcome:
         path = run_report_stage(config, measurements, nucleus, extra, report_path=args.output)
     if outcome.code is not None:

@@ -3,6 +3,7 @@
 from photpipe.cli._errors import (
     CONFIG,
     CONFIG_PROBLEM,
+    FAILED,
     NO_DATA,
     OK,
     Failures,
@@ -36,15 +37,18 @@ def execute(args):
     """Run the campaign; print the summary; return the exit code.
 
     Returns 0 when the run completed, even with skipped frames; 2 for a configuration that
-    cannot be used, 3 for a damaged campaign store, 4 when none of the nights could be read.
+    cannot be used (checked before any frame is touched); 3 for a campaign store that is
+    damaged or cannot be written; 4 when nothing could be measured (no night could be read, or
+    every science frame was skipped); 1 when the results folder cannot be written (a file in
+    its place, read-only, a full disk).
     """
     from photpipe.campaign.pipeline import run_campaign
     from photpipe.config import load_config
 
     if args.workers is not None and args.workers < 0:
         return fail("run", f"--workers must be 0 or more, got {args.workers}", CONFIG_PROBLEM)
-    with Failures("run", CONFIG, store_problem(),
-                  Problem(ConnectionError, CONFIG_PROBLEM)) as outcome:
+    with Failures("run", CONFIG, store_problem(), Problem(ConnectionError, CONFIG_PROBLEM),
+                  Problem(OSError, FAILED, "cannot write the results")) as outcome:
         config = load_config(args.config)
         summary = run_campaign(config, workers=args.workers, scheduler=args.scheduler,
                                rerun=args.rerun, progress=not args.no_progress,
@@ -56,6 +60,9 @@ def execute(args):
     unread = [n for n in summary.nights if not n.counts]
     if summary.nights and len(unread) == len(summary.nights):
         return fail("run", "none of the nights could be read; check the [[night]] paths", NO_DATA)
+    if summary.measured == 0 and summary.reused == 0 and summary.kept == 0:
+        return fail("run", "no science frame was measured (see 'skipped, and why' above)",
+                    NO_DATA)
     lines = _headline(config, summary)
     if lines:
         print("\nheadline (errors are 1σ):")

@@ -9,7 +9,7 @@ import os
 import warnings
 
 from photpipe.campaign.size_step import read_lightcurve, read_rotation_result, run_size_stage
-from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem
+from photpipe.cli._errors import CONFIG, FAILED, NO_DATA, OK, Failures, Problem, fail
 from photpipe.config import load_config
 
 __all__ = ["HELP", "add_arguments", "execute"]
@@ -29,12 +29,20 @@ def add_arguments(parser):
 def execute(args):
     """Run ``photpipe size``.
 
-    Returns the exit code: 0 written, 2 a configuration problem, 1 any other problem (named).
+    Returns the exit code: 0 written, 2 a configuration problem, 4 no lightcurve yet, 1 any
+    other problem (named), such as results that cannot be written.
     """
     with Failures("size", CONFIG, Problem((ValueError, TypeError), FAILED)) as outcome:
         config = load_config(args.config)
         out_dir = config["campaign"]["results"]
         lc_path = args.lightcurve or os.path.join(out_dir, "lightcurve.ecsv")
+    if outcome.code is not None:
+        return outcome.code
+    if not os.path.isfile(lc_path):
+        return fail("size", f"{lc_path}: no lightcurve there; an H needs a lightcurve behind "
+                    "it (run 'photpipe run' first, or pass --lightcurve)", NO_DATA)
+    with Failures("size", CONFIG, Problem((ValueError, TypeError), FAILED),
+                  Problem(OSError, FAILED, "cannot write the results")) as outcome:
         table = read_lightcurve(lc_path)
         with warnings.catch_warnings():
             warnings.simplefilter("default")

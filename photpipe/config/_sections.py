@@ -256,6 +256,10 @@ ROTATION = Section("rotation", (
         "search's own)", low=0.0, high=1.0, low_open=False),
     Key("amplitude_phase_slope_per_deg", "number", 0.015, "amplitude growth with phase angle "
         "(Zappalà et al. 1990)", unit="1/deg", low=0.0, low_open=False),
+    Key("alias_delta_chi2", "number", 10.0, "a rival period closer than this in chi2 makes the "
+        "period ambiguous", low=0.0),
+    Key("fap_limit", "number", 0.01, "above this false-alarm probability there is no period",
+        low=0.0, high=1.0),
 ), "rotation-period search")
 
 SIZE = Section("size", (
@@ -291,6 +295,16 @@ SIZE = Section("size", (
         unit="mag"),
     Key("n_samples", "integer", 100_000, "Monte Carlo draws", low=100, low_open=False),
     Key("seed", "integer", 20261202, "seed of the Monte Carlo draws"),
+    Key("phase_coefficient_range", "pair", (0.02, 0.06), "nucleus phase coefficients drawn in "
+        "the Monte Carlo (Jupiter-family nuclei)", unit="mag/deg", low=0.0, low_open=False),
+    Key("phase_fit_min_span_deg", "number", 5.0, "least phase-angle span for fitting the "
+        "phase coefficient", unit="deg", low=0.0),
+    Key("h_err_limit_mag", "number", 0.3, "a radius whose H error exceeds this is flagged "
+        "h_error_large", unit="mag", low=0.0),
+    Key("min_detections", "integer", 5, "fewest frames detecting the nucleus for a radius",
+        low=1, low_open=False),
+    Key("min_detected_fraction", "number", 0.5, "least share of frames detecting the nucleus "
+        "for a radius", low=0.0, high=1.0, low_open=False),
 ), "nucleus radius and mass")
 
 ACTIVITY = Section("activity", (
@@ -303,8 +317,13 @@ ACTIVITY = Section("activity", (
     Key("fit_method", "text", "scatter", "trend fit", choices=("scatter", "clip", "robust")),
     Key("aperture_km", "number", None, "aperture of the trend (default: the most measured, "
         "ties nearest 10 000 km)", unit="km", low=0.0),
-    Key("afrho_column", "text", "a0frho_cm", "quantity of the trend",
-        choices=("a0frho_cm", "afrho_cm")),
+    Key("afrho_column", "text", "a0frho_coma_cm", "quantity of the trend and outburst "
+        "searches (coma-only columns fall back to the total, flagged, where missing)",
+        choices=("a0frho_coma_cm", "afrho_coma_cm", "a0frho_cm", "afrho_cm")),
+    Key("night_max_false_alarm", "number", 0.001, "within-night search: chance that a quiet "
+        "night gives a claim", low=0.0, high=1.0),
+    Key("night_min_frames", "integer", 8, "within-night search: fewest frames a night needs",
+        low=4, low_open=False),
     Key("night_gap_h", "number", 6.0, "frames further apart than this are two nights",
         unit="h", low=0.0),
     Key("exclude_flags", "texts", ("upper_limit", "saturated"), "rows with these flags are left "

@@ -325,6 +325,8 @@ class RotationSettings:
     use_points: str
     coma_fraction: float | None
     amplitude_phase_slope: u.Quantity
+    alias_delta_chi2: float = 10.0
+    fap_limit: float = 0.01
 
     def search_options(self):
         """Keyword values of `~photpipe.rotation.search_rotation` (``rng`` from the seed)."""
@@ -336,7 +338,8 @@ class RotationSettings:
                 "pdm_covers": self.pdm_covers,
                 "prefer_double_peaked": self.prefer_double_peaked,
                 "use_points": self.use_points, "coma_fraction": self.coma_fraction,
-                "amplitude_phase_slope": self.amplitude_phase_slope}
+                "amplitude_phase_slope": self.amplitude_phase_slope,
+                "alias_delta_chi2": self.alias_delta_chi2, "fap_limit": self.fap_limit}
 
 
 def read_rotation(config):
@@ -376,6 +379,11 @@ class SizeSettings:
     m_sun: float | None
     n_samples: int
     seed: int
+    phase_coefficient_range: tuple = (0.02, 0.06)
+    phase_fit_min_span_deg: float = 5.0
+    h_err_limit_mag: float = 0.3
+    min_detections: int = 5
+    min_detected_fraction: float = 0.5
 
 
 _ACCEL_UNITS = {"nongrav_accel_limit_m_s2": u.m / u.s**2,
@@ -433,6 +441,8 @@ class ActivitySettings:
     perihelion_time: object
     perihelion_source: str | None
     caution_elongation: u.Quantity
+    night_max_false_alarm: float = 0.001
+    night_min_frames: int = 8
 
     def as_dict(self):
         """The settings as a plain dict (the form the report content takes)."""
@@ -469,7 +479,9 @@ def read_activity(config):
         aperture=_maybe(v["aperture_km"], u.km), column=v["afrho_column"],
         night_gap=v["night_gap_h"] * u.h, exclude_flags=v["exclude_flags"],
         perihelion_time=perihelion, perihelion_source=source if perihelion is not None else None,
-        caution_elongation=read_geometry(config).caution_elongation)
+        caution_elongation=read_geometry(config).caution_elongation,
+        night_max_false_alarm=v["night_max_false_alarm"],
+        night_min_frames=v["night_min_frames"])
 
 
 @dataclass(frozen=True)

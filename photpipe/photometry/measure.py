@@ -21,7 +21,7 @@ from .coma_apcorr import coma_aperture_correction, fit_moffat_growth, moffat_fro
 from .coma_background import azimuthal_median_model
 from .cometphot import comet_aperture_fluxes, fill_from_rings
 from .detection import detect_sources, measure_fwhm, sky_statistics
-from .dust_phase import dust_phase
+from .dust_phase import PHASE_FLAG, dust_phase, phase_beyond_checked
 from .errors import PhotometryError, PhotometryWarning
 from .locate import refine_comet_centre
 from .profile import annulus_means, profile_slope, sector_selection
@@ -62,6 +62,8 @@ _FLAG_TEXT = {
     "psf_fallback": ("too few field stars, or a curve of growth that does not fix both Moffat "
                      "parameters; the coma aperture correction uses a Moffat PSF with beta = 3 "
                      "and the measured FWHM"),
+    PHASE_FLAG: ("phase angle outside the range where the dust phase function is checked; "
+                 "A(0)fρ uses its value at the edge of that range"),
     "low_elongation": ("small solar elongation: pointing optics near the Sun can blind and damage "
                        "them; follow local rules and experienced practice"),
 }
@@ -617,6 +619,9 @@ def measure_comet_frame(frame, reference_stars, geometry_row, *, band="R", colou
         af_err = np.where(np.isfinite(mag), af_err, np.nan)
         phi = dust_phase(geo["phase"] * u.deg, method=dust_phase_function,
                          table=phase_function_table, coefficient=phase_coefficient)
+        if np.any(phase_beyond_checked(geo["phase"] * u.deg, method=dust_phase_function,
+                                       table=phase_function_table)):
+            _flag(flags, messages, PHASE_FLAG, f"{geo['phase']:.1f} deg")
         a0, a0_err = af / phi, af_err / phi
     else:
         af = af_err = a0 = a0_err = np.full(len(radii), np.nan)

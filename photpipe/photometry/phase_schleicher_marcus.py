@@ -10,9 +10,12 @@ replaced; a user table (:mod:`photpipe.photometry.phase_table`) replaces the who
 
 Backscatter part (phase α ≤ ~90°), in the normalised form
 
-    S(α) = a exp(-α / α₀) + (1 - a),   a = 0.74, α₀ = 20°  (from memory),
+    S(α) = a exp(-α / α₀) + (1 - a),   a = 0.74 (from memory),
 
-chosen so that S(30°) ≈ 0.43, S(90°) ≈ 0.27, as recalled from the published composite table.
+with α₀ = 15° / ln(a / (Φ₁₅ - 1 + a)) = 18.38° fixed so that S(15°) equals the published
+composite value Φ₁₅ = 0.5872 (Schleicher 2010, the composite table at 1° steps, 15° entry); the
+earlier recalled α₀ = 20° gave 0.6096 there, 3.8 % high. S(30°) ≈ 0.40 and S(90°) ≈ 0.27 were
+recalled from the same table (from memory, unchecked).
 
 Forward part (α ≥ ~90°), the two-term Henyey-Greenstein function of Marcus (2007):
 
@@ -31,10 +34,11 @@ import numpy as np
 
 __all__ = ["SCHLEICHER_MARCUS_PARAMETERS", "henyey_greenstein", "schleicher_marcus"]
 
-#: Parameters of the analytic composite (all "from memory", see the module docstring).
+#: Parameters of the analytic composite ("from memory" except the anchored back-scatter scale;
+#: see the module docstring). Checked range: `photpipe.photometry.dust_phase.CHECKED_RANGE_DEG`.
 SCHLEICHER_MARCUS_PARAMETERS = {
     "back_amplitude": 0.74,
-    "back_scale_deg": 20.0,
+    "back_scale_deg": 18.380582875962098,  # anchored: S(15°) = 0.5872 (Schleicher 2010)
     "k": 0.95,
     "g_forward": 0.9,
     "g_back": -0.6,

@@ -141,6 +141,8 @@ def _figure_jobs(measurements, nucleus, analysis, settings):
 
     peri = analysis.trend.perihelion_time if analysis is not None else None
     col = settings["column"]
+    if col not in measurements.colnames and col.replace("_coma", "") in measurements.colnames:
+        col = col.replace("_coma", "")  # no coma-only Afρ measured: draw the total light's
     name = "A(0°)fρ" if col.startswith("a0") else "Afρ"
     jobs = {}
     if measurements is not None and len(measurements):
@@ -392,11 +394,21 @@ def result_tables(analysis, extra, measurements=None, nucleus=None):
         tables["Rotation"] = _rotation_table(rot)
         tables["Rotation candidates"] = _candidates_table(rot)
     if extra.get("size"):
-        tables["Nucleus size and mass"] = _one_row(extra["size"], [
-            "H_mag", "H_err_mag", "band", "albedo", "radius_km", "radius_lo_km", "radius_hi_km",
-            "radius_upper_limit_km", "mass_kg_lo", "mass_kg_hi", "mass_bound_kg",
-            "active_fraction"])
+        tables["Nucleus size and mass"] = _size_table(extra["size"])
     return tables
+
+
+def _size_table(size):
+    """The size result with its ranges written as ranges, rounded to what they can say."""
+    row = {k: size[k] for k in ("H_mag", "H_err_mag", "band", "albedo") if k in size}
+    row["effective radius"] = _radius_text(size)
+    if size.get("mass_kg_lo") is not None and size.get("mass_kg_hi") is not None:
+        row["mass (kg)"] = f"{size['mass_kg_lo']:.1e}–{size['mass_kg_hi']:.1e}"
+    if size.get("mass_bound_kg") is not None:
+        row["mass bound from momentum balance (kg)"] = f"≥ {size['mass_bound_kg']:.1e}"
+    if size.get("active_fraction") is not None:
+        row["active fraction of the surface"] = f"{size['active_fraction']:.2g}"
+    return _one_row(row, list(row))
 
 
 def page_extras(measurements, nucleus, analysis, extra, *, report=None):

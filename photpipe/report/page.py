@@ -10,6 +10,7 @@ import base64
 import html
 import io
 import math
+import re
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -265,6 +266,20 @@ SECTIONS = (
 )
 
 
+_CLASS_PREFIX = re.compile(r"^[A-Z][A-Za-z]*(Warning|Error): ")
+
+
+def _plain_note(note):
+    """A note without a leading Python class name ("PoorResultWarning: ...").
+
+    Examples
+    --------
+    >>> _plain_note("PoorResultWarning: branch left out")
+    'branch left out'
+    """
+    return _CLASS_PREFIX.sub("", str(note))
+
+
 def _head(title):
     return ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
             '<meta name="viewport" content="width=device-width, initial-scale=1">',
@@ -353,7 +368,7 @@ def render_report(*, campaign_name, summary, tables, figures, notes, elongations
     if notes:
         parts.append("<h2>Notes</h2>")
         parts.append('<ul class="notes">' + "".join(
-            f"<li>{html.escape(str(n))}</li>" for n in notes) + "</ul>")
+            f"<li>{html.escape(_plain_note(n))}</li>" for n in notes) + "</ul>")
     parts += ["<footer>All numbers come from the campaign's measurement tables and result "
               "files; every figure and table is embedded in this file, which needs no network "
               "to read.</footer>", "</main>", "</body>", "</html>", ""]

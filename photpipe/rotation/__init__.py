@@ -38,7 +38,11 @@ from photpipe.rotation.methods import (
     pdm_periodogram,
     pdm_theta,
 )
-from photpipe.rotation.odd_harmonics import odd_harmonics_f_test, zero_points_f_test
+from photpipe.rotation.odd_harmonics import (
+    odd_harmonics_f_test,
+    repeat_f_test,
+    zero_points_f_test,
+)
 from photpipe.rotation.periodogram import Periodogram, fap_from_power, fap_from_theta
 from photpipe.rotation.phase_laws import (
     PHASE_LAWS,
@@ -46,7 +50,8 @@ from photpipe.rotation.phase_laws import (
     hg_phase_functions,
     linear_phase_excess,
 )
-from photpipe.rotation.search import RotationResult, count_nights, search_rotation
+from photpipe.rotation.result import STATUSES, RotationResult
+from photpipe.rotation.search import MethodOptions, count_nights, search_rotation
 from photpipe.rotation.shape import (
     amplitude_at_zero_phase,
     minimum_axial_ratio,
@@ -54,10 +59,12 @@ from photpipe.rotation.shape import (
 )
 from photpipe.rotation.synthetic import DEMO_SITES, SyntheticRotation, synthetic_lightcurve
 from photpipe.rotation.trigsums import direct_trig_sums, trig_sums
+from photpipe.rotation.verdict import PeriodVerdict, VerdictOptions, judge_period
 
 __all__ = [
     "reduce_lightcurve", "ReducedLightcurve", "SOURCES",
-    "search_rotation", "RotationResult", "count_nights",
+    "search_rotation", "RotationResult", "count_nights", "MethodOptions", "STATUSES",
+    "judge_period", "PeriodVerdict", "VerdictOptions", "repeat_f_test",
     "LightcurveError", "RotationWarning",
     "METHODS", "lomb_scargle_periodogram", "fourier_periodogram", "pdm_periodogram",
     "pdm_theta", "Periodogram", "fap_from_power", "fap_from_theta",

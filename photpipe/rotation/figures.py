@@ -3,7 +3,15 @@
 import numpy as np
 from astropy import units as u
 
-from photpipe._plotting import PALETTE, WIDTH, label_axes, log_axis, new_figure
+from photpipe._plotting import (
+    PALETTE,
+    WIDTH,
+    date_axis,
+    label_axes,
+    log_axis,
+    mjd_to_dates,
+    new_figure,
+)
 
 __all__ = ["periodogram_figure", "phased_figure", "residuals_figure", "FAP_LEVELS"]
 
@@ -182,11 +190,11 @@ def residuals_figure(result):
     """
     lc, fit = result.lightcurve, result.fit
     resid = result.magnitudes - fit.predict(lc.epoch_mjd)
-    t0 = np.floor(lc.epoch_mjd.min())
     fig, (ax,) = new_figure(figsize=(8, 3))
-    _points_by_site(ax, lc.site, lc.epoch_mjd - t0, resid, lc.mag_err)
+    _points_by_site(ax, lc.site, mjd_to_dates(lc.epoch_mjd), resid, lc.mag_err)
     ax.axhline(0, color="k", lw=0.8)
-    label_axes(ax, xlabel=f"days since MJD {t0:.0f} (emission time)",
+    date_axis(ax)
+    label_axes(ax, xlabel="date (UTC, at emission: light-time corrected)",
                ylabel="observed - model (mag)", title=f"χ²/dof = {fit.chi2_reduced:.2f}",
                title_size=9, legend_size=7)
     return fig

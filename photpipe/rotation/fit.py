@@ -13,7 +13,7 @@ from photpipe.rotation.fourier_model import (
 )
 
 __all__ = ["FourierFit", "fit_fourier_series", "bootstrap_fourier_fit", "night_blocks",
-           "expanded_percentile_interval"]
+           "expanded_percentile_interval", "linear_chi2"]
 
 
 @dataclass(frozen=True)
@@ -91,6 +91,23 @@ def _linear_solve(t, y, w, frequency, order, t0):
     coef = _weighted_solve(a, y, w)
     resid = y - a @ coef
     return coef, float(np.sum(w * resid**2))
+
+
+def linear_chi2(t, y, dy, frequency, order):
+    """Return the χ² of the weighted least-squares Fourier series of ``order`` at ``frequency``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> t = np.linspace(0, 3, 50)
+    >>> y = 0.1 * np.cos(2 * np.pi * 2.0 * t)
+    >>> bool(linear_chi2(t, y, np.full(50, 0.01), 2.0, 1) < 1e-12)
+    True
+    """
+    t = np.asarray(t, dtype=float)
+    w = 1.0 / np.asarray(dy, dtype=float) ** 2
+    t0 = float(np.sum(w * t) / np.sum(w))
+    return _linear_solve(t, np.asarray(y, dtype=float), w, frequency, order, t0)[1]
 
 
 def _gauss_newton(t, y, w, frequency, coef, t0, n_iter=8):

@@ -1,5 +1,6 @@
 """The reduced lightcurve: nucleus magnitudes at unit distances and 0° phase, emission epochs."""
 
+import warnings
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 
@@ -10,7 +11,7 @@ from astropy.table import QTable, Table
 from astropy.time import Time
 
 from photpipe._quantity import as_value
-from photpipe.rotation.errors import LightcurveError
+from photpipe.rotation.errors import LightcurveError, RotationWarning
 from photpipe.rotation.phase_laws import PHASE_LAWS
 
 __all__ = ["ReducedLightcurve", "reduce_lightcurve", "SOURCES"]
@@ -47,6 +48,9 @@ class ReducedLightcurve:
         Phase law used (a key of `~photpipe.rotation.phase_laws.PHASE_LAWS`).
     phase_parameters : dict
         Its parameters (``coefficient_mag_per_deg`` or ``slope_g``).
+    set_aside : tuple of (str, str)
+        ``(frame, reason)`` of every input row left out because it could not be used (no
+        finite epoch or magnitude, a NaN or non-positive error on a detection, bad geometry).
     """
 
     frame: np.ndarray
@@ -64,6 +68,7 @@ class ReducedLightcurve:
     flags: np.ndarray
     phase_law: str = "linear"
     phase_parameters: dict = field(default_factory=dict)
+    set_aside: tuple = ()
 
     def __post_init__(self):
         n = len(self.epoch_mjd)
@@ -77,6 +82,19 @@ class ReducedLightcurve:
     def n_points(self):
         """Number of points."""
         return len(self.epoch_mjd)
+
+    @property
+    def upper_limit(self):
+        """True for the rows flagged ``upper_limit``: ``mag`` is then a bright limit, no value."""
+        return np.array(["upper_limit" in str(f).split(",") for f in self.flags], dtype=bool)
+
+    @property
+    def set_aside_counts(self):
+        """Reason -> number of input rows set aside for it."""
+        counts = {}
+        for _, reason in self.set_aside:
+            counts[reason] = counts.get(reason, 0) + 1
+        return counts
 
     @property
     def time(self):
@@ -179,7 +197,9 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
     ``Φ(α) = -2.5 log10[(1 - G) Φ1 + G Φ2]`` (Bowell et al. 1989, Asteroids II, eq. A1).
     The epoch is the emission time ``t - Δ/c``: ``light_time_s`` when given, otherwise from Δ.
     Small-aperture magnitudes (``source = "small_aperture"``) hold coma light; they are kept but
-    flagged ``coma_contaminated``.
+    flagged ``coma_contaminated``. Rows flagged ``upper_limit`` are kept as limits (their
+    ``nucleus_mag`` is the bright limit, their error may be NaN): the ``upper_limit`` property
+    marks them, and the period search leaves them out.
 
     Examples
     --------
@@ -213,21 +233,13 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
     alpha = _get(data, "phase_deg", u.deg)
     light_time = _get(data, "light_time_s", u.s, required=False)
 
-    checks = [
-        (~np.isfinite(mjd), "have no finite epoch (mjd_utc_mid)"),
-        (~np.isfinite(mag), "have no finite magnitude (nucleus_mag)"),
-        (~np.isfinite(err), "have a NaN or infinite magnitude error (nucleus_mag_err)"),
-        (np.isfinite(err) & (err <= 0), "have a zero or negative magnitude error "
-                                        "(nucleus_mag_err); errors must be positive"),
-        (~(np.isfinite(r_h) & (r_h > 0)) | ~(np.isfinite(delta) & (delta > 0)),
-         "have a missing or non-positive r_h_au or delta_au"),
-        (~(np.isfinite(alpha) & (alpha >= 0) & (alpha < 180)), "have a phase angle outside 0-180°"),
-    ]
-    for bad, what in checks:
-        if np.any(bad):
-            msg = (f"{bad.sum()} of {n} lightcurve rows {what}: {_name_rows(frames, bad)}. "
-                   f"Remove or repair them; a period cannot be weighed on such points")
-            raise LightcurveError(msg)
+    flags_in = _strings(data, "flags", n, "")
+    keep, set_aside = _usable_rows(frames, flags_in, mjd, mag, err, r_h, delta, alpha)
+    (frames, mjd, mag, err, r_h, delta, alpha, flags_in) = (
+        a[keep] for a in (frames, mjd, mag, err, r_h, delta, alpha, flags_in))
+    data_keep = keep
+    if light_time is not None:
+        light_time = light_time[keep]
 
     if light_time is None:
         light_time = delta * _AU_LIGHT_S
@@ -235,14 +247,14 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
         light_time = np.where(np.isfinite(light_time), light_time, delta * _AU_LIGHT_S)
     epoch = mjd - light_time / 86400.0
 
-    source = _strings(data, "source", n, "nucleus_fit")
+    source = _strings(data, "source", n, "nucleus_fit")[data_keep]
     unknown = ~np.isin(source, list(SOURCES))
     if np.any(unknown):
         msg = (f"unknown 'source' {sorted(set(source[unknown]))} in rows "
                f"{_name_rows(frames, unknown)}; expected one of {sorted(SOURCES)}")
         raise LightcurveError(msg)
     contaminated = np.array([not SOURCES[s] for s in source], dtype=bool)
-    flags = _strings(data, "flags", n, "")
+    flags = flags_in
     flags = np.array([",".join([f for f in (fl, "coma_contaminated" if c else "") if f])
                       for fl, c in zip(flags, contaminated)], dtype=object)
 
@@ -257,6 +269,53 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
     return ReducedLightcurve(
         frame=frames, epoch_mjd=epoch, mag=reduced, mag_err=err, observed_mag=mag,
         phase_deg=alpha, r_h_au=r_h, delta_au=delta,
-        site=_strings(data, "site", n, ""), filter=_strings(data, "filter", n, ""),
+        site=_strings(data, "site", n, "")[data_keep],
+        filter=_strings(data, "filter", n, "")[data_keep],
         source=source, coma_contaminated=contaminated, flags=flags,
-        phase_law=phase_law, phase_parameters=params)
+        phase_law=phase_law, phase_parameters=params, set_aside=tuple(set_aside))
+
+
+def _usable_rows(frames, flags, mjd, mag, err, r_h, delta, alpha):
+    """Rows that can be used, and ``(frame, reason)`` for the others (warned, never refused)."""
+    n = len(frames)
+    limit = np.array(["upper_limit" in str(f).split(",") for f in flags], dtype=bool)
+    checks = [
+        (~np.isfinite(mjd), "no finite epoch (mjd_utc_mid)"),
+        (~np.isfinite(mag), "no finite magnitude (nucleus_mag)"),
+        (~limit & ~np.isfinite(err), "NaN or infinite magnitude error (nucleus_mag_err)"),
+        (~limit & np.isfinite(err) & (err <= 0), "zero or negative magnitude error "
+                                                 "(nucleus_mag_err)"),
+        (~(np.isfinite(r_h) & (r_h > 0)) | ~(np.isfinite(delta) & (delta > 0)),
+         "missing or non-positive r_h_au or delta_au"),
+        (~(np.isfinite(alpha) & (alpha >= 0) & (alpha < 180)), "phase angle outside 0-180°"),
+    ]
+    keep, set_aside = _set_aside_bad_rows(frames, checks)
+    if not np.any(keep):
+        reasons = sorted({r for _, r in set_aside})
+        msg = (f"none of the {n} lightcurve rows can be used ({'; '.join(reasons)}): "
+               f"{_name_rows(frames, ~keep)}. Repair them; a period cannot be weighed on such "
+               f"points")
+        raise LightcurveError(msg)
+    if set_aside:
+        warnings.warn(f"{len(set_aside)} of {n} lightcurve rows set aside: "
+                      + "; ".join(f"{c} with {r}" for r, c in _count(set_aside).items()),
+                      RotationWarning, stacklevel=3)
+    return keep, set_aside
+
+
+def _set_aside_bad_rows(frames, checks):
+    """Return the rows that pass every check and ``(frame, reason)`` for the others."""
+    keep = np.ones(len(frames), dtype=bool)
+    set_aside = []
+    for bad, reason in checks:
+        newly = bad & keep
+        set_aside += [(str(f), reason) for f in frames[newly]]
+        keep &= ~bad
+    return keep, set_aside
+
+
+def _count(set_aside):
+    counts = {}
+    for _, reason in set_aside:
+        counts[reason] = counts.get(reason, 0) + 1
+    return counts

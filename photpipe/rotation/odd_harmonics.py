@@ -10,7 +10,7 @@ from scipy import stats
 
 from photpipe.rotation.fourier_model import design_matrix
 
-__all__ = ["odd_harmonics_f_test", "zero_points_f_test"]
+__all__ = ["odd_harmonics_f_test", "zero_points_f_test", "repeat_f_test"]
 
 
 def _weighted_chi2_and_rank(a, y, sw):
@@ -19,6 +19,30 @@ def _weighted_chi2_and_rank(a, y, sw):
     coef, _, rank, _ = np.linalg.lstsq(aw, y * sw, rcond=1e-10)
     resid = y * sw - aw @ coef
     return float(resid @ resid), int(rank)
+
+
+def _fit_with_offsets(labels, harmonics, y, sw):
+    """χ² and rank of the fit of one zero point per label plus ``harmonics``.
+
+    The zero points are projected out exactly first (weighted means per label subtracted from
+    the data and every column; Frisch & Waugh 1933, Lovell 1963, from memory), so the least
+    squares runs on the harmonic columns only: the same χ² as fitting the one-hot zero-point
+    columns beside them, without hundreds of columns for hundreds of site-nights.
+    """
+    w = sw**2
+    n_labels = int(labels.max()) + 1
+    wsum = np.bincount(labels, weights=w, minlength=n_labels)
+
+    def centred(v):
+        means = np.bincount(labels, weights=w * v, minlength=n_labels) / wsum
+        return v - means[labels]
+
+    y_c = centred(y)
+    if harmonics.shape[1] == 0:
+        return float(np.sum(w * y_c**2)), n_labels
+    h_c = np.column_stack([centred(harmonics[:, j]) for j in range(harmonics.shape[1])])
+    chi2, rank = _weighted_chi2_and_rank(h_c, y_c, sw)
+    return chi2, n_labels + rank
 
 
 def odd_harmonics_f_test(t, y, dy, frequency, order, *, blocks=None, fitted_params=1):
@@ -88,10 +112,48 @@ def odd_harmonics_f_test(t, y, dy, frequency, order, *, blocks=None, fitted_para
     y = np.asarray(y, dtype=float)
     for f in np.atleast_1d(np.asarray(frequency, dtype=float)):
         sw, offsets, harmonics, k = _columns(t, dy, f, order, blocks)
-        fits["double"].append(_weighted_chi2_and_rank(np.hstack([offsets, harmonics]), y, sw))
-        fits["single"].append(_weighted_chi2_and_rank(
-            np.hstack([offsets, harmonics[:, k % 2 == 0]]), y, sw))
+        fits["double"].append(_fit_with_offsets(offsets, harmonics, y, sw))
+        fits["single"].append(_fit_with_offsets(offsets, harmonics[:, k % 2 == 0], y, sw))
     return _nested_f_test(min(fits["double"]), min(fits["single"]), y.size, fitted_params)
+
+
+def repeat_f_test(t, y, dy, frequency, order, repeats, *, blocks=None, fitted_params=1):
+    """Return the p-value that the curve at ``frequency`` is ``repeats`` identical parts.
+
+    The curve with ``order`` harmonics of ``frequency`` is compared with the same curve keeping
+    only the harmonics that are multiples of ``repeats`` (the curve at ``repeats * frequency``);
+    the extra-sum-of-squares F test of :func:`odd_harmonics_f_test` (which is the case
+    ``repeats = 2``) decides. Returns ``(p, f_stat, dof)``; NaN when untestable.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(2)
+    >>> t = np.sort(rng.uniform(0, 6, 300))
+    >>> y = 0.2 * np.cos(2 * np.pi * 3 * 1.3 * t) + rng.normal(0, 0.02, 300)
+    >>> bool(repeat_f_test(t, y, np.full(300, 0.02), 1.3, 3, 3)[0] > 1e-3)
+    True
+    >>> y = y + 0.05 * np.cos(2 * np.pi * 1.3 * t)
+    >>> bool(repeat_f_test(t, y, np.full(300, 0.02), 1.3, 3, 3)[0] < 1e-6)
+    True
+    """
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    sw = 1.0 / np.asarray(dy, dtype=float)
+    harmonics = design_matrix(t, frequency, order, t0=float(np.mean(t)))[:, 1:]
+    k = np.repeat(np.arange(1, order + 1), 2)
+    offsets = _offsets(t, blocks)
+    full = _fit_with_offsets(offsets, harmonics, y, sw)
+    kept = _fit_with_offsets(offsets, harmonics[:, k % repeats == 0], y, sw)
+    return _nested_f_test(full, kept, y.size, fitted_params)
+
+
+def _offsets(t, blocks):
+    """Zero-point label of each point: 0 for all, or its block numbered from 0."""
+    if blocks is None:
+        return np.zeros(t.size, dtype=int)
+    _, inverse = np.unique(np.asarray(blocks), return_inverse=True)
+    return inverse.ravel()
 
 
 def zero_points_f_test(t, y, dy, frequency, order, blocks, *, fitted_params=1):
@@ -116,8 +178,8 @@ def zero_points_f_test(t, y, dy, frequency, order, blocks, *, fitted_params=1):
     """
     sw, offsets, harmonics, _ = _columns(t, dy, frequency, order, blocks)
     y = np.asarray(y, dtype=float)
-    per_block = _weighted_chi2_and_rank(np.hstack([offsets, harmonics]), y, sw)
-    one = _weighted_chi2_and_rank(np.hstack([np.ones((sw.size, 1)), harmonics]), y, sw)
+    per_block = _fit_with_offsets(offsets, harmonics, y, sw)
+    one = _fit_with_offsets(np.zeros(sw.size, dtype=int), harmonics, y, sw)
     return _nested_f_test(per_block, one, y.size, fitted_params)
 
 
@@ -126,11 +188,7 @@ def _columns(t, dy, frequency, order, blocks):
     t = np.asarray(t, dtype=float)
     sw = 1.0 / np.asarray(dy, dtype=float)
     harmonics = design_matrix(t, frequency, 2 * order, t0=float(np.mean(t)))[:, 1:]
-    if blocks is None:
-        offsets = np.ones((t.size, 1))
-    else:
-        _, inverse = np.unique(np.asarray(blocks), return_inverse=True)
-        offsets = (inverse[:, None] == np.arange(inverse.max() + 1)).astype(float)
+    offsets = _offsets(t, blocks)
     return sw, offsets, harmonics, np.repeat(np.arange(1, 2 * order + 1), 2)
 
 

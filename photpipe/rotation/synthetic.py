@@ -53,7 +53,7 @@ class SyntheticRotation:
 def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0.25,
                          n_nights=10, sites=None, start_mjd=61010.0, night_hours=5.0,
                          cadence=12 * u.min, cloud_fraction=0.2, noise=0.03 * u.mag,
-                         night_offset=0.0 * u.mag,
+                         night_offset=0.0 * u.mag, symmetric=False,
                          absolute_mag=16.5, phase_coefficient=0.035 * u.mag / u.deg,
                          r_h=(2.4, 2.2) * u.au, delta=(1.5, 1.3) * u.au,
                          phase=(18.0, 22.0) * u.deg, source="nucleus_fit", filter_name="R",
@@ -83,6 +83,9 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
         Chance a site loses a night.
     noise : `~astropy.units.Quantity` ['mag'], optional
         Typical 1-σ photometric error (each point's error is 0.8-1.3 times it).
+    symmetric : bool, optional
+        When True the odd harmonics are left out, so the two halves of a rotation are identical
+        (a symmetric double-peaked lightcurve: the data alone cannot tell P from P/2).
     night_offset : `~astropy.units.Quantity` ['mag'], optional
         1-σ zero-point error shared by all points of one site-night (as a nightly calibration
         error is) and not included in the stated errors; 0 for none. Drawn after everything
@@ -133,6 +136,8 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
                       1.0, 0.0,
                       0.12 * np.cos(1.9), 0.12 * np.sin(1.9),
                       0.08, 0.05])
+    if symmetric:
+        shape[[1, 2, 5, 6]] = 0.0
     coef = shape * amp / peak_to_peak(shape)
 
     epochs, site_col, frames, block = [], [], [], []
@@ -175,6 +180,6 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
         "frame": frames, "mjd_utc_mid": mjd, "nucleus_mag": mag, "nucleus_mag_err": err,
         "r_h_au": rh, "delta_au": dl, "phase_deg": ph, "light_time_s": light_time,
         "site": site_col, "filter": np.full(mjd.size, filter_name),
-        "source": np.full(mjd.size, source), "flags": np.full(mjd.size, ""),
+        "source": np.full(mjd.size, source), "flags": np.full(mjd.size, "", dtype="<U64"),
     }, meta={"synthetic": True, "period_h": float(p_day * 24), "amplitude_mag": amp})
     return table, truth

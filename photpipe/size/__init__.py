@@ -14,6 +14,8 @@ from photpipe.size.diameter import *  # noqa: F401, F403
 from photpipe.size.diameter import __all__ as _diameter_all
 from photpipe.size.ices import *  # noqa: F401, F403
 from photpipe.size.ices import __all__ as _ices_all
+from photpipe.size.limits import *  # noqa: F401, F403
+from photpipe.size.limits import __all__ as _limits_all
 from photpipe.size.magnitude import *  # noqa: F401, F403
 from photpipe.size.magnitude import __all__ as _magnitude_all
 from photpipe.size.mass import *  # noqa: F401, F403
@@ -22,6 +24,8 @@ from photpipe.size.momentum import *  # noqa: F401, F403
 from photpipe.size.momentum import __all__ as _momentum_all
 from photpipe.size.montecarlo import *  # noqa: F401, F403
 from photpipe.size.montecarlo import __all__ as _montecarlo_all
+from photpipe.size.phase_coefficient import *  # noqa: F401, F403
+from photpipe.size.phase_coefficient import __all__ as _phase_all
 from photpipe.size.result import *  # noqa: F401, F403
 from photpipe.size.result import __all__ as _result_all
 from photpipe.size.russell import *  # noqa: F401, F403
@@ -29,5 +33,6 @@ from photpipe.size.russell import __all__ as _russell_all
 from photpipe.size.sublimation import *  # noqa: F401, F403
 from photpipe.size.sublimation import __all__ as _sublimation_all
 
-__all__ = (_active_all + _assess_all + _diameter_all + _ices_all + _magnitude_all + _mass_all
-           + _momentum_all + _montecarlo_all + _result_all + _russell_all + _sublimation_all)
+__all__ = (_active_all + _assess_all + _diameter_all + _ices_all + _limits_all + _magnitude_all
+           + _mass_all + _momentum_all + _montecarlo_all + _phase_all + _result_all
+           + _russell_all + _sublimation_all)

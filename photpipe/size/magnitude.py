@@ -9,15 +9,19 @@ from astropy import units as u
 from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.rotation import reduce_lightcurve
+from photpipe.size._mean_blocks import night_block_mean
 from photpipe.size._mean_flux import flux_mean
 from photpipe.size._mean_harmonic import harmonic_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
 
-__all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude"]
+__all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude",
+           "h_method_for_rotation"]
 
 #: Method name -> function(mag, err, *, times, period, n_bins, n_harmonics) -> (flux, error, flags).
 MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean,
-                "harmonic": harmonic_mean}
+                "harmonic": harmonic_mean, "rotation-unknown": night_block_mean}
+#: Methods that need the rotation period.
+_NEEDS_PERIOD = ("harmonic", "phase-binned")
 
 _LN10_04 = 0.4 * np.log(10.0)
 
@@ -86,7 +90,8 @@ class AbsoluteMagnitude:
     method : str
         Averaging method (a key of `MEAN_METHODS`).
     flags : tuple of str
-        ``single_point``, ``sparse_rotation_coverage``, ``few_points_for_harmonics`` or empty.
+        ``single_point``, ``sparse_rotation_coverage``, ``few_points_for_harmonics``,
+        ``rotation_unknown``, ``single_night`` or empty.
     """
 
     H: float
@@ -109,12 +114,15 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
     ----------
     reduced_mag, reduced_mag_err : array-like or `~astropy.units.Quantity` ['mag']
         Reduced magnitudes m(1, 1, 0) and their errors; non-finite rows are dropped.
-    method : {"flux-mean", "harmonic", "phase-binned"}, optional
-        ``"flux-mean"``: mean flux of all points. ``"harmonic"``: constant term of a Fourier
-        series in flux fitted at ``period`` (unbiased by uneven sampling of the rotation; the
-        choice when the period is known). ``"phase-binned"``: fold at ``period`` and give each
-        of ``n_bins`` phase bins equal weight (model-free, but biased when points crowd one
-        side of a bin).
+    method : {"flux-mean", "harmonic", "phase-binned", "rotation-unknown"}, optional
+        ``"flux-mean"``: mean flux of all points. ``"rotation-unknown"``: the same mean with an
+        error that covers the unknown rotational sampling (nights as independent samples of the
+        rotation; the choice when the period is ambiguous or none, see
+        :func:`~photpipe.size._mean_blocks.night_block_mean`). ``"harmonic"``: constant term of
+        a Fourier series in flux fitted at ``period`` (unbiased by uneven sampling of the
+        rotation; the choice when the period is known). ``"phase-binned"``: fold at ``period``
+        and give each of ``n_bins`` phase bins equal weight (model-free, but biased when points
+        crowd one side of a bin).
     times : `~astropy.units.Quantity` ['time'] or `~astropy.time.Time`, optional
         Observation times (light-time corrected), for ``"harmonic"`` and ``"phase-binned"``.
     period : `~astropy.units.Quantity` ['time'], optional
@@ -170,19 +178,46 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
         msg = "'reduced_mag_err' must be >= 0"
         raise ValueError(msg)
     t = p = None
-    if method != "flux-mean":
-        if times is None or period is None:
-            msg = f"method {method!r} needs both 'times' and 'period'"
-            raise ValueError(msg)
+    if method in _NEEDS_PERIOD and (times is None or period is None):
+        msg = f"method {method!r} needs both 'times' and 'period'"
+        raise ValueError(msg)
+    if times is not None and method != "flux-mean":
         t_all = times.mjd if hasattr(times, "mjd") else as_value(times, u.day, "times")
         t = np.atleast_1d(np.asarray(t_all, dtype=float))[good]
+    if method in _NEEDS_PERIOD:
         p = as_positive_value(period, u.day, "period")
     flux, flux_err, flags = MEAN_METHODS[method](m[good], e[good], times=t, period=p,
                                                  n_bins=int(n_bins), n_harmonics=int(n_harmonics))
     result = AbsoluteMagnitude(H=float(-2.5 * np.log10(flux)),
                                H_err=float(flux_err / flux / _LN10_04),
                                n_points=int(good.sum()), method=method, flags=tuple(flags))
-    if flags:
+    # rotation_unknown and single_night say how the error was formed: it already covers them
+    if set(flags) - {"rotation_unknown", "single_night"}:
         msg = f"absolute magnitude from {result.n_points} point(s) is weak: {', '.join(flags)}"
         warnings.warn(msg, PoorResultWarning, stacklevel=2)
     return result
+
+
+def h_method_for_rotation(rotation):
+    """Return ``(method, period)`` for H given a rotation result (``rotation.json`` dict).
+
+    The rotation model is used only for a firm period (``status`` ``"period"``, or a result
+    from before statuses existed); an ambiguous period or none gives ``"rotation-unknown"``,
+    whose error covers the unknown rotational sampling.
+
+    Examples
+    --------
+    >>> h_method_for_rotation({"status": "ambiguous", "period_h": 2.8})
+    ('rotation-unknown', None)
+    >>> h_method_for_rotation({"status": "period", "period_h": 7.3})
+    ('harmonic', <Quantity 7.3 h>)
+    >>> h_method_for_rotation(None)
+    ('rotation-unknown', None)
+    """
+    if not rotation:
+        return "rotation-unknown", None
+    period_h = rotation.get("period_h")
+    firm = rotation.get("status", "period") == "period"
+    if firm and period_h is not None and np.isfinite(float(period_h)):
+        return "harmonic", float(period_h) * u.h
+    return "rotation-unknown", None

@@ -37,6 +37,11 @@ class SizeEstimate:
         Number of Monte Carlo samples.
     diameter_samples : `~astropy.units.Quantity` ['length']
         The samples themselves (not part of ``to_dict``).
+    H_median, H_err_total : float
+        Median and half the central 68 % range of the H draws, the phase-coefficient draws
+        included (equal to ``H`` and ``H_err`` without them).
+    phase : `~photpipe.size.PhaseCoefficient` or None
+        How the phase coefficient was drawn.
     """
 
     diameter: u.Quantity
@@ -52,6 +57,9 @@ class SizeEstimate:
     interval: float
     n_samples: int
     diameter_samples: u.Quantity = field(repr=False, compare=False)
+    H_median: float = float("nan")
+    H_err_total: float = float("nan")
+    phase: object = None
 
     @property
     def radius(self):
@@ -77,12 +85,13 @@ class SizeEstimate:
             "H_mag": self.H, "H_err_mag": self.H_err, "band": self.band, "m_sun_mag": self.m_sun,
             "albedo_lo": self.albedo_lo, "albedo_hi": self.albedo_hi,
             "albedo_prior": self.albedo_prior, "interval": self.interval,
-            "n_samples": self.n_samples,
+            "n_samples": self.n_samples, "H_median_mag": self.H_median,
+            "H_err_total_mag": self.H_err_total,
         }
 
 
 def size_estimate(H, H_err, *, albedo=0.04, band="V", m_sun=None, albedo_prior="uniform",
-                  interval=0.6827, n_samples=100_000, rng=None):
+                  interval=0.6827, n_samples=100_000, rng=None, phase=None):
     """Sample H and the albedo, and summarise the implied diameters.
 
     Parameters
@@ -106,6 +115,9 @@ def size_estimate(H, H_err, *, albedo=0.04, band="V", m_sun=None, albedo_prior="
         Number of samples (>= 100).
     rng : `numpy.random.Generator` or int or None, optional
         Random generator or seed.
+    phase : `~photpipe.size.PhaseCoefficient`, optional
+        The phase coefficient behind H, drawn in every sample (its range or its fit): each
+        H sample moves by ``(β_nominal - β) ᾱ``. None keeps β exact (H as given).
 
     Returns
     -------
@@ -150,6 +162,9 @@ def size_estimate(H, H_err, *, albedo=0.04, band="V", m_sun=None, albedo_prior="
     c = size_constant(m_sun=m_sun_used).to_value(u.km)
 
     h_draw = rng.normal(h, h_err, n) if h_err > 0 else np.full(n, h)
+    if phase is not None:
+        h_draw = h_draw + phase.h_offsets(rng, n)
+    h16, h50, h84 = np.quantile(h_draw, [0.158655, 0.5, 0.841345])
     p_draw = ALBEDO_PRIORS[albedo_prior](rng, lo, hi, n) if hi > lo else np.full(n, lo)
     d = c / np.sqrt(p_draw) * 10.0 ** (-0.2 * h_draw)
     tail = 0.5 * (1.0 - interval)
@@ -159,4 +174,5 @@ def size_estimate(H, H_err, *, albedo=0.04, band="V", m_sun=None, albedo_prior="
         H=h, H_err=h_err, band=str(band), m_sun=float(m_sun_used),
         albedo_lo=float(lo), albedo_hi=float(hi), albedo_prior=albedo_prior,
         interval=float(interval), n_samples=n, diameter_samples=d * u.km,
+        H_median=float(h50), H_err_total=float(0.5 * (h84 - h16)), phase=phase,
     )

@@ -2,7 +2,14 @@
 
 from dataclasses import asdict, dataclass, field
 
-__all__ = ["SizeResult"]
+__all__ = ["SizeResult", "SIZE_STATUSES"]
+
+#: Values of ``SizeResult.status`` and their meaning.
+SIZE_STATUSES = {
+    "radius": "a radius with every assumption inside its interval",
+    "uncertain": "a radius whose H error exceeds the stated limit (flag h_error_large)",
+    "upper_limit": "too few frames detect the nucleus: an upper limit on the radius only",
+}
 
 
 @dataclass(frozen=True)
@@ -13,6 +20,11 @@ class SizeResult:
     values were assumed, and `summary` prints them with the results. Quantities are plain
     floats in the units their names carry (``_km``, ``_kg``, ``_g_cm3``, ``_mag``, ...); values
     that could not be formed (no mass-loss rate given, say) are None.
+
+    ``status`` is a key of `SIZE_STATUSES` and ``reason`` says why it is not ``"radius"``.
+    For ``"upper_limit"`` the radius fields are None and ``radius_upper_limit_km`` holds the
+    limit. ``H_err_total_mag`` is the H error with the phase coefficient's range (or fit)
+    inside it, the one compared with ``H_err_limit_mag``.
     """
 
     H_mag: float
@@ -53,6 +65,13 @@ class SizeResult:
     composition: dict | None = field(default=None, compare=False)
     assumptions: tuple = ()
     flags: tuple = ()
+    status: str = "radius"
+    reason: str = ""
+    radius_upper_limit_km: float | None = None
+    H_median_mag: float | None = None
+    H_err_total_mag: float | None = None
+    H_err_limit_mag: float | None = None
+    phase_coefficient: dict | None = field(default=None, compare=False)
 
     def to_dict(self):
         """Return every field as JSON-ready values (tuples become lists)."""
@@ -63,11 +82,15 @@ class SizeResult:
 
     def summary(self):
         """Return a readable multi-line summary that states every assumption."""
+        if self.status == "upper_limit":
+            return self._limit_summary()
         pct = round(100 * self.interval)
         lines = [
             "Nucleus size and mass (the sizes rest on the assumed albedo and density)",
             f"  H ({self.band}, rotation-averaged, {self.H_method}, {self.n_points} points) = "
-            f"{self.H_mag:.3f} +- {self.H_err_mag:.3f} mag",
+            f"{self.H_mag:.3f} +- {self.H_err_mag:.3f} mag"
+            + (f" (+- {self.H_err_total_mag:.3f} with the phase coefficient's range)"
+               if self.H_err_total_mag is not None else ""),
             f"  effective radius {self.radius_km:.3g} km, {pct}% interval "
             f"{self.radius_lo_km:.3g}-{self.radius_hi_km:.3g} km "
             f"(diameter {2 * self.radius_km:.3g} km)",
@@ -93,6 +116,20 @@ class SizeResult:
                 f"{self.sublimation_geometry} balance)")
         else:
             lines.append("  active fraction: not formed (no mass-loss rate given)")
+        if self.status != "radius":
+            lines.insert(1, f"  RADIUS {self.status.upper()}: {self.reason}")
+        return self._close(lines)
+
+    def _limit_summary(self):
+        lines = [
+            "Nucleus size: UPPER LIMIT only (the sizes rest on the assumed albedo)",
+            f"  {self.reason}",
+            f"  H ({self.band}) fainter than {self.H_mag:.3f} mag; effective radius below "
+            f"{self.radius_upper_limit_km:.3g} km at albedo {self.albedo_lo:g}",
+        ]
+        return self._close(lines)
+
+    def _close(self, lines):
         if self.flags:
             lines.append(f"  flags: {', '.join(self.flags)}")
         lines.append("Assumptions:")

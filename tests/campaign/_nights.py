@@ -13,10 +13,10 @@ from astropy.coordinates import SkyCoord
 from astropy.table import QTable, vstack
 from astropy.time import Time
 
-from photpipe.campaign import CampaignStore
 from photpipe.config import load_config
 from photpipe.scenario import Instrument, make_star_field, render_night
 from photpipe.scenario.demo import demo_exposures
+from photpipe.store import CampaignStore
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "configs" / "demo.toml"

@@ -11,9 +11,9 @@ import pytest
 from astropy import units as u
 from astropy.table import QTable, join
 
-from photpipe.campaign import CampaignStore
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.config import load_config
+from photpipe.store import CampaignStore
 
 from ._nights import DEMO, ROOT
 

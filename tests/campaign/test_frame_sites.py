@@ -8,7 +8,7 @@ from astropy import units as u
 from astropy.coordinates import EarthLocation
 from astropy.time import Time
 
-from photpipe.campaign.pipeline import _night_geometry
+from photpipe.campaign.night import _night_geometry
 from photpipe.config import geometry_at_location, load_config
 
 from ._nights import DEMO

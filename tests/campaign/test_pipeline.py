@@ -5,9 +5,9 @@ from pathlib import Path
 
 import pytest
 
-from photpipe.campaign import CampaignStore, StoreError
 from photpipe.campaign.pipeline import night_name, run_campaign
 from photpipe.config import ConfigError, load_config
+from photpipe.store import CampaignStore, StoreError
 
 from ._nights import assert_same_contents, contents, render_small_night, write_config
 
@@ -130,7 +130,7 @@ def test_corrupt_store_is_reported(tmp_path, nights):
 def test_two_nights_with_one_name(tmp_path, nights):
     config = _config(tmp_path, nights, ["2026-12-02", "2026-12-02"])
     with pytest.raises(ConfigError, match=re.escape(
-            "two [[night]] entries share the name '2026-12-02'")):
+            "[[night]] name: two entries share the name '2026-12-02'")):
         run_campaign(config, workers=0, progress=False, echo=_quiet)
 
 

@@ -9,11 +9,11 @@ import pytest
 from astropy import units as u
 from astropy.table import QTable
 
-from photpipe.campaign import CampaignStore
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.campaign.refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from photpipe.campaign.tasks import frame_reference_stars
 from photpipe.config import load_config
+from photpipe.store import CampaignStore
 
 from ._nights import render_small_night, write_config
 

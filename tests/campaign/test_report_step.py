@@ -31,7 +31,7 @@ def test_flagged_rows_left_out(tmp_path):
 
 
 def test_empty_store_gives_a_page_that_says_so(tmp_path):
-    from photpipe.campaign.store import CampaignStore
+    from photpipe.store import CampaignStore
 
     cfg, results, *_ = write_report_campaign(tmp_path, write_tables=False)
     with CampaignStore(results / "campaign.sqlite") as store:

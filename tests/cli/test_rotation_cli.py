@@ -67,13 +67,15 @@ def test_too_few_points_message(tmp_path, capsys):
 
 def test_missing_table_message(tmp_path, capsys):
     args = type("A", (), {"config": str(_config(tmp_path)), "table": None})()
-    assert cli.execute(args) == 2
-    assert "cannot read the lightcurve" in capsys.readouterr().err
+    assert cli.execute(args) == 4  # no data yet, as for every command
+    assert "no lightcurve there" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize("bad", [pytest.param("nan", id="nan"), pytest.param("neg", id="neg")])
-def test_bad_errors_rejected_by_stage(tmp_path, bad):
+def test_bad_errors_set_aside_by_stage(tmp_path, bad):
+    # a row with a bad error is set aside with its reason; the campaign goes on
     table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
     table["nucleus_mag_err"][3] = np.nan if bad == "nan" else -0.02
-    with pytest.raises(ValueError, match="magnitude error"):
-        run_rotation_stage({"rotation": {}}, table, tmp_path)
+    data = run_rotation_stage({"rotation": {}}, table, tmp_path)
+    assert sum(data["set_aside"].values()) == 1
+    assert any("magnitude error" in w for w in data["warnings"])

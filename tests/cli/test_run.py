@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from campaign import _nights as nights  # tests/ is on the path (pyproject pythonpath)
 
-from photpipe.campaign import CampaignStore
 from photpipe.cli.main import main
+from photpipe.store import CampaignStore
 
 ROOT = Path(__file__).resolve().parents[2]
 

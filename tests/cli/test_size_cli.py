@@ -33,7 +33,8 @@ def test_writes_size_json_and_prints_summary(tmp_path, capsys):
                 "radius_hi_km", "mass_kg_lo", "mass_kg_hi", "mass_bound_kg", "radius_bound_km",
                 "active_fraction"]:  # DEVELOPERS.md size.json contract
         assert key in data
-    assert data["band"] == "R" and data["H_method"] == "flux-mean"
+    # no rotation result: the mean flux, its error covering the unknown rotation
+    assert data["band"] == "R" and data["H_method"] == "rotation-unknown"
     # truth: H = 14.0 minus the flux-mean offset of a 0.3 mag double-peaked lightcurve
     # (0.005 mag, see tests/size/test_magnitude.py); the radius follows Pravec & Harris 2007
     assert data["H_mag"] == pytest.approx(H_TRUE - 0.005, abs=0.02)
@@ -81,7 +82,7 @@ def test_bad_config_values(tmp_path, capsys, line, message):
 
 def test_no_lightcurve_behind_h(tmp_path, capsys):
     cfg = write_size_config(tmp_path, FULL_SIZE)
-    assert run_cli([str(cfg)]) == 1
+    assert run_cli([str(cfg)]) == 4  # no data yet, as for every command
     assert "an H needs a lightcurve behind it" in capsys.readouterr().err
     assert not (tmp_path / "results" / "size.json").exists()
 

@@ -9,6 +9,7 @@ from photpipe.photometry import (
     dust_phase,
     henyey_greenstein,
     linear_phase,
+    phase_beyond_checked,
     schleicher_marcus,
     tabulated_phase,
 )
@@ -91,3 +92,40 @@ def test_a0frho():
     phi = schleicher_marcus(40.0)
     got = afrho_at_zero_phase(100 * u.cm, 40 * u.deg)
     assert got.to_value(u.cm) == pytest.approx(100 / phi, rel=1e-12)
+
+
+def test_composite_matches_the_published_15_degree_value():
+    # Schleicher 2010 (Lowell Observatory composite dust phase function, table at 1° steps):
+    # Φ(15°) = 0.5872, normalised to 1 at 0°. The back-scatter scale is anchored to it.
+    assert schleicher_marcus(15.0) == pytest.approx(0.5872, rel=1e-4)
+
+
+def test_composite_depth_over_the_observed_range():
+    # Schleicher 2010: between 0° and 110° "the phase effect varies up to a factor of 3".
+    # The analytic composite reaches 3.8 (minimum 0.261 at 85°): a coarse check only, the
+    # recalled parameters of the join are not confirmed by it.
+    phi = schleicher_marcus(np.arange(0.0, 111.0))
+    assert 2.5 < 1.0 / phi.min() < 4.0
+
+
+@pytest.mark.parametrize("phase", [120.0, 150.0, 180.0])
+def test_correction_never_runs_away_beyond_the_checked_range(phase):
+    # Uncapped, the forward-scattering part gives Φ(150°) = 4.1 and Φ(180°) = 513; beyond the
+    # checked range (0-110°) Φ is held at Φ(110°) and the row is flagged.
+    edge = dust_phase(110 * u.deg)
+    assert dust_phase(phase * u.deg) == edge
+    assert np.isnan(dust_phase(phase * u.deg, beyond="refuse"))
+    assert dust_phase(phase * u.deg, beyond="extend") == pytest.approx(schleicher_marcus(phase))
+    assert phase_beyond_checked(phase * u.deg)
+    assert not phase_beyond_checked(60 * u.deg)
+
+
+def test_linear_law_and_table_are_capped_at_their_ranges():
+    # linear: 0-60° (the small-phase range of the Halley coefficients it stands for, from
+    # memory); a table: its own range, held at the last row instead of failing the frame.
+    assert dust_phase(90 * u.deg, method="linear") == dust_phase(60 * u.deg, method="linear")
+    table = ([0.0, 10.0, 20.0], [1.0, 0.5, 0.25])
+    assert dust_phase(35 * u.deg, table=table) == pytest.approx(0.25)
+    assert phase_beyond_checked(35 * u.deg, table=table)
+    with pytest.raises(ValueError, match="'beyond' must be one of"):
+        dust_phase(10 * u.deg, beyond="clip")

@@ -1,10 +1,12 @@
+import re
+
 import numpy as np
 import pytest
 from astropy import constants as const
 from astropy import units as u
 from astropy.table import QTable
 
-from photpipe.rotation import LightcurveError, reduce_lightcurve
+from photpipe.rotation import LightcurveError, RotationWarning, reduce_lightcurve
 
 
 def _rows(**over):
@@ -59,15 +61,36 @@ def test_hg_law_and_quantity_columns():
                  id="negative-error"),
     pytest.param("nucleus_mag", [20.0, np.nan, 20.2], "no finite magnitude", id="nan-mag"),
     pytest.param("mjd_utc_mid", [61000.0, np.nan, 61001.0], "no finite epoch", id="nan-epoch"),
-    pytest.param("delta_au", [1.5, 0.0, 1.5], "non-positive r_h_au or delta_au", id="delta"),
-    pytest.param("source", ["nucleus_fit", "psf", "nucleus_fit"], "unknown 'source'",
-                 id="source"),
+    pytest.param("delta_au", [1.5, 0.0, 1.5], "missing or non-positive r_h_au or delta_au",
+                 id="delta"),
 ])
-def test_bad_rows_are_named(column, value, text):
-    with pytest.raises(LightcurveError, match=text) as info:
-        reduce_lightcurve(_rows(**{column: value}))
-    if column != "source":
-        assert ": b." in str(info.value)
+def test_bad_rows_are_set_aside_with_their_reason(column, value, text):
+    # one bad row never refuses the lightcurve: it is set aside, counted and named
+    expected = f"1 of 3 lightcurve rows set aside: 1 with {re.escape(text)}"
+    with pytest.warns(RotationWarning, match=expected):
+        lc = reduce_lightcurve(_rows(**{column: value}))
+    assert lc.n_points == 2 and list(lc.frame) == ["a", "c"]
+    assert lc.set_aside == (("b", next(r for r in lc.set_aside_counts)),)
+    assert text in lc.set_aside[0][1]
+
+
+def test_all_rows_bad_is_refused_with_the_frames_named():
+    with pytest.raises(LightcurveError, match="none of the 3 lightcurve rows can be used") as info:
+        reduce_lightcurve(_rows(nucleus_mag_err=[np.nan, np.nan, 0.0]))
+    assert "a, b, c" in str(info.value)
+
+
+def test_unknown_source_is_refused():
+    with pytest.raises(LightcurveError, match="unknown 'source'"):
+        reduce_lightcurve(_rows(source=["nucleus_fit", "psf", "nucleus_fit"]))
+
+
+def test_upper_limits_are_kept_as_limits():
+    # nucleus.ecsv contract: an upper-limit row holds the bright limit and a NaN error
+    lc = reduce_lightcurve(_rows(nucleus_mag_err=[0.05, np.nan, 0.05],
+                                 flags=["", "upper_limit", ""]))
+    assert lc.n_points == 3 and lc.set_aside == ()
+    np.testing.assert_array_equal(lc.upper_limit, [False, True, False])
 
 
 def test_empty_lightcurve():

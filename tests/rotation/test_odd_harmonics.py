@@ -9,7 +9,7 @@ from photpipe.rotation import (
     odd_harmonics_f_test,
     synthetic_lightcurve,
 )
-from photpipe.rotation.search import _odd_harmonics_p
+from photpipe.rotation.shape_choice import _odd_harmonics_p
 
 
 def _campaign(seed, *, odd=0.0, night_offset=0.0, n_nights=8, amplitude=0.4):

@@ -11,9 +11,9 @@ from photpipe.rotation import (
     search_rotation,
     synthetic_lightcurve,
 )
-from photpipe.rotation import search as search_module
+from photpipe.rotation import _period_errors as search_module
 from photpipe.rotation.fit import expanded_percentile_interval
-from photpipe.rotation.search import INTERVAL_METHODS
+from photpipe.rotation.result import INTERVAL_METHODS
 
 ONE_SITE = {"kettle_rock": -111.4}
 

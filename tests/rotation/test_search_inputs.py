@@ -30,24 +30,44 @@ def campaign():
                                    pytest.param(-0.02, id="negative-error"),
                                    pytest.param(0.0, id="zero-error"),
                                    pytest.param(np.inf, id="infinite-error")])
-def test_bad_errors_are_refused_by_the_search(campaign, value):
-    # a ReducedLightcurve made by hand skips reduce_lightcurve's checks; the search checks again
+def test_bad_errors_are_set_aside_by_the_search(campaign, value):
+    # a ReducedLightcurve made by hand skips reduce_lightcurve's checks; the search sets the
+    # bad points aside, names them, and goes on with the rest
     err = campaign.mag_err.copy()
     err[[2, 5]] = value
     bad = replace(campaign, mag_err=err)
-    with pytest.raises(LightcurveError, match="2 of .* points have a NaN, infinite or "
-                                              "non-positive magnitude error") as info:
-        search_rotation(bad, n_bootstrap=0)
-    text = str(info.value)
+    with pytest.warns(RotationWarning) as caught:
+        res = search_rotation(bad, n_bootstrap=0)
+    text = " ".join(str(w.message) for w in caught)
+    assert "2 of" in text and "set aside, the search goes on" in text
     assert str(campaign.frame[2]) in text and str(campaign.frame[5]) in text
-    assert "neither the period's significance nor its uncertainty can be given" in text
+    assert res.n_points == campaign.n_points - 2 and "bad_points_set_aside" in res.flags
 
 
-def test_nan_magnitude_is_refused_by_the_search(campaign):
+def test_nan_magnitude_is_set_aside_by_the_search(campaign):
     mag = campaign.mag.copy()
     mag[0] = np.nan
-    with pytest.raises(LightcurveError, match="magnitude error, magnitude or epoch"):
-        search_rotation(replace(campaign, mag=mag), n_bootstrap=0)
+    with pytest.warns(RotationWarning) as caught:
+        res = search_rotation(replace(campaign, mag=mag), n_bootstrap=0)
+    assert any("magnitude error, magnitude or epoch" in str(w.message) for w in caught)
+    assert res.n_points == campaign.n_points - 1
+
+
+def test_upper_limits_are_set_aside_and_counted():
+    # a bare-nucleus campaign where 7 frames gave only upper limits (NaN errors): the search
+    # uses the detections, counts the limits, and never stops on them
+    table, truth = synthetic_lightcurve(period=6.0 * u.h, n_nights=4,
+                                        rng=np.random.default_rng(11))
+    table["nucleus_mag_err"][[3, 9, 14, 20, 33, 40, 51]] = np.nan
+    table["flags"][[3, 9, 14, 20, 33, 40, 51]] = "upper_limit"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RotationWarning)
+        res = search_rotation(reduce_lightcurve(table), min_period=3 * u.h,
+                              max_period=20 * u.h, n_bootstrap=0)
+    assert res.n_upper_limits_set_aside == 7 and res.n_points == len(table) - 7
+    d = res.to_dict()
+    assert d["n_upper_limits_set_aside"] == 7 and "7 upper limits" in res.summary()
+    assert abs(float(res.period / truth.period) - 1) < 0.01
 
 
 def test_too_few_points_says_what_is_left(campaign):

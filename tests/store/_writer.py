@@ -9,7 +9,8 @@ import sys
 from astropy import units as u
 from astropy.table import QTable
 
-from photpipe.campaign import CampaignStore, FrameRecord
+from photpipe.campaign import FrameRecord
+from photpipe.store import CampaignStore
 
 
 def record(i, tag):

@@ -8,7 +8,8 @@ import pytest
 from astropy import units as u
 from astropy.table import QTable
 
-from photpipe.campaign import CampaignStore, FrameRecord, StoreError, config_hash, file_sha256
+from photpipe.campaign import FrameRecord, config_hash, file_sha256
+from photpipe.store import CampaignStore, StoreError
 
 HERE = Path(__file__).parent
 

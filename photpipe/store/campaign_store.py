@@ -7,7 +7,6 @@ and readers never block the writer. Unique keys plus upserts make a re-run of a 
 rows, never duplicate them, so a run killed half-way and started again ends with the same rows.
 """
 
-import math
 import os
 import socket
 import sqlite3
@@ -15,26 +14,15 @@ from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
 
-import numpy as np
 from astropy import units as u
-from astropy.table import MaskedColumn, QTable
 
 from photpipe import __version__
+from photpipe.campaign._schema import RESULT_TABLES, SCHEMA_VERSION, schema_sql
 
-from ._schema import RESULT_TABLES, SCHEMA_VERSION, TABLES, schema_sql
-from .result_files import write_ecsv
+from ._values import plain_value, table_rows
+from .export import EXPORTABLE, export_table, lightcurve, write_table_atomic
 
-__all__ = ["CampaignStore", "StoreError", "EXPORTABLE"]
-
-#: Names accepted by :meth:`CampaignStore.export_table`.
-EXPORTABLE = tuple(TABLES) + tuple(RESULT_TABLES) + ("lightcurve",)
-
-_LIGHTCURVE_COLUMNS = (
-    ("frame", None), ("mjd_utc_mid", None), ("nucleus_mag", u.mag), ("nucleus_mag_err", u.mag),
-    ("r_h_au", u.AU), ("delta_au", u.AU), ("phase_deg", u.deg), ("light_time_s", u.s),
-    ("site", None), ("filter", None), ("source", None), ("flags", None), ("night", None),
-)
-
+__all__ = ["CampaignStore", "StoreError"]
 
 class StoreError(RuntimeError):
     """The campaign store cannot be used; the message names the file and the problem."""
@@ -42,55 +30,6 @@ class StoreError(RuntimeError):
 
 def _now():
     return datetime.now(timezone.utc).isoformat(timespec="seconds")
-
-
-def _plain(value, unit, where):
-    """Return ``value`` as a number/str/None that SQLite stores, converted to ``unit``."""
-    if value is None or value is np.ma.masked:
-        return None
-    if isinstance(value, u.Quantity):
-        if unit is None:
-            # Unitless columns: plain numbers, and time stamps given as MJD in days.
-            unit = (u.dimensionless_unscaled if value.unit.physical_type != "time"
-                    else u.day)
-        try:
-            value = value.to_value(unit)
-        except u.UnitConversionError as exc:
-            msg = f"{where}: cannot convert {value.unit} to {unit}"
-            raise ValueError(msg) from exc
-    if isinstance(value, (list, tuple, set)):
-        return ",".join(str(v) for v in value)
-    if isinstance(value, (bytes, np.bytes_)):
-        return value.decode()
-    if isinstance(value, (bool, np.bool_)):
-        return int(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        value = float(value)
-        return None if math.isnan(value) else value
-    if isinstance(value, np.ndarray):
-        if value.size != 1:
-            msg = f"{where}: expected one value, got an array of shape {value.shape}"
-            raise ValueError(msg)
-        return _plain(value.reshape(()).item(), None, where)
-    return value if isinstance(value, str) else str(value)
-
-
-def _table_rows(data):
-    """Yield the rows of ``data`` (Table/QTable, list of dicts, or one dict) as dicts."""
-    if data is None:
-        return
-    if isinstance(data, dict):
-        yield data
-        return
-    if hasattr(data, "colnames"):
-        names = data.colnames
-        for row in data:
-            yield {name: row[name] for name in names}
-        return
-    for row in data:
-        yield dict(row)
 
 
 class CampaignStore:
@@ -111,13 +50,17 @@ class CampaignStore:
     Notes
     -----
     Results of a frame are keyed by ``(night, frame)``; storing a frame again replaces its rows in
-    one transaction. A frame counts as measured (and is skipped by a re-run) when its
-    ``frame_results`` marker holds the same raw-file content hash and configuration hash.
+    one transaction, but only when the new attempt measured it: a record without measurement
+    rows leaves earlier measurements of the frame as they were (its problems are recorded). A
+    frame counts as measured (and is skipped by a re-run) when its ``frame_results`` marker
+    holds the same raw-file content hash and configuration hash. A write that fails (a full
+    disk, a read-only file) raises `StoreError` and leaves the store as it was.
 
     Examples
     --------
     >>> import tempfile, os
-    >>> from photpipe.campaign import CampaignStore, FrameRecord
+    >>> from photpipe.campaign import FrameRecord
+    >>> from photpipe.store import CampaignStore
     >>> folder = tempfile.mkdtemp()
     >>> with CampaignStore(os.path.join(folder, "c.sqlite")) as store:
     ...     run = store.start_run("[campaign]", config_hash="cfg1")
@@ -130,7 +73,11 @@ class CampaignStore:
 
     def __init__(self, path, *, timeout=60.0):
         self.path = Path(path)
-        self.path.parent.mkdir(parents=True, exist_ok=True)
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            msg = f"{self.path}: cannot make the store's folder ({exc.strerror or exc})"
+            raise StoreError(msg) from exc
         try:
             self._db = sqlite3.connect(self.path, timeout=timeout, isolation_level=None)
         except sqlite3.Error as exc:
@@ -142,14 +89,14 @@ class CampaignStore:
             self._db.execute("PRAGMA synchronous=NORMAL")
             self._check_integrity()
             self._create_schema()
+        except StoreError:
+            self._db.close()
+            raise
         except sqlite3.DatabaseError as exc:
             self._db.close()
             msg = (f"{self.path}: is damaged or is not a SQLite campaign store ({exc}); "
                    "move it aside and run again to rebuild it from the frames")
             raise StoreError(msg) from exc
-        except StoreError:
-            self._db.close()
-            raise
 
     # -- opening ---------------------------------------------------------------------------
 
@@ -196,14 +143,25 @@ class CampaignStore:
 
     @contextmanager
     def _write(self):
-        """One write transaction; rolled back whole on any error."""
-        self._db.execute("BEGIN IMMEDIATE")
+        """One write transaction; rolled back whole on any error.
+
+        SQLite's own failures (a full disk, a read-only file or folder) become a `StoreError`
+        naming the file.
+        """
         try:
-            yield self._db
-        except BaseException:
-            self._db.execute("ROLLBACK")
-            raise
-        self._db.execute("COMMIT")
+            self._db.execute("BEGIN IMMEDIATE")
+            try:
+                yield self._db
+            except BaseException:
+                if self._db.in_transaction:
+                    self._db.execute("ROLLBACK")
+                raise
+            self._db.execute("COMMIT")
+        except sqlite3.OperationalError as exc:
+            if "locked" in str(exc) or "busy" in str(exc):
+                raise
+            msg = f"{self.path}: cannot write to the campaign store ({exc})"
+            raise StoreError(msg) from exc
 
     def close(self):
         """Close the database connection."""
@@ -272,8 +230,8 @@ class CampaignStore:
     @staticmethod
     def _upsert_frame(db, row):
         values = (row["night"], row["frame"], str(row["path"]), row["content_hash"],
-                  row.get("kind", "science"), _plain(row.get("mjd_utc_mid"), None, "mjd"),
-                  row.get("filter"), _plain(row.get("exptime_s"), u.s, "exptime_s"),
+                  row.get("kind", "science"), plain_value(row.get("mjd_utc_mid"), None, "mjd"),
+                  row.get("filter"), plain_value(row.get("exptime_s"), u.s, "exptime_s"),
                   row.get("site"))
         db.execute(
             "INSERT INTO frames (night, name, path, content_hash, kind, mjd_utc_mid, filter, "
@@ -293,7 +251,7 @@ class CampaignStore:
     @staticmethod
     def _upsert_calibration(db, row):
         values = (row.get("night", ""), row["kind"], row.get("filter"),
-                  _plain(row.get("exptime_s"), u.s, "exptime_s"), row.get("n_inputs"),
+                  plain_value(row.get("exptime_s"), u.s, "exptime_s"), row.get("n_inputs"),
                   str(row["path"]), row.get("content_hash"))
         db.execute(
             "INSERT INTO calibrations (night, kind, filter, exptime_s, n_inputs, path, "
@@ -320,10 +278,18 @@ class CampaignStore:
 
         Returns
         -------
-        frame_id : int
+        frame_id : int or None
+            None when the record holds no measurement rows and the frame's earlier
+            measurements were kept.
         """
         where = f"{self.path}: frame {record.night}/{record.frame}"
         with self._write() as db:
+            earlier = self._holds_measurements(db, record.night, record.frame)
+            if earlier and not _has_rows(record.measurements):
+                # a failed attempt never replaces what an earlier one measured
+                for stage, reason in record.problems:
+                    self._upsert_skipped(db, run_id, record.night, record.frame, stage, reason)
+                return None
             frame_id = self._upsert_frame(db, {
                 "night": record.night, "frame": record.frame, "path": record.path,
                 "content_hash": record.content_hash, "kind": record.kind,
@@ -360,10 +326,27 @@ class CampaignStore:
         return frame_id
 
     @staticmethod
+    def _holds_measurements(db, night, frame):
+        return db.execute(
+            "SELECT count(*) FROM measurements m JOIN frames f ON f.id = m.frame_id "
+            "WHERE f.night = ? AND f.name = ?", (night, frame)).fetchone()[0] > 0
+
+    def has_measurements(self, night, frame):
+        """Whether ``night/frame`` holds measurement rows."""
+        return self._holds_measurements(self._db, night, frame)
+
+    def other_live_runs(self, run_id):
+        """Runs of this host other than ``run_id`` still marked running by a live process."""
+        host = socket.gethostname()
+        rows = self._db.execute("SELECT id, pid FROM runs WHERE status = 'running' AND host = ? "
+                                "AND id != ?", (host, run_id)).fetchall()
+        return [rid for rid, pid in rows if pid is not None and _pid_alive(pid)]
+
+    @staticmethod
     def _insert_rows(db, table, frame_id, data, where, facts):
         columns, one_per_frame = RESULT_TABLES[table]
         names = [c.name for c in columns]
-        rows = list(_table_rows(data))
+        rows = list(table_rows(data))
         if one_per_frame and len(rows) > 1:
             msg = f"{where}: table {table!r} takes one row per frame, got {len(rows)}"
             raise ValueError(msg)
@@ -372,7 +355,7 @@ class CampaignStore:
         marks = ", ".join("?" for _ in key + names)
         sql = f"INSERT INTO {table} ({quoted}) VALUES ({marks})"
         for index, row in enumerate(rows):
-            values = [_plain(row.get(c.name, facts.get(c.name)), c.unit,
+            values = [plain_value(row.get(c.name, facts.get(c.name)), c.unit,
                              f"{where}, {table}.{c.name}") for c in columns]
             db.execute(sql, ([frame_id] if one_per_frame else [frame_id, index]) + values)
 
@@ -424,52 +407,8 @@ class CampaignStore:
     # -- export ----------------------------------------------------------------------------
 
     def export_table(self, name, *, night=None):
-        """Return a stored table as a QTable with units.
-
-        Parameters
-        ----------
-        name : str
-            One of `EXPORTABLE`: ``runs, frames, calibrations, skipped, geometry, zero_points,
-            stars, measurements, nucleus, lightcurve``.
-        night : str, optional
-            Restrict to one night. Without it, result tables gain a ``night`` column first.
-
-        Returns
-        -------
-        table : `~astropy.table.QTable`
-            Rows ordered by night, time, frame and row; ``meta`` names the store and table.
-        """
-        if name == "lightcurve":
-            return self.lightcurve(night=night)
-        if name in RESULT_TABLES:
-            columns = RESULT_TABLES[name][0]
-            quoted = ", ".join(f't."{c.name}"' for c in columns)
-            order = "f.night, f.mjd_utc_mid, f.name" + (
-                "" if RESULT_TABLES[name][1] else ", t.row_index")
-            sql = (f"SELECT f.night, f.name, {quoted} FROM {name} t "
-                   f"JOIN frames f ON f.id = t.frame_id")
-            lead = (("night", "TEXT", None), ("frame", "TEXT", None))
-        elif name in TABLES:
-            columns = TABLES[name]
-            sql, order = _bookkeeping_select(name)
-            lead = ()
-        else:
-            msg = f"unknown table {name!r}; choose from {list(EXPORTABLE)}"
-            raise ValueError(msg)
-        params = ()
-        if night is not None:
-            sql += " WHERE f.night = ?" if name in RESULT_TABLES else _night_filter(name)
-            params = (night,)
-        rows = self._db.execute(f"{sql} ORDER BY {order}", params).fetchall()
-        specs = list(lead) + [(c.name, c.sql, c.unit, c.description) for c in columns]
-        table = _build_table(rows, specs)
-        if night is not None and "night" in table.colnames and name in RESULT_TABLES:
-            table.remove_column("night")
-        table.meta.update({"table": name, "store": str(self.path),
-                           "schema_version": SCHEMA_VERSION})
-        if night is not None:
-            table.meta["night"] = night
-        return table
+        """Return a stored table as a QTable with units (see `photpipe.store.export_table`)."""
+        return export_table(self._db, self.path, name, night=night)
 
     def write_ecsv(self, name, path, *, night=None):
         """Write :meth:`export_table` ``(name, night=night)`` to ``path`` as ECSV, atomically.
@@ -478,56 +417,20 @@ class CampaignStore:
         -------
         path : `~pathlib.Path`
         """
-        table = self.export_table(name, night=night)
-        return write_table_atomic(table, path)
+        return write_table_atomic(self.export_table(name, night=night), path)
 
     def lightcurve(self, *, night=None):
-        """Return the nucleus lightcurve of the campaign, one row per measured frame.
+        """Return the nucleus lightcurve of the campaign (see `photpipe.store.lightcurve`)."""
+        return lightcurve(self._db, self.path, night=night)
 
-        Returns
-        -------
-        table : `~astropy.table.QTable`
-            Columns ``frame, mjd_utc_mid, nucleus_mag, nucleus_mag_err, r_h_au, delta_au,
-            phase_deg, light_time_s, site, filter, source, flags, night``. ``source`` is
-            ``"nucleus_fit"`` where a nucleus fit exists, else ``"small_aperture"`` (the
-            magnitude in the smallest aperture, an upper bound on the nucleus brightness).
-            Frames with neither are absent.
-        """
-        sql = """
-SELECT f.name, f.mjd_utc_mid, n.nucleus_mag, n.nucleus_mag_err, m.mag, m.mag_err,
-       g.r_h_au, g.delta_au, g.phase_deg, g.light_time_s, m.r_h_au, m.delta_au, m.phase_deg,
-       f.site, f.filter, n.flags, m.flags, f.night
-FROM frames f
-JOIN frame_results r ON r.frame_id = f.id
-LEFT JOIN nucleus n ON n.frame_id = f.id
-LEFT JOIN geometry g ON g.frame_id = f.id
-LEFT JOIN measurements m ON m.frame_id = f.id AND m.row_index = (
-    SELECT row_index FROM measurements WHERE frame_id = f.id AND mag IS NOT NULL
-    ORDER BY rho_km, row_index LIMIT 1)
-"""
-        params = ()
-        if night is not None:
-            sql += " WHERE f.night = ?"
-            params = (night,)
-        sql += " ORDER BY f.mjd_utc_mid, f.night, f.name"
-        rows = []
-        for (frame, mjd, nmag, nerr, amag, aerr, rh, de, ph, lt, mrh, mde, mph, site, filt,
-             nflags, mflags, nt) in self._db.execute(sql, params):
-            if nmag is not None:
-                mag, err, source, flags = nmag, nerr, "nucleus_fit", nflags
-            elif amag is not None:
-                mag, err, source, flags = amag, aerr, "small_aperture", mflags
-            else:
-                continue
-            rows.append((frame, mjd, mag, err, rh if rh is not None else mrh,
-                         de if de is not None else mde, ph if ph is not None else mph, lt,
-                         site, filt, source, flags or "", nt))
-        specs = [(n, "TEXT" if unit is None and n not in ("mjd_utc_mid",) else "REAL", unit, "")
-                 for n, unit in _LIGHTCURVE_COLUMNS]
-        table = _build_table(rows, specs)
-        table.meta.update({"table": "lightcurve", "store": str(self.path),
-                           "schema_version": SCHEMA_VERSION})
-        return table
+
+def _has_rows(data):
+    if data is None:
+        return False
+    try:
+        return len(data) > 0
+    except TypeError:
+        return True
 
 
 def _pid_alive(pid):
@@ -538,51 +441,3 @@ def _pid_alive(pid):
     except PermissionError:
         return True
     return True
-
-
-def _bookkeeping_select(name):
-    if name == "runs":
-        return ("SELECT id, started, ended, status, config_hash, software_version, host, "
-                "config_text FROM runs f", "f.id")
-    if name == "frames":
-        return ("SELECT night, name, path, content_hash, kind, mjd_utc_mid, filter, exptime_s, "
-                "site FROM frames f", "f.night, f.mjd_utc_mid, f.name")
-    if name == "calibrations":
-        return ("SELECT night, kind, filter, exptime_s, n_inputs, path, content_hash "
-                "FROM calibrations f", "f.night, f.kind, f.path")
-    return ("SELECT night, item, stage, reason, run_id FROM skipped f",
-            "f.night, f.item, f.stage")
-
-
-def _night_filter(name):
-    if name == "runs":
-        msg = "the runs table is not split by night"
-        raise ValueError(msg)
-    return " WHERE f.night = ?"
-
-
-def _build_table(rows, specs):
-    """Make a QTable from SQL rows; ``specs`` are ``(name, sqltype, unit[, description])``."""
-    table = QTable()
-    columns = list(zip(*rows)) if rows else [()] * len(specs)
-    for spec, values in zip(specs, columns):
-        name, sqltype, unit = spec[:3]
-        description = spec[3] if len(spec) > 3 else ""
-        if sqltype == "REAL":
-            data = np.array([np.nan if v is None else v for v in values], dtype=float)
-            col = data * unit if unit is not None else data
-        elif sqltype == "INTEGER":
-            mask = np.array([v is None for v in values], dtype=bool)
-            data = np.array([0 if v is None else v for v in values], dtype=np.int64)
-            col = MaskedColumn(data, mask=mask) if mask.any() else data
-        else:
-            col = np.array(["" if v is None else str(v) for v in values], dtype=str)
-        table[name] = col
-        if description:
-            table[name].info.description = description
-    return table
-
-
-def write_table_atomic(table, path):
-    """Write ``table`` to ``path`` as ECSV through a temporary file and a rename."""
-    return write_ecsv(path, table)

@@ -1,0 +1,303 @@
+"""One night of a batch run: read, plan, calibrate and measure, store, export.
+
+`NightRun.run` reads like the plan: take the night's files, name the frames, plan the
+calibrations, pick the science frames not yet measured, build the masters, compute the geometry
+once for the night, hand one task per frame to the runner, store each result as it comes back,
+and export the night's tables.
+"""
+
+import logging
+import os
+import time
+import warnings
+from pathlib import Path
+
+from astropy.time import Time
+
+from photpipe import frames
+from photpipe._records import Skipped
+from photpipe.config import ConfigError, geometry_at_location, night_folders
+
+from .frame_keys import calibrated_name, duplicates, frame_keys
+from .hashing import file_sha256
+from .runner import TaskError
+from .summary import NightSummary
+from .tasks import process_frame
+
+__all__ = ["NightRun", "night_name", "NIGHT_TABLES"]
+
+log = logging.getLogger("photpipe.campaign")
+
+#: Tables exported into each night's folder.
+NIGHT_TABLES = ("frames", "measurements", "nucleus", "stars", "zero_points", "skipped")
+
+
+def night_name(night):
+    """Return the name a ``[[night]]`` entry goes by: its ``name``, else its folder's name.
+
+    Examples
+    --------
+    >>> night_name({"path": "/data/raw/2026-12-01"})
+    '2026-12-01'
+    >>> night_name({"path": "/data/raw/2026-12-02/*.fits.fz"})
+    '2026-12-02'
+    >>> night_name({"path": "/x", "name": "first night"})
+    'first night'
+    """
+    if night.get("name"):
+        return str(night["name"])
+    path = os.path.normpath(night["path"])
+    parts = Path(path).parts
+    for i, part in enumerate(parts):
+        if any(ch in part for ch in "*?["):
+            return parts[i - 1] if i > 0 else path
+    return os.path.basename(path)
+
+
+def _site_groups(site, infos):
+    """Frames grouped by where they were taken: the header's site, else the night's."""
+    groups = {}
+    for i, info in enumerate(infos):
+        where = info.site if getattr(info, "site", None) is not None else site
+        key = None if where is None else tuple(round(float(v.to_value("m"))) for v in
+                                               where.geocentric)
+        groups.setdefault(key, (where, []))[1].append(i)
+    return list(groups.values())
+
+
+def _night_geometry(config, site, infos):
+    """Geometry rows of the frames, each seen from its own site; (rows, problem, cautions).
+
+    A frame whose header names its site (OBSGEO-*, SITELAT/SITELONG) is seen from there; the
+    others from the night's ``site``. Computed once per site here.
+    """
+    if not infos:
+        return [], None, []
+    rows, cautions = [None] * len(infos), set()
+    for where, idx in _site_groups(site, infos):
+        times = Time([infos[i].time_mid for i in idx])
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                table = geometry_at_location(config, where, times)
+            except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
+                return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
+        cautions |= {str(w.message) for w in caught
+                     if w.category.__name__ == "SolarElongationWarning"}
+        for w in caught:
+            if w.category.__name__ != "SolarElongationWarning":
+                log.warning("geometry: %s: %s", w.category.__name__, w.message)
+        for k, i in enumerate(idx):
+            rows[i] = table[k:k + 1]
+    return rows, None, sorted(cautions)
+
+
+class NightRun:
+    """The work of one run on its nights (shared: the store, the runner, the settings).
+
+    Parameters
+    ----------
+    run : object
+        Holds ``config, store, runner, summary, settings`` (`~photpipe.campaign.preflight.
+        SharedSettings`), ``frame_hash``, ``rerun``, ``results`` and ``echo``.
+    """
+
+    def __init__(self, run):
+        self.run = run
+
+    # -- the plan ----------------------------------------------------------------------------
+
+    def night(self, entry):
+        """Reduce one ``[[night]]`` entry; its counts go into the run's summary."""
+        night = NightSummary(name=night_name(entry), folder=entry["path"])
+        self.run.summary.nights.append(night)
+        inventory = self._inventory(entry, night)
+        if inventory is None:
+            return
+        keys = frame_keys(inventory.frames)
+        hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
+        self._add_frames(entry, night, inventory, keys, hashes)
+        plan = frames.plan_calibrations(inventory,
+                                        require_dark=self.run.settings.frames.require_dark)
+        for s in plan.skipped:
+            self.skip(night, keys.get(s.item, s.item), s.stage, s.reason)
+        todo = self._to_measure(night, plan, keys, hashes)
+        if todo:
+            self._measure(entry, night, plan, todo, keys, hashes)
+        self._export(night)
+
+    def skip(self, night, item, stage, reason):
+        """Record that ``item`` of ``night`` could not pass ``stage``, and why."""
+        night.skipped.append(Skipped(str(item), stage, str(reason)))
+        name = _stem(item) if os.sep in str(item) else str(item)
+        self.run.store.add_skipped(self.run.summary.run_id, night.name, name, stage, reason)
+        log.info("skipped %s/%s [%s]: %s", night.name, name, stage, reason)
+
+    # -- the steps ---------------------------------------------------------------------------
+
+    def _inventory(self, entry, night):
+        try:
+            files = night_folders(entry)
+        except ConfigError as exc:
+            self.skip(night, entry["path"], "ingest", str(exc))
+            self.run.echo(f"night {night.name}: {exc}; going on with the other nights")
+            return None
+        settings = self.run.settings
+        inventory = frames.scan_night(files, kind_map=settings.frames.kind_map,
+                                      profiles=settings.instruments,
+                                      night_profile=entry.get("instrument"))
+        night.counts = inventory.counts()
+        for note in inventory.notes:
+            self.run.echo(f"night {night.name}: {note}")
+            log.info("night %s: %s", night.name, note)
+        for s in inventory.skipped:
+            self.skip(night, s.item, s.stage, s.reason)
+        counts = ", ".join(f"{n} {k}" for k, n in night.counts.items() if n)
+        self.run.echo(f"night {night.name}: {len(inventory.frames)} frames read "
+                      f"({counts or 'none'}), {len(inventory.skipped)} unreadable")
+        return inventory
+
+    def _add_frames(self, entry, night, inventory, keys, hashes):
+        self.run.store.add_frames(
+            {"night": night.name, "frame": keys[info.path], "path": info.path,
+             "content_hash": hashes[info.path], "kind": info.kind,
+             "mjd_utc_mid": float(info.time_mid.utc.mjd), "filter": info.filter,
+             "exptime_s": info.exptime, "site": entry.get("site")}
+            for info in inventory.frames)
+
+    def _to_measure(self, night, plan, keys, hashes):
+        """Science frames not measured yet with this content and configuration."""
+        same = duplicates(plan.science, hashes, keys)
+        todo = []
+        for info in plan.science:
+            key = keys[info.path]
+            if info.path in same:
+                self.skip(night, key, "ingest", f"same content as {same[info.path]}: "
+                                                "measured once")
+            elif not self.run.rerun and self.run.store.is_measured(
+                    night.name, key, content_hash=hashes[info.path],
+                    config_hash=self.run.frame_hash, stages=self.run.frame_stages):
+                night.reused += 1
+            else:
+                todo.append(info)
+        if not plan.science:
+            self.run.echo(f"night {night.name}: no science frame has the calibrations it needs")
+        elif not todo and night.reused:
+            self.run.echo(f"night {night.name}: all {night.reused} science frames already "
+                          "measured with this configuration (use --rerun to measure them "
+                          "again)")
+        return todo
+
+    def _masters(self, night, plan):
+        folder = self.run.results / night.name / "masters"
+        masters = frames.build_masters(plan, folder,
+                                       **self.run.settings.frames.master_options())
+        for s in masters.skipped:
+            self.skip(night, s.item, s.stage, s.reason)
+        self.run.store.add_calibrations(
+            {"night": night.name, "kind": m.kind, "path": m.path, "n_inputs": m.n_frames,
+             "filter": str(m.key[3]) if m.kind == "flat" else None,
+             "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
+            for m in masters.masters)
+        return masters
+
+    def _geometry(self, entry, night, todo):
+        site = self.run.settings.sites.get(entry.get("site"))
+        rows, problem, cautions = _night_geometry(self.run.config, site, todo)
+        for text in cautions:
+            if text not in self.run.summary.cautions:
+                self.run.summary.cautions.append(text)
+                self.run.echo(f"CAUTION: {text}")
+        if problem:
+            self.run.echo(f"night {night.name}: no observing geometry ({problem}); "
+                          "frames are calibrated but not measured")
+        return site, rows, problem
+
+    def _shared(self, masters, site):
+        settings = self.run.settings
+        reference = settings.reference
+        return {"masters": masters, "stages": self.run.frame_stages,
+                "calibration": settings.frames.calibration_options(),
+                "photometry": settings.photometry.options(),
+                "nucleus": settings.nucleus.fit_options(),
+                "psf": settings.nucleus.psf_options(), "site_location": site,
+                "reference_store": reference.store_path, "reference_problem": reference.problem,
+                "filters": settings.filters,
+                "plate_solve": {"mode": settings.photometry.plate_solve,
+                                "max_offset": settings.photometry.plate_max_offset}}
+
+    def _measure(self, entry, night, plan, todo, keys, hashes):
+        masters = self._masters(night, plan)
+        site, geometry, problem = self._geometry(entry, night, todo)
+        calibrated = self.run.results / night.name / "calibrated"
+        items = [{"night": night.name, "frame": keys[info.path], "site": entry.get("site"),
+                  "info": info, "content_hash": hashes[info.path], "geometry": row,
+                  "geometry_problem": problem,
+                  "calibrated_path": str(calibrated / calibrated_name(keys[info.path]))}
+                 for info, row in zip(todo, geometry)]
+        self.run.runner.open()
+        started = time.perf_counter()
+        for item, result in self.run.runner.map(
+                process_frame, items, shared=self._shared(masters, site), desc=night.name,
+                label=lambda it: f"{it['night']}/{it['frame']}"):
+            self._store(night, item["frame"], result)
+        phases = self.run.summary.phase_seconds
+        phases["frames"] = phases.get("frames", 0.0) + time.perf_counter() - started
+
+    def _store(self, night, frame, result):
+        """Store one frame's result; count it as measured only when it was stored."""
+        if isinstance(result, TaskError):
+            self.skip(night, frame, "worker", str(result))
+            return
+        try:
+            stored = self.run.store.write_frame(self.run.summary.run_id, result,
+                                                config_hash=self.run.frame_hash)
+        except (ValueError, TypeError) as exc:
+            # A result the store cannot take (a unit it does not know) is nothing stored.
+            self.skip(night, frame, "store", str(exc))
+            return
+        for stage, reason in result.problems:
+            night.skipped.append(Skipped(frame, stage, reason))
+            log.info("%s/%s [%s]: %s", night.name, frame, stage, reason)
+        if stored is None:
+            night.kept += 1
+            log.info("%s/%s: not measured this time; its earlier results are kept", night.name,
+                     frame)
+        elif not any(stage == "calibration" for stage, _ in result.problems):
+            night.measured += 1
+
+    def _export(self, night):
+        folder = self.run.results / night.name
+        for table in NIGHT_TABLES:
+            data = self.run.store.export_table(table, night=night.name)
+            path = folder / f"{table}.ecsv"
+            if len(data) == 0 and _holds_rows(path):
+                # never write an empty table over a file that holds rows
+                log.info("%s: left as it was (the store has no rows for it)", path)
+                continue
+            night.outputs.append(str(write_export(data, path)))
+
+
+def _stem(path):
+    base = os.path.basename(str(path))
+    for ending in (".fz", ".gz", ".fits", ".fit", ".fts"):
+        if base.lower().endswith(ending):
+            base = base[: -len(ending)]
+    return base
+
+
+def _holds_rows(path):
+    """Whether an ECSV file exists and holds at least one data row."""
+    try:
+        with open(path, encoding="utf-8") as handle:
+            lines = [line for line in handle if line.strip() and not line.startswith("#")]
+    except (OSError, UnicodeDecodeError):
+        return False
+    return len(lines) > 1  # the header line, then rows
+
+
+def write_export(table, path):
+    """Write an exported table (ECSV, atomically); return its path."""
+    from photpipe.store import write_table_atomic
+
+    return write_table_atomic(table, path)

@@ -1,0 +1,40 @@
+"""The activity step: the Afρ column it follows and the within-night search in activity.json."""
+
+import json
+
+import numpy as np
+from astropy import units as u
+
+from photpipe.activity.synthetic import simulate_campaign_tables
+from photpipe.campaign.activity_step import run_activity_stage
+
+CONFIG = {"activity": {"perihelion_time": "2027-01-01T00:00:00"}}
+
+
+def _measurements(with_coma):
+    meas, _, _ = simulate_campaign_tables(seed=2, frames_per_night=10, frame_spacing_h=0.25)
+    if with_coma:
+        # coma alone: 80 % of the total (invented); one row without a nucleus fit
+        meas["a0frho_coma_cm"] = 0.8 * meas["a0frho_cm"]
+        meas["a0frho_coma_err_cm"] = 0.8 * meas["a0frho_err_cm"]
+        meas["a0frho_coma_cm"][0] = np.nan * u.cm
+    return meas
+
+
+def test_coma_only_by_default_with_the_fallback_counted(tmp_path):
+    out = run_activity_stage(CONFIG, _measurements(True), tmp_path)
+    payload = json.loads((tmp_path / "activity.json").read_text())
+    assert payload["afrho_column"] == "a0frho_coma_cm"
+    assert payload["rows_total_light"] == 1
+    assert any("total light's Afρ is used" in n for n in out.notes)
+    assert payload["outbursts_within_night"] == []
+    assert payload["within_night_search"]["n_nights_searched"] == 19
+    assert "inside a night" in out.summary
+
+
+def test_total_light_when_no_coma_column(tmp_path):
+    meas = _measurements(False)
+    out = run_activity_stage(CONFIG, meas, tmp_path)
+    payload = json.loads((tmp_path / "activity.json").read_text())
+    assert payload["rows_total_light"] == len(meas)
+    assert out.night_outbursts is not None
