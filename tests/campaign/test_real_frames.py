@@ -13,7 +13,7 @@ import pytest
 from astropy.io import fits
 from astropy.table import QTable
 
-from photpipe.campaign import CampaignStore
+from photpipe.store import CampaignStore
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.config import load_config
 from photpipe.scenario.header_styles import restyle_night
