@@ -18,6 +18,7 @@ import logging
 import os
 import pickle
 import sys
+import threading
 import time
 import traceback
 import warnings
@@ -172,6 +173,7 @@ class TaskRunner:
         self.bytes_received = 0
         self._client = None
         self._cluster = None
+        self._starting = None      # (thread, [exception]) while start_soon's start runs
 
     @property
     def peak_memory_mb(self):
@@ -198,8 +200,17 @@ class TaskRunner:
     def open(self):
         """Start the local cluster or connect to the scheduler (no-op for ``workers=0``).
 
-        Called by the first :meth:`map` that has tasks; call it yourself to fail early.
+        Called by the first :meth:`map` that has tasks; call it yourself to fail early. After
+        :meth:`start_soon`, waits for that start to finish (and raises what it raised).
         """
+        if self._starting is not None:
+            thread, errors = self._starting
+            waited = time.perf_counter()
+            thread.join()
+            self._starting = None
+            self.start_seconds += time.perf_counter() - waited
+            if errors:
+                raise errors[0]
         if self._client is not None or (self.scheduler is None and self.workers == 0):
             return
         started = time.perf_counter()
@@ -207,6 +218,28 @@ class TaskRunner:
             self._connect()
         finally:
             self.start_seconds += time.perf_counter() - started
+
+    def start_soon(self):
+        """Begin starting the local worker processes in the background, and return at once.
+
+        The caller goes on with its own serial work (the night's master calibrations) while the
+        processes start; the next :meth:`open` or :meth:`map` waits for them. ``start_seconds``
+        then counts only the time spent waiting. No-op for ``workers=0``, for an existing
+        scheduler (connecting is quick) and when already started.
+        """
+        if (self._client is not None or self._starting is not None or self.scheduler is not None
+                or self.workers == 0):
+            return
+        errors = []
+
+        def start():
+            try:
+                self._connect()
+            except Exception as exc:  # noqa: BLE001 - raised again by open(), in the caller
+                errors.append(exc)
+        thread = threading.Thread(target=start, name="photpipe-workers-start", daemon=True)
+        self._starting = (thread, errors)
+        thread.start()
 
     def _connect(self):
         import dask
@@ -239,6 +272,9 @@ class TaskRunner:
 
     def close(self):
         """Close the client and the local cluster it started."""
+        if self._starting is not None:
+            self._starting[0].join()
+            self._starting = None
         if self._client is not None:
             self._client.close()
             self._client = None
@@ -289,7 +325,8 @@ class TaskRunner:
     def _outcomes(self, func, items, shared):
         if not items:
             return
-        if self._client is None and self.scheduler is None and self.workers == 0:
+        if self._client is None and self._starting is None and self.scheduler is None \
+                and self.workers == 0:
             for item in items:
                 yield item, _guarded(func, item, shared)
             return

@@ -9,6 +9,7 @@ electron**2) and ``QUALITY`` (uint16 `Quality` bits).
 import os
 import textwrap
 import warnings
+from urllib.parse import quote, unquote
 
 import numpy as np
 from astropy import units as u
@@ -20,16 +21,43 @@ from ._fitsfile import open_image, write_atomic
 from .errors import FrameError
 from .types import CalibratedFrame, FrameInfo, Quality
 
-__all__ = ["write_calibrated", "read_calibrated"]
+__all__ = ["write_calibrated", "read_calibrated", "card_text", "text_from_card"]
 
 _DROP = {"SIMPLE", "EXTEND", "BITPIX", "NAXIS", "NAXIS1", "NAXIS2", "NAXIS3", "BZERO", "BSCALE",
          "XTENSION", "PCOUNT", "GCOUNT", "EXTNAME", "CHECKSUM", "DATASUM", "BLANK"}
 _PREFIX, _CONT = "photpipe: ", "... "
 
 
+#: Printable ASCII left as it is in card text; everything else (and "%") is percent-encoded.
+_CARD_SAFE = "".join(chr(c) for c in range(32, 127) if chr(c) != "%")
+
+
+def card_text(text):
+    """An ASCII form of ``text`` that a FITS card can hold, undone by `text_from_card`.
+
+    FITS header values and HISTORY text are printable ASCII only (FITS Standard 4.0, Pearson
+    et al. 2016, sect. 4.2.1), while folders may be named in any script. Every other character,
+    and ``%`` itself, becomes the percent-encoding of its UTF-8 bytes (RFC 3986, sect. 2.1), so
+    ASCII text without ``%`` is unchanged.
+
+    Examples
+    --------
+    >>> card_text("nights/2026-12-01 Lyon-Été/sci_0001.fits")
+    'nights/2026-12-01 Lyon-%C3%89t%C3%A9/sci_0001.fits'
+    >>> text_from_card(card_text("Kometen/Nacht 3/100%.fits"))
+    'Kometen/Nacht 3/100%.fits'
+    """
+    return quote(str(text), safe=_CARD_SAFE)
+
+
+def text_from_card(text):
+    """The text given to `card_text`, back from its card."""
+    return unquote(str(text))
+
+
 def _history_cards(header, history):
     for entry in history:
-        lines = textwrap.wrap(str(entry), 60) or [""]
+        lines = textwrap.wrap(card_text(entry), 60) or [""]
         header.add_history(_PREFIX + lines[0])
         for line in lines[1:]:
             header.add_history(_CONT + line)
@@ -43,7 +71,7 @@ def _history_from(header):
             out.append(text[len(_PREFIX):])
         elif text.startswith(_CONT) and out:
             out[-1] += " " + text[len(_CONT):]
-    return out
+    return [text_from_card(entry) for entry in out]
 
 
 def write_calibrated(frame, path):
@@ -89,7 +117,7 @@ def write_calibrated(frame, path):
         if not str(text).startswith((_PREFIX, _CONT)):
             primary.add_history(str(text))
     primary["PPKIND"] = ("calibrated", "photpipe product")
-    primary["PPRAW"] = (info.path, "raw frame")
+    primary["PPRAW"] = (card_text(info.path), "raw frame")
     primary["PPTYPE"] = (info.kind, "frame kind")
     mid = info.time_mid.utc
     primary["PPTMID"] = (mid.isot, "mid-exposure time (UTC)")
@@ -102,7 +130,7 @@ def write_calibrated(frame, path):
     sat = info.saturation.to_value(u.adu)
     primary["SATURATE"] = (sat if np.isfinite(sat) else -1.0, "[adu] raw saturation level")
     primary["XBINNING"], primary["YBINNING"] = (int(b) for b in info.binning)
-    primary["OBJECT"] = info.object_name
+    primary["OBJECT"] = card_text(info.object_name)
     primary["PPFLAGS"] = (",".join(frame.flags), "calibration flags")
     _history_cards(primary, frame.history)
 
@@ -148,7 +176,7 @@ def read_calibrated(path):
             raise FrameError(path, f"calibrated frame is damaged ({exc})") from exc
     sat = float(primary.get("SATURATE", -1.0))
     info = FrameInfo(
-        path=primary["PPRAW"], kind=primary.get("PPTYPE", "science"),
+        path=text_from_card(primary["PPRAW"]), kind=primary.get("PPTYPE", "science"),
         time_mid=(Time(primary["PPJD1"], primary["PPJD2"], format="jd", scale="utc")
                   if "PPJD1" in primary else Time(primary["PPTMID"], format="isot", scale="utc")),
         exptime=float(primary["EXPTIME"]) * u.s, filter=primary.get("FILTER") or None,
@@ -156,7 +184,8 @@ def read_calibrated(path):
         read_noise=float(primary["RDNOISE"]) * u.electron,
         saturation=(sat if sat >= 0 else np.inf) * u.adu,
         binning=(int(primary.get("XBINNING", 1)), int(primary.get("YBINNING", 1))),
-        shape=tuple(data.shape), object_name=str(primary.get("OBJECT", "")), header=primary)
+        shape=tuple(data.shape), object_name=text_from_card(primary.get("OBJECT", "")),
+        header=primary)
     wcs = None
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", FITSFixedWarning)

@@ -25,6 +25,24 @@ def _disk(radius):
     return x**2 + y**2 <= radius**2
 
 
+def _grown_around(mask, radius):
+    """``mask`` dilated by a disk of ``radius``, worked only in boxes around its pixels.
+
+    Equal to `scipy.ndimage.binary_dilation` of the whole frame with the same disk; each
+    8-connected group of ``mask`` is dilated inside its bounding box widened by ``radius``, so
+    the cost follows the saturated area rather than the frame.
+    """
+    out = np.zeros(mask.shape, dtype=bool)
+    labels, _ = ndimage.label(mask, structure=np.ones((3, 3), bool))
+    disk = _disk(radius)
+    ny, nx = mask.shape
+    for box in ndimage.find_objects(labels):
+        y0, y1 = max(box[0].start - radius, 0), min(box[0].stop + radius, ny)
+        x0, x1 = max(box[1].start - radius, 0), min(box[1].stop + radius, nx)
+        out[y0:y1, x0:x1] |= ndimage.binary_dilation(mask[y0:y1, x0:x1], structure=disk)
+    return out
+
+
 def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ratio=0.2,
                   **options):
     """Cosmic-ray hits by Laplacian edge detection (L.A.Cosmic, van Dokkum 2001).
@@ -78,15 +96,16 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ra
     ignore = np.asarray(ignore, bool)
     if saturated is not None and np.any(saturated):
         # the steep wings around a saturated core look sharp to the Laplacian: leave them out
-        ignore = ignore | ndimage.binary_dilation(saturated, structure=_disk(_SATURATED_GROW))
+        ignore = ignore | _grown_around(np.asarray(saturated, bool), _SATURATED_GROW)
     bad = ignore | ~np.isfinite(data) | ~np.isfinite(variance)
-    clean = np.where(bad, 0.0, data)
-    var = np.where(bad, float(read_noise) ** 2, variance)
     # mirror the frame past its edges so a star cut by the edge keeps both of its flanks
-    clean = np.pad(clean, pad, mode="symmetric").astype(np.float32)
-    var = np.pad(var, pad, mode="symmetric").astype(np.float32)
+    clean = np.pad(np.where(bad, np.float32(0.0), np.asarray(data, np.float32)), pad,
+                   mode="symmetric")
+    var = np.pad(np.where(bad, np.float32(float(read_noise) ** 2),
+                          np.asarray(variance, np.float32)), pad, mode="symmetric")
     padmask = np.pad(bad, pad, mode="symmetric")
-    mask = laplacian_cosmics(clean, var, padmask, **opts)
+    mask = laplacian_cosmics(clean, var, padmask, overwrite_input=True, **opts)
+    del clean, var
     mask = mask[pad:-pad, pad:-pad] if pad else mask
     mask &= ~bad
     if star_ratio is not None and star_ratio > 0:
@@ -99,14 +118,17 @@ def _drop_star_like(mask, data, ratio):
     labels, n = ndimage.label(mask, structure=np.ones((3, 3), bool))
     if n == 0:
         return mask
-    ny, nx = data.shape
-    peaks = ndimage.maximum_position(np.nan_to_num(data, nan=-np.inf), labels, range(1, n + 1))
     keep = np.ones(n + 1, bool)
-    for k, (y, x) in enumerate(peaks, 1):
-        box = data[max(0, y - 4):y + 5, max(0, x - 4):x + 5]
+    for k, box in enumerate(ndimage.find_objects(labels), 1):
+        # the group's brightest pixel, searched in its own box (the first one on a tie, as
+        # scipy's maximum_position gives)
+        values = np.where(labels[box] == k, np.nan_to_num(data[box], nan=-np.inf), -np.inf)
+        dy, dx = np.unravel_index(np.argmax(values), values.shape)
+        y, x = box[0].start + dy, box[1].start + dx
+        around = data[max(0, y - 4):y + 5, max(0, x - 4):x + 5]
         ring = data[max(0, y - 1):y + 2, max(0, x - 1):x + 2].ravel().tolist()
         ring.remove(data[y, x])
-        background = np.nanmedian(box)
+        background = np.nanmedian(around)
         excess = data[y, x] - background
         neighbours = np.nanmedian(ring) - background if np.isfinite(ring).any() else 0.0
         if excess > 0 and neighbours >= ratio * excess:

@@ -19,6 +19,7 @@ from scipy import ndimage
 from photpipe._records import Skipped
 
 from ._fitsfile import RowReader, open_image, read_image, write_atomic
+from .calibrated_io import card_text
 from .combine import COMBINE_METHODS
 from .errors import FrameError
 from .plan import choose_calibrations, describe_key
@@ -218,9 +219,9 @@ def _provenance(kind, key, members, *, method, sigma, maxiters, rejected, gain, 
     for card in extra:
         hdr[card[0]] = card[1:]
     for i, m in enumerate(members, 1):
-        hdr[f"SRC{i:04d}"] = (os.path.basename(m.path), "input frame")
+        hdr[f"SRC{i:04d}"] = (card_text(os.path.basename(m.path)), "input frame")
     for m in members:
-        hdr.add_history(f"input: {m.path}")
+        hdr.add_history(card_text(f"input: {m.path}"))
     return hdr
 
 
@@ -325,155 +326,203 @@ def build_masters(plan, out_dir, *, method="clipped_mean", sigma=3.0, maxiters=5
         raise ValueError(msg)
     out_dir = os.fspath(out_dir)
     os.makedirs(out_dir, exist_ok=True)
-    opts = dict(method=method, sigma=sigma, maxiters=maxiters)
+    o = _Options(out_dir, dict(method=method, sigma=sigma, maxiters=maxiters), block_rows,
+                 block_bytes, hot_sigma, low_flat, bad_flat_deviation)
     skipped, built = [], []
+    bias_data = _bias_masters(plan, o, built, skipped)
+    dark_data = _dark_masters(plan, o, bias_data, built, skipped)
+    _flat_masters(plan, o, bias_data, dark_data, built, skipped)
+    return MasterSet(masters=tuple(built), skipped=skipped, require_dark=plan.require_dark)
+
+
+@dataclass(frozen=True)
+class _Options:
+    """What every master of one `build_masters` call shares."""
+
+    out_dir: str
+    combine: dict           # method, sigma, maxiters
+    block_rows: int | None
+    block_bytes: int
+    hot_sigma: float
+    low_flat: float
+    bad_flat_deviation: float
+
+    def rows(self, n_frames, key):
+        """Rows per block for a group of ``n_frames`` frames of the key's shape."""
+        return _auto_block_rows(n_frames, key[2][1], self.block_rows, self.block_bytes)
+
+    def write(self, kind, key, members, header, value, variance, quality):
+        """Write one master file; its `MasterFrame`."""
+        path = os.path.join(self.out_dir, _file_name(key))
+        _write_master(path, header, value, variance, quality)
+        return MasterFrame(kind, key, path, len(members))
+
+
+def _build_bias(members, key, o):
+    """Master bias (adu) of one group: clipped combination of the raw frames."""
+    gain, rdn, _ = _detector(members)
+    var1 = (rdn / gain) ** 2
+
+    def noise(c, r0, r1):
+        return np.full_like(c, var1)
+    value, n_used, rej, factor = _combine_rows(
+        members, key[2], lambda i, r0, r1, raw: raw, noise, block_rows=o.rows(len(members), key),
+        **o.combine)
+    variance = factor * var1 / np.maximum(n_used, 1)
+    quality = _nonfinite_quality(value)
+    hdr = _provenance("bias", key, members, rejected=rej, gain=gain, rdn=rdn, **o.combine)
+    return (o.write("bias", key, members, hdr, value, variance, quality),
+            MasterData(value, variance, quality))
+
+
+def _bias_masters(plan, o, built, skipped):
+    """Every bias group's master; their data by (binning, shape)."""
     bias_data = {}
-
     for key, members in plan.bias_groups.items():
-        def build_bias(members, key=key):
-            gain, rdn, _ = _detector(members)
-            rows = _auto_block_rows(len(members), key[2][1], block_rows, block_bytes)
-            var1 = (rdn / gain) ** 2
-
-            def noise(c, r0, r1):
-                return np.full_like(c, var1)
-            value, n_used, rej, factor = _combine_rows(
-                members, key[2], lambda i, r0, r1, raw: raw, noise, block_rows=rows, **opts)
-            variance = factor * var1 / np.maximum(n_used, 1)
-            quality = _nonfinite_quality(value)
-            hdr = _provenance("bias", key, members, rejected=rej, gain=gain, rdn=rdn, **opts)
-            path = os.path.join(out_dir, _file_name(key))
-            _write_master(path, hdr, value, variance, quality)
-            return MasterFrame("bias", key, path, len(members)), MasterData(value, variance,
-                                                                            quality)
-        result = _with_retries("bias", key, members, build_bias, skipped)
+        result = _with_retries("bias", key, members,
+                               functools.partial(_build_bias, key=key, o=o), skipped)
         if result is not None:
             built.append(result[0])
             bias_data[key[1:3]] = result[1]
+    return bias_data
 
+
+def _build_dark(members, key, bias, o):
+    """Master dark-current rate (adu/s) of one group, HOT pixels flagged."""
+    gain, rdn, sat = _detector(members)
+    t = key[3] / 1000.0
+
+    def prepare(i, r0, r1, raw):
+        out = raw - bias.value[r0:r1]
+        out[raw >= sat] = np.nan
+        return out
+
+    def noise(c, r0, r1):
+        return (gain * np.maximum(c, 0.0) + rdn**2) / gain**2
+    value, n_used, rej, factor = _combine_rows(members, key[2], prepare, noise,
+                                               block_rows=o.rows(len(members), key),
+                                               **o.combine)
+    variance = (factor * noise(value, 0, 0) / np.maximum(n_used, 1) + bias.variance) / t**2
+    rate = value / t
+    quality = _nonfinite_quality(rate) | bias.quality
+    med, _ = _robust_center_scale(rate)
+    with np.errstate(invalid="ignore"):
+        hot = (rate - med) > o.hot_sigma * np.sqrt(variance)
+    quality[hot] |= np.uint16(Quality.HOT)
+    extra = [("NHOT", int(hot.sum()), "pixels flagged HOT"),
+             ("DARKRATE", med * gain, "[electron/s] median dark-current rate")]
+    hdr = _provenance("dark", key, members, rejected=rej, gain=gain, rdn=rdn, extra=extra,
+                      **o.combine)
+    return (o.write("dark", key, members, hdr, rate, variance, quality),
+            MasterData(rate, variance, quality))
+
+
+def _dark_masters(plan, o, bias_data, built, skipped):
+    """Every dark group's master (those with a bias and an exposure); their data by key."""
     dark_data = {}
     for key, members in plan.dark_groups.items():
         bias = bias_data.get(key[1:3])
-        t = key[3] / 1000.0
-        if bias is None or t <= 0:
+        if bias is None or key[3] <= 0:
             why = "its bias master could not be built" if bias is None else \
                 "exposure time is zero, no dark-current rate can be measured"
             skipped += [Skipped(m.path, "masters", f"dark not used: {why}") for m in members]
             continue
-
-        def build_dark(members, key=key, bias=bias, t=t):
-            gain, rdn, sat = _detector(members)
-            rows = _auto_block_rows(len(members), key[2][1], block_rows, block_bytes)
-
-            def prepare(i, r0, r1, raw):
-                out = raw - bias.value[r0:r1]
-                out[raw >= sat] = np.nan
-                return out
-
-            def noise(c, r0, r1):
-                return (gain * np.maximum(c, 0.0) + rdn**2) / gain**2
-            value, n_used, rej, factor = _combine_rows(members, key[2], prepare, noise,
-                                                       block_rows=rows, **opts)
-            variance = (factor * noise(value, 0, 0) / np.maximum(n_used, 1)
-                        + bias.variance) / t**2
-            rate = value / t
-            quality = _nonfinite_quality(rate) | bias.quality
-            med, _ = _robust_center_scale(rate)
-            with np.errstate(invalid="ignore"):
-                hot = (rate - med) > hot_sigma * np.sqrt(variance)
-            quality[hot] |= np.uint16(Quality.HOT)
-            extra = [("NHOT", int(hot.sum()), "pixels flagged HOT"),
-                     ("DARKRATE", med * gain, "[electron/s] median dark-current rate")]
-            hdr = _provenance("dark", key, members, rejected=rej, gain=gain, rdn=rdn,
-                              extra=extra, **opts)
-            path = os.path.join(out_dir, _file_name(key))
-            _write_master(path, hdr, rate, variance, quality)
-            return MasterFrame("dark", key, path, len(members)), MasterData(rate, variance,
-                                                                            quality)
-        result = _with_retries("dark", key, members, build_dark, skipped)
+        result = _with_retries("dark", key, members,
+                               functools.partial(_build_dark, key=key, bias=bias, o=o), skipped)
         if result is not None:
             built.append(result[0])
             dark_data[key] = result[1]
+    return dark_data
 
+
+def _flat_level(info, key, bias, dark_data):
+    """A flat frame's level after bias and dark removal: (level adu, dark used, exposure s)."""
+    choice, _ = choose_calibrations(info, [("bias",) + key[1:3]], list(dark_data), [],
+                                    flat_field=False)
+    dark = None if choice.dark is None else dark_data[choice.dark]
+    t = info.exptime.to_value(u.s)
+    raw = read_image(info.path)
+    sat = info.saturation.to_value(u.adu)
+    frac = float(np.mean(raw >= sat))
+    if frac > 0.01:
+        raise FrameError(info.path, f"flat is saturated: {100 * frac:.1f}% of pixels "
+                                    f"at or above {sat:g} adu")
+    x = raw - bias.value
+    if dark is not None:
+        x -= dark.value * t
+    level = float(np.nanmedian(x[::4, ::4]))
+    if not level > 0:
+        raise FrameError(info.path, f"flat level after bias and dark removal is "
+                                    f"{level:.1f} adu; no light")
+    return level, dark, t
+
+
+def _flat_quality(value, bias, o):
+    """Quality of a normalised flat: non-finite, LOW_FLAT and BAD (odd against neighbours)."""
+    quality = _nonfinite_quality(value) | bias.quality
+    with np.errstate(invalid="ignore"):
+        low = ~(value >= o.low_flat) & np.isfinite(value)
+        quality[low] |= np.uint16(Quality.LOW_FLAT)
+        local = ndimage.median_filter(np.nan_to_num(value, nan=0.0), size=5, mode="nearest")
+        odd = np.abs(value - local) > o.bad_flat_deviation * np.abs(local)
+        quality[odd] |= np.uint16(Quality.BAD)
+    return quality
+
+
+def _build_flat(members, key, bias, dark_data, o):
+    """Master flat of one group, normalised to its median."""
+    gain, rdn, sat = _detector(members)
+    levels = [_flat_level(m, key, bias, dark_data) for m in members]
+    mean_level = float(np.mean([lv[0] for lv in levels]))
+
+    def prepare(i, r0, r1, raw):
+        level, dark, t = levels[i]
+        out = raw - bias.value[r0:r1]
+        if dark is not None:
+            out -= dark.value[r0:r1] * t
+        out /= level
+        out[raw >= sat] = np.nan
+        return out
+
+    def noise(c, r0, r1):
+        return (gain * mean_level * np.maximum(c, 0.0) + rdn**2) / (gain * mean_level)**2
+    value, n_used, rej, factor = _combine_rows(members, key[2], prepare, noise,
+                                               block_rows=o.rows(len(members), key),
+                                               **o.combine)
+    variance = factor * noise(value, 0, 0) / np.maximum(n_used, 1)
+    variance += bias.variance / mean_level**2
+    darks = [lv for lv in levels if lv[1] is not None]
+    if darks:
+        t_mean = float(np.mean([lv[2] for lv in darks]))
+        variance += darks[0][1].variance * (t_mean / mean_level) ** 2
+    norm, _ = _robust_center_scale(value)
+    if not norm > 0:
+        raise FrameError(members[0].path, "combined flat has no positive level")
+    value /= norm
+    variance /= norm**2
+    quality = _flat_quality(value, bias, o)
+    extra = [("NORMLEVL", norm, "median of the combination before normalising"),
+             ("LOWFLAT", float(o.low_flat), "response below this is LOW_FLAT"),
+             ("NLOWFLAT", int(np.count_nonzero(quality & Quality.LOW_FLAT)),
+              "pixels flagged LOW_FLAT"),
+             ("DARKUSED", bool(darks), "dark current removed from the flats")]
+    hdr = _provenance("flat", key, members, rejected=rej, gain=gain, rdn=rdn, extra=extra,
+                      **o.combine)
+    for i, lv in enumerate(levels, 1):
+        hdr[f"LVL{i:04d}"] = (round(lv[0], 3), f"[adu] level of SRC{i:04d}")
+    return o.write("flat", key, members, hdr, value, variance, quality), None
+
+
+def _flat_masters(plan, o, bias_data, dark_data, built, skipped):
+    """Every flat group's master (those with a bias)."""
     for key, members in plan.flat_groups.items():
         bias = bias_data.get(key[1:3])
         if bias is None:
             skipped += [Skipped(m.path, "masters", "flat not used: its bias master could not "
                                 "be built") for m in members]
             continue
-        dark_keys = list(dark_data)
-
-        def level_of(info, bias=bias, dark_keys=dark_keys):
-            choice, _ = choose_calibrations(info, [("bias",) + key[1:3]], dark_keys, [],
-                                            flat_field=False)
-            dark = None if choice.dark is None else dark_data[choice.dark]
-            t = info.exptime.to_value(u.s)
-            raw = read_image(info.path)
-            sat = info.saturation.to_value(u.adu)
-            frac = float(np.mean(raw >= sat))
-            if frac > 0.01:
-                raise FrameError(info.path, f"flat is saturated: {100 * frac:.1f}% of pixels "
-                                            f"at or above {sat:g} adu")
-            x = raw - bias.value
-            if dark is not None:
-                x -= dark.value * t
-            level = float(np.nanmedian(x[::4, ::4]))
-            if not level > 0:
-                raise FrameError(info.path, f"flat level after bias and dark removal is "
-                                            f"{level:.1f} adu; no light")
-            return level, dark, t
-
-        def build_flat(members, key=key, bias=bias):
-            gain, rdn, sat = _detector(members)
-            levels = [level_of(m) for m in members]
-            mean_level = float(np.mean([lv[0] for lv in levels]))
-            rows = _auto_block_rows(len(members), key[2][1], block_rows, block_bytes)
-
-            def prepare(i, r0, r1, raw):
-                level, dark, t = levels[i]
-                out = raw - bias.value[r0:r1]
-                if dark is not None:
-                    out -= dark.value[r0:r1] * t
-                out /= level
-                out[raw >= sat] = np.nan
-                return out
-
-            def noise(c, r0, r1):
-                return (gain * mean_level * np.maximum(c, 0.0) + rdn**2) / (gain * mean_level)**2
-            value, n_used, rej, factor = _combine_rows(members, key[2], prepare, noise,
-                                                       block_rows=rows, **opts)
-            variance = factor * noise(value, 0, 0) / np.maximum(n_used, 1)
-            variance += bias.variance / mean_level**2
-            darks = [lv for lv in levels if lv[1] is not None]
-            if darks:
-                t_mean = float(np.mean([lv[2] for lv in darks]))
-                variance += darks[0][1].variance * (t_mean / mean_level) ** 2
-            norm, _ = _robust_center_scale(value)
-            if not norm > 0:
-                raise FrameError(members[0].path, "combined flat has no positive level")
-            value /= norm
-            variance /= norm**2
-            quality = _nonfinite_quality(value) | bias.quality
-            with np.errstate(invalid="ignore"):
-                low = ~(value >= low_flat) & np.isfinite(value)
-                quality[low] |= np.uint16(Quality.LOW_FLAT)
-                local = ndimage.median_filter(np.nan_to_num(value, nan=0.0), size=5,
-                                              mode="nearest")
-                odd = np.abs(value - local) > bad_flat_deviation * np.abs(local)
-                quality[odd] |= np.uint16(Quality.BAD)
-            extra = [("NORMLEVL", norm, "median of the combination before normalising"),
-                     ("LOWFLAT", float(low_flat), "response below this is LOW_FLAT"),
-                     ("NLOWFLAT", int(np.count_nonzero(quality & Quality.LOW_FLAT)),
-                      "pixels flagged LOW_FLAT"),
-                     ("DARKUSED", bool(darks), "dark current removed from the flats")]
-            hdr = _provenance("flat", key, members, rejected=rej, gain=gain, rdn=rdn,
-                              extra=extra, **opts)
-            for i, lv in enumerate(levels, 1):
-                hdr[f"LVL{i:04d}"] = (round(lv[0], 3), f"[adu] level of SRC{i:04d}")
-            path = os.path.join(out_dir, _file_name(key))
-            _write_master(path, hdr, value, variance, quality)
-            return MasterFrame("flat", key, path, len(members)), None
-        result = _with_retries("flat", key, members, build_flat, skipped)
+        result = _with_retries("flat", key, members,
+                               functools.partial(_build_flat, key=key, bias=bias,
+                                                 dark_data=dark_data, o=o), skipped)
         if result is not None:
             built.append(result[0])
-    return MasterSet(masters=tuple(built), skipped=skipped, require_dark=plan.require_dark)

@@ -31,6 +31,8 @@ from .locate import *  # noqa: F401,F403
 from .locate import __all__ as _locate_all
 from .measure import *  # noqa: F401,F403
 from .measure import __all__ as _measure_all
+from .options import *  # noqa: F401,F403
+from .options import __all__ as _options_all
 from .phase_linear import *  # noqa: F401,F403
 from .phase_linear import __all__ as _phase_linear_all
 from .phase_schleicher_marcus import *  # noqa: F401,F403
@@ -74,6 +76,7 @@ __all__ = (
     _frame_solve_all +
     _locate_all +
     _measure_all +
+    _options_all +
     _phase_linear_all +
     _phase_schleicher_marcus_all +
     _phase_table_all +

@@ -69,26 +69,37 @@ def azimuthal_median_model(data, good, x0, y0, *, width=2.0, min_pixels=8):
         raise ValueError(msg)
     data = np.asarray(data)
     ny, nx = data.shape
-    yy, xx = np.mgrid[:ny, :nx]
-    rho = np.hypot(xx - float(x0), yy - float(y0))
     ok = np.asarray(good, bool) & np.isfinite(data)
     step = max(1, int(np.ceil(np.sqrt(np.count_nonzero(ok) / _MAX_PIXELS))))
-    sub = np.zeros(ok.shape, bool)
-    sub[::step, ::step] = True
-    ok &= sub
-    ring = (rho[ok] / width).astype(np.int64)
-    values = data[ok].astype(np.float64)
-    order = np.argsort(ring, kind="stable")
-    ring, values, r_used = ring[order], values[order], rho[ok][order]
-    n_ring = int(ring.max()) + 1 if ring.size else 0
-    bounds = np.searchsorted(ring, np.arange(n_ring + 1))
-    centres, medians = [], []
-    for k in range(n_ring):
-        lo, hi = bounds[k], bounds[k + 1]
-        if hi - lo >= min_pixels:
-            centres.append(float(np.median(r_used[lo:hi])))
-            medians.append(float(np.median(values[lo:hi])))
-    if not centres:
+    rows, cols = np.arange(0, ny, step), np.arange(0, nx, step)
+    rho_sub = np.hypot(cols[None, :] - float(x0), rows[:, None] - float(y0))
+    ok_sub = ok[::step, ::step]
+    r_used = rho_sub[ok_sub]
+    values = data[::step, ::step][ok_sub].astype(np.float64)
+    ring = (r_used / width).astype(np.int64)
+    centres, medians = _ring_medians(ring, r_used, values, min_pixels)
+    if not centres.size:
         msg = f"no ring of width {width} pix about ({x0:.1f}, {y0:.1f}) has {min_pixels} pixels"
         raise ValueError(msg)
-    return np.interp(rho, np.asarray(centres), np.asarray(medians))
+    rho = np.hypot(np.arange(nx)[None, :] - float(x0), np.arange(ny)[:, None] - float(y0))
+    return np.interp(rho, centres, medians)
+
+
+def _ring_medians(ring, radius, values, min_pixels):
+    """Median radius and median value of each ring holding at least ``min_pixels`` pixels."""
+    if not ring.size:
+        return np.zeros(0), np.zeros(0)
+    counts = np.bincount(ring)
+    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    full = np.flatnonzero(counts >= min_pixels)
+    lo = starts[full] + (counts[full] - 1) // 2
+    hi = starts[full] + counts[full] // 2
+
+    # sorting by radius sorts by ring too (ring = floor(radius / width))
+    by_radius = np.sort(radius)
+    # values sorted by ring, then by value: one sort of the ring plus the value scaled into
+    # [0, 1) (float64 keeps ~40 bits of it beside a ring number up to ~10^4)
+    lo_v, span = float(values.min()), float(np.ptp(values))
+    scaled = (values - lo_v) / (span * (1.0 + 1e-9)) if span > 0 else np.zeros(values.size)
+    by_value = values[np.argsort(ring + scaled)]
+    return 0.5 * (by_radius[lo] + by_radius[hi]), 0.5 * (by_value[lo] + by_value[hi])

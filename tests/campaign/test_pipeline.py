@@ -163,7 +163,7 @@ def test_local_cluster_gives_the_same_tables(tmp_path, nights):
         config = _config(folder, nights, ["2026-12-01", "2026-12-02"])
         if kw is None:
             with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                              dashboard_address=None, silence_logs=logging.ERROR) as cluster:
+                              dashboard_address=":0", silence_logs=logging.ERROR) as cluster:
                 run_campaign(config, scheduler=cluster.scheduler_address, progress=False,
                              echo=_quiet)
         else:

@@ -73,11 +73,29 @@ def test_local_cluster_streams_results_and_survives_a_dead_worker():
 
 
 @pytest.mark.slow
+def test_workers_started_in_the_background_run_the_tasks():
+    # start_soon returns at once; the work done meanwhile does not wait for the processes
+    with TaskRunner(workers=1, progress=False) as runner:
+        runner.start_soon()
+        runner.start_soon()                      # a second call starts nothing more
+        local = sum(range(1000))
+        out = dict(runner.map(_toys.add_shared, [1, 2], shared={"offset": local}))
+    assert out == {1: 1 + local, 2: 2 + local}
+    assert runner._client is None and runner._starting is None     # closed
+
+
+def test_start_soon_without_workers_runs_inline():
+    with TaskRunner(workers=0, progress=False) as runner:
+        runner.start_soon()
+        assert [r for _, r in runner.map(abs, [-3])] == [3]
+
+
+@pytest.mark.slow
 def test_existing_scheduler_gives_the_same_results():
     from distributed import LocalCluster
 
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
-                      dashboard_address=None, silence_logs=logging.ERROR) as cluster:
+                      dashboard_address=":0", silence_logs=logging.ERROR) as cluster:
         remote = dict(run_tasks(_toys.fail_on_three, range(5), scheduler=cluster.scheduler_address,
                                 progress=False))
     local = dict(run_tasks(_toys.fail_on_three, range(5), workers=0, progress=False))

@@ -204,7 +204,10 @@ def test_altitude_airmass_and_dark_hours_at_the_site(tmp_path, capsys):
         sun = get_sun(Time(table["time"])).transform_to(frame).alt
     high = alt > 10 * u.deg
     diff = (table["alt_deg"] - alt).to_value(u.deg)[high]
-    assert np.all((diff > 0) & (diff < 0.1))  # refraction lifts, < 6' above 10° (Bennett 1982)
+    # refraction lifts, < 6' above 10° (Bennett 1982); photpipe's geometric altitude is within
+    # 0.01° of AltAz (closed formulas, tests/photometry/test_airmass.py), more than the lift
+    # near the zenith
+    assert np.all((diff > -0.01) & (diff < 0.1))
     np.testing.assert_allclose(table["sun_alt_deg"].to_value(u.deg), sun.to_value(u.deg),
                                atol=1e-4)
     # airmass near sec z high in the sky (Kasten & Young 1989 tends to sec z)

@@ -84,3 +84,29 @@ def test_write_wrong_type(tmp_path):
 def test_mismatched_planes_rejected(frame):
     with pytest.raises(ValueError, match="data, variance and quality planes differ in shape"):
         CalibratedFrame(frame.info, frame.data, frame.variance[:-1], frame.quality)
+
+
+def test_a_night_in_a_non_ascii_folder_is_calibrated_and_written(scenario_night, tmp_path):
+    # FITS cards hold printable ASCII only (FITS Standard 4.0, Pearson et al. 2016, sect.
+    # 4.2.1): the paths go in percent-encoded (RFC 3986, sect. 2.1) and come back exactly
+    import shutil
+
+    from photpipe.frames import build_masters, plan_calibrations, scan_night
+
+    folder = tmp_path / "Nächte" / "2026-12-01 Kiruna–Ost 彗星"
+    folder.mkdir(parents=True)
+    for name in os.listdir(scenario_night["folder"]):
+        if name.endswith((".fits", ".fz")) and not name.startswith(("sci_0002", "sci_0003")):
+            shutil.copy(scenario_night["folder"] / name, folder / name)
+    plan = plan_calibrations(scan_night(folder))
+    masters = build_masters(plan, folder / "masters")
+    frame = calibrate_frame(plan.science[0], masters)
+    path = write_calibrated(frame, folder / "calibrated" / f"{frame.name}.fits")
+    back = read_calibrated(path)
+    assert back.info.path == frame.info.path and "彗星" in back.info.path
+    assert back.history == frame.history
+    with fits.open(path) as hdul:
+        raw = hdul[0].header["PPRAW"]
+        assert raw.isascii() and "%E5%BD%97%E6%98%9F" in raw     # 彗星 in UTF-8
+    with fits.open(masters.masters[0].path) as hdul:
+        assert all(str(text).isascii() for text in hdul[0].header["HISTORY"])

@@ -51,3 +51,18 @@ def test_methods_table():
     assert not find_cosmic_rays(data, data, data < 0, read_noise=1.0, method="none").any()
     with pytest.raises(ValueError, match="cosmic-ray method must be one of"):
         find_cosmic_rays(data, data, data < 0, read_noise=1.0, method="median")
+
+
+def test_saturated_areas_grown_in_boxes_equal_the_whole_frame_dilation():
+    # scipy's binary_dilation over the whole frame is the slow, obviously correct oracle
+    from scipy import ndimage as ndi
+
+    from photpipe.frames.cosmics import _SATURATED_GROW, _disk, _grown_around
+
+    rng = np.random.default_rng(11)
+    mask = np.zeros((90, 120), bool)
+    mask[rng.integers(0, 90, 25), rng.integers(0, 120, 25)] = True
+    mask[0:4, 50:60] = True                      # touching the frame's edges
+    mask[80:90, 110:120] = True
+    expected = ndi.binary_dilation(mask, structure=_disk(_SATURATED_GROW))
+    np.testing.assert_array_equal(_grown_around(mask, _SATURATED_GROW), expected)

@@ -283,3 +283,13 @@ def test_unknown_band_solar_magnitude(standard_frame):
     assert "no_solar_magnitude" in r.flags
     assert np.all(np.isnan(r.comet["afrho_cm"]))
     assert np.all(np.isfinite(r.comet["mag"]))
+
+
+def test_unknown_option_is_named():
+    from photpipe.photometry import MeasureOptions
+
+    with pytest.raises(TypeError, match=r"unknown photometry option\(s\) \['aperture_km'\]"):
+        MeasureOptions.from_keywords(aperture_km=[1000])
+    opts = MeasureOptions.from_keywords(band="V", sky_method="median", min_stars=3)
+    assert (opts.calibration.band, opts.apertures.sky_method, opts.calibration.min_stars) == \
+        ("V", "median", 3)
