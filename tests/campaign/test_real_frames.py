@@ -13,10 +13,10 @@ import pytest
 from astropy.io import fits
 from astropy.table import QTable
 
-from photpipe.store import CampaignStore
 from photpipe.campaign.pipeline import run_campaign
 from photpipe.config import load_config
 from photpipe.scenario.header_styles import restyle_night
+from photpipe.store import CampaignStore
 
 from ._nights import SMALL, render_small_night, write_config
 
