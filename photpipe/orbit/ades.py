@@ -18,8 +18,8 @@ from astropy.time import Time
 
 from photpipe._files import replacing
 
-__all__ = ["AstrometryReading", "read_ades", "write_ades_psv", "write_ades_xml", "ADES_FIELDS",
-           "OBSERVATION_COLUMNS"]
+__all__ = ["AstrometryReading", "read_ades", "write_ades_psv", "write_ades_xml",
+           "write_night_ades", "ADES_FIELDS", "OBSERVATION_COLUMNS"]
 
 #: ADES fields written, in order (identification, then the measurement and its errors).
 ADES_FIELDS = ("permID", "provID", "trkSub", "mode", "stn", "obsTime", "ra", "dec", "rmsRA",
@@ -293,3 +293,17 @@ def write_ades_xml(records, path, *, observatory=None):
     ET.indent(root)
     with replacing(path) as tmp:
         ET.ElementTree(root).write(tmp, encoding="UTF-8", xml_declaration=True)
+
+
+def write_night_ades(records, folder, night, *, observatory=None):
+    """Write one night's records as ``<folder>/<night>_astrometry.psv`` and ``.xml``.
+
+    Returns
+    -------
+    paths : tuple of str
+        The PSV and XML files written.
+    """
+    base = os.path.join(os.fspath(folder), f"{night}_astrometry")
+    write_ades_psv(records, base + ".psv", observatory=observatory)
+    write_ades_xml(records, base + ".xml", observatory=observatory)
+    return base + ".psv", base + ".xml"

@@ -130,7 +130,7 @@ def observe(helio, times, locations):
 
 def synthetic_campaign(seed, *, kind="hyperbolic", a123=(0.0, 0.0, 0.0), n_sites=12,
                        n_obs=240, days=150.0, start="2026-01-20T00:00:00", noise_seed=None,
-                       noise_scale=1.0):
+                       noise_scale=1.0, g_law=water_g):
     """Observations (table as read from ADES), sites and the truth of one synthetic campaign."""
     rng = np.random.default_rng(seed)
     sites = make_sites(rng, n_sites)
@@ -145,7 +145,7 @@ def synthetic_campaign(seed, *, kind="hyperbolic", a123=(0.0, 0.0, 0.0), n_sites
     orbit = truth_orbit(kind)
     jd_mid = float(np.floor((t0 + days / 2 * u.day).tdb.jd - 0.5) + 0.5)
     jd_all = times.tdb.jd
-    helio = integrate_truth(orbit, jd_mid, jd_all.min(), jd_all.max(), a123)
+    helio = integrate_truth(orbit, jd_mid, jd_all.min(), jd_all.max(), a123, g_law)
     ra, dec = observe(helio, times, [sites[s] for s in stn])
     noise = rng if noise_seed is None else np.random.default_rng(noise_seed)
     dra = noise_scale * noise.normal(0, sig) / 3600.0 / np.cos(np.radians(dec))

@@ -2,7 +2,8 @@ import numpy as np
 import pytest
 from astropy.time import Time
 
-from photpipe.orbit.ades import read_ades, write_ades_psv, write_ades_xml
+from photpipe.orbit.ades import read_ades, write_ades_psv, write_ades_xml, write_night_ades
+from photpipe.orbit.astrometry import comet_astrometry_record
 from photpipe.orbit.sites import site_vectors
 
 RECORDS = [
@@ -86,3 +87,28 @@ def test_unknown_site_is_reported(tmp_path):
     assert np.all(np.isnan(xyz[:, 0])) and np.all(np.isfinite(xyz[:, 1]))
     # the record's own WGS84 position: |xyz| is about the Earth's radius (WGS84 ellipsoid)
     assert 6360 < np.linalg.norm(xyz[:, 1]) < 6380
+
+
+def test_frame_records_written_per_night_read_back_with_their_errors(tmp_path):
+    from astropy.wcs import WCS
+
+    w = WCS(naxis=2)
+    w.wcs.ctype = ["RA---TAN", "DEC--TAN"]
+    w.wcs.crval = [150.0, 20.0]
+    w.wcs.crpix = [51, 51]
+    w.wcs.cd = [[-1 / 3600, 0.3 / 3600], [0.3 / 3600, 1 / 3600]]   # sheared: a correlation
+    rec = comet_astrometry_record(60.0, 40.0, xy_err=(0.3, 0.6), wcs=w, wcs_rms_arcsec=0.1,
+                                  time_mid=Time("2026-02-01T03:00:00", scale="utc"),
+                                  station="Z01", object_id="C/2026 Z1", catalogue="Gaia3")
+    # first-order propagation by hand (Bevington & Robinson 2003, Eq. 3.13): J = CD in
+    # arcsec/pix near the tangent point (Greisen & Calabretta 2002, Eq. 1-3)
+    jac = np.array([[-1.0, 0.3], [0.3, 1.0]]) * np.array([[np.cos(np.radians(rec["dec"]))
+                                                            / np.cos(np.radians(20.0))], [1.0]])
+    cov = jac @ np.diag([0.09, 0.36]) @ jac.T + 0.01 * np.eye(2)
+    assert rec["rmsRA"] == pytest.approx(np.sqrt(cov[0, 0]), rel=2e-3)
+    assert rec["rmsDec"] == pytest.approx(np.sqrt(cov[1, 1]), rel=2e-3)
+    psv, xml = write_night_ades([rec], tmp_path, "2026-02-01")
+    for path in (psv, xml):
+        t = read_ades(path).table
+        assert t["rms_corr"][0] == pytest.approx(rec["rmsCorr"], abs=1e-4)
+        assert t["ra_deg"][0] == pytest.approx(rec["ra"], abs=1e-9)

@@ -40,6 +40,22 @@ def test_hyperbolic_orbit_with_known_a1_a2_is_recovered_and_gauss_finds_it_too()
 
 
 @pytest.mark.slow
+def test_inverse_square_law_is_recovered():
+    # CO/CO2-driven activity: g(r) = (1 AU / r)², A1 = 2e-8 AU/day² in the truth
+    a_true = (2e-8, 0.0, 0.0)
+    table, sites, truth = synthetic_campaign(21, a123=a_true, n_obs=160, n_sites=8,
+                                             g_law=lambda r: 1.0 / r**2)
+    sol = fit_orbit(table, sites=sites, elements=truth["orbit"],
+                    epoch=Time(truth["jd_epoch"], format="jd", scale="tdb"),
+                    options=OrbitFitOptions(nongrav=(1, 2), g_law="inverse-square"))
+    ng = sol.nongrav
+    assert ng["law"] == "inverse-square"
+    pulls = (np.array(ng["a_au_d2"]) - np.array(a_true[:2])) / np.array(ng["a_err_au_d2"])
+    assert np.all(np.abs(pulls) < 4.0)
+    assert np.all(np.abs(_element_pulls(sol, truth)) < 4.0)
+
+
+@pytest.mark.slow
 def test_elliptic_orbit_without_forces_gives_a_limit_covering_zero():
     table, sites, truth = synthetic_campaign(11, kind="elliptic", n_obs=160, n_sites=8)
     sol = _fit(table, sites, truth, terms=(1, 2, 3))
