@@ -9,7 +9,8 @@ __all__ = ["file_sha256", "config_hash", "FRAME_SECTIONS"]
 #: Configuration sections that shape a single frame's results. Changing any other section
 #: (the campaign name, the list of nights, the run's workers, the campaign-level stages) does not
 #: make frames measured before count as stale.
-FRAME_SECTIONS = ("frames", "sites", "target", "geometry", "photometry", "nucleus")
+FRAME_SECTIONS = ("frames", "sites", "target", "geometry", "photometry", "nucleus",
+                  "instruments", "filters", "catalogue")
 
 #: Keys naming files whose content, not only whose name, shapes the results.
 _FILE_KEYS = (("target", "ephemeris_table"), ("photometry", "reference_stars"),

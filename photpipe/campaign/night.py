@@ -54,23 +54,42 @@ def night_name(night):
     return os.path.basename(path)
 
 
+def _site_groups(site, infos):
+    """Frames grouped by where they were taken: the header's site, else the night's."""
+    groups = {}
+    for i, info in enumerate(infos):
+        where = info.site if getattr(info, "site", None) is not None else site
+        key = None if where is None else tuple(round(float(v.to_value("m"))) for v in
+                                               where.geocentric)
+        groups.setdefault(key, (where, []))[1].append(i)
+    return list(groups.values())
+
+
 def _night_geometry(config, site, infos):
-    """Geometry rows of the frames seen from ``site``, computed once; (rows, problem, cautions)."""
+    """Geometry rows of the frames, each seen from its own site; (rows, problem, cautions).
+
+    A frame whose header names its site (OBSGEO-*, SITELAT/SITELONG) is seen from there; the
+    others from the night's ``site``. Computed once per site here.
+    """
     if not infos:
         return [], None, []
-    times = Time([info.time_mid for info in infos])
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            table = geometry_at_location(config, site, times)
-        except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
-            return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
-    cautions = sorted({str(w.message) for w in caught
-                       if w.category.__name__ == "SolarElongationWarning"})
-    for w in caught:
-        if w.category.__name__ != "SolarElongationWarning":
-            log.warning("geometry: %s: %s", w.category.__name__, w.message)
-    return [table[i:i + 1] for i in range(len(infos))], None, cautions
+    rows, cautions = [None] * len(infos), set()
+    for where, idx in _site_groups(site, infos):
+        times = Time([infos[i].time_mid for i in idx])
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                table = geometry_at_location(config, where, times)
+            except Exception as exc:  # noqa: BLE001 - no geometry: the night still calibrates
+                return [None] * len(infos), f"{type(exc).__name__}: {exc}", []
+        cautions |= {str(w.message) for w in caught
+                     if w.category.__name__ == "SolarElongationWarning"}
+        for w in caught:
+            if w.category.__name__ != "SolarElongationWarning":
+                log.warning("geometry: %s: %s", w.category.__name__, w.message)
+        for k, i in enumerate(idx):
+            rows[i] = table[k:k + 1]
+    return rows, None, sorted(cautions)
 
 
 class NightRun:
@@ -123,8 +142,14 @@ class NightRun:
             self.skip(night, entry["path"], "ingest", str(exc))
             self.run.echo(f"night {night.name}: {exc}; going on with the other nights")
             return None
-        inventory = frames.scan_night(files, kind_map=self.run.settings.frames.kind_map)
+        settings = self.run.settings
+        inventory = frames.scan_night(files, kind_map=settings.frames.kind_map,
+                                      profiles=settings.instruments,
+                                      night_profile=entry.get("instrument"))
         night.counts = inventory.counts()
+        for note in inventory.notes:
+            self.run.echo(f"night {night.name}: {note}")
+            log.info("night %s: %s", night.name, note)
         for s in inventory.skipped:
             self.skip(night, s.item, s.stage, s.reason)
         counts = ", ".join(f"{n} {k}" for k, n in night.counts.items() if n)
@@ -197,7 +222,10 @@ class NightRun:
                 "nucleus": settings.nucleus.fit_options(),
                 "psf": settings.nucleus.psf_options(), "tracking": settings.nucleus.tracking,
                 "site_location": site,
-                "reference_store": reference.store_path, "reference_problem": reference.problem}
+                "reference_store": reference.store_path, "reference_problem": reference.problem,
+                "filters": settings.filters,
+                "plate_solve": {"mode": settings.photometry.plate_solve,
+                                "max_offset": settings.photometry.plate_max_offset}}
 
     def _measure(self, entry, night, plan, todo, keys, hashes):
         masters = self._masters(night, plan)

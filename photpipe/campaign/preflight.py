@@ -42,6 +42,8 @@ class SharedSettings:
     nucleus: object
     sites: dict
     reference: object
+    instruments: list = ()
+    filters: object = None
 
 
 def _check_geometry(config):
@@ -78,11 +80,17 @@ def check_before_frames(config, results):
     sites = {entry.get("site"): location_for_site(config, entry.get("site"))
              for entry in config["night"]}
     _check_geometry(config)
+    from photpipe.config import read_catalogue_columns, read_filters, read_instruments
+
+    instruments = read_instruments(config)
+    filters = read_filters(config)
+    bands = list(dict.fromkeys([photometry.band] + [e.band for e in filters.entries]))
     store_path = photometry.reference_store or results / DEFAULT_STORE_NAME
     reference = campaign_reference_store(photometry.reference_stars, store_path,
-                                         band=photometry.band, colour=photometry.colour)
+                                         band=photometry.band, colour=photometry.colour,
+                                         bands=bands, columns=read_catalogue_columns(config))
     if reference.problem and photometry.reference_stars is not None:
         msg = f"{config.get('_file', 'configuration')}: [photometry] reference_stars: " \
               f"{reference.problem}"
         raise ConfigError(msg)
-    return SharedSettings(frames, photometry, nucleus, sites, reference)
+    return SharedSettings(frames, photometry, nucleus, sites, reference, instruments, filters)

@@ -44,12 +44,13 @@ class ReferenceSource:
     n_stars: int = 0
 
 
-def _wanted_meta(catalogue, band, colour):
+def _wanted_meta(catalogue, bands, colour, columns):
     return {"source": os.path.abspath(catalogue), "source_sha256": file_sha256(catalogue),
-            "bands": [band], "colour": colour}
+            "bands": list(bands), "colour": colour, "columns": dict(columns or {})}
 
 
-def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, nside=64):
+def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, nside=64,
+                             bands=None, columns=None):
     """Open the campaign's reference-star store, building it from ``catalogue`` when needed.
 
     Parameters
@@ -66,6 +67,10 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
         Colour column (must be in the catalogue when given).
     nside : int, optional
         HEALPix resolution of a new store.
+    bands : list of str, optional
+        Every band the frames calibrate on (one per mapped filter; default ``[band]``).
+    columns : dict, optional
+        photpipe name -> the catalogue's column name (``[catalogue]``).
 
     Returns
     -------
@@ -90,7 +95,8 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
         return ReferenceSource(store_path, n_stars=len(store))
     if not os.path.isfile(catalogue):
         return ReferenceSource(None, f"{catalogue}: reference-star file not found")
-    wanted = _wanted_meta(catalogue, band, colour)
+    bands = list(bands or [band])
+    wanted = _wanted_meta(catalogue, bands, colour, columns)
     if os.path.exists(store_path):
         try:
             store = store_cls(store_path)
@@ -99,7 +105,7 @@ def campaign_reference_store(catalogue, store_path, *, band="R", colour=None, ns
         if store is not None and store.meta == wanted:
             return ReferenceSource(store_path, n_stars=len(store))
     try:
-        table = read_reference_stars(catalogue, bands=[band], colour=colour)
+        table = read_reference_stars(catalogue, bands=bands, colour=colour, columns=columns)
     except (OSError, ValueError) as exc:
         return ReferenceSource(None, str(exc))
     # a store that cannot be written (read-only folder, full disk) is not a catalogue problem

@@ -139,6 +139,7 @@ def process_frame(item, shared):
     try:
         calibrations = _calibrations_used(masters, info)
         frame = frame_stage.calibrate_frame(info, masters, **shared.get("calibration", {}))
+        frame, solve_problem = _plate_solved(frame, item, shared)
         calibrated_path = frame_stage.write_calibrated(frame, item["calibrated_path"])
     except Exception as exc:  # noqa: BLE001 - one frame's failure is recorded, the night goes on
         return FrameRecord(**base, problems=(("calibration", _reason(exc, info)),))
@@ -150,7 +151,12 @@ def process_frame(item, shared):
         problems.append(("geometry", item.get("geometry_problem") or "no geometry row"))
 
     photometry = None
-    if "photometry" in stages and geometry_row is not None:
+    if solve_problem:
+        # with a header WCS the frame goes on (a note under "astrometry"); without, no photometry
+        problems.append(("astrometry" if frame.wcs is not None else "photometry",
+                         solve_problem + ("; the header WCS is used" if frame.wcs is not None
+                                          else "")))
+    if "photometry" in stages and geometry_row is not None and frame.wcs is not None:
         try:
             photometry = _run_photometry(frame, geometry_row, shared)
         except Exception as exc:  # noqa: BLE001
@@ -192,6 +198,42 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     return out
 
 
+def _band(frame, shared):
+    """The frame's catalogue band and solar band, from its FILTER ([filters])."""
+    band = dict(shared.get("photometry", {})).get("band", "R")
+    entry = photometry_stage.band_for_frame(frame.info.filter, filter_map=shared.get("filters"),
+                                            default_band=band)
+    return entry.band, entry.sun
+
+
+def _plate_solved(frame, item, shared):
+    """The frame with a plate-solved WCS where ``[photometry] plate_solve`` asks for one.
+
+    Returns the frame (solved, or as it was) and the reason a solution failed, or None.
+    """
+    options = shared.get("plate_solve") or {}
+    mode = options.get("mode", "never")
+    path = shared.get("reference_store")
+    has_wcs = frame.wcs is not None and frame.wcs.has_celestial
+    if mode == "never" or (mode == "missing" and has_wcs) or path is None:
+        return frame, None
+    geometry = item.get("geometry")
+    comet = None
+    if geometry is not None and "ra" in geometry.colnames:
+        from astropy.coordinates import SkyCoord
+
+        comet = SkyCoord(u.Quantity(geometry["ra"][0], u.deg), u.Quantity(geometry["dec"][0],
+                                                                          u.deg))
+    try:
+        store = _reference_store(path, os.stat(path).st_mtime_ns)
+        solved, _, _ = photometry_stage.solve_frame_from_store(
+            frame, store, band=_band(frame, shared)[0], pixel_scale=frame.info.pixel_scale,
+            comet_position=comet, mode=mode, max_offset=options.get("max_offset", 16 * u.arcmin))
+    except Exception as exc:  # noqa: BLE001 - the frame keeps its header WCS, if any
+        return frame, f"no plate solution: {_reason(exc, frame.info)}"
+    return solved, None
+
+
 def _run_photometry(frame, geometry_row, shared):
     path = shared.get("reference_store")
     if path is None:
@@ -199,7 +241,11 @@ def _run_photometry(frame, geometry_row, shared):
                or "no reference-star file is configured ([photometry] reference_stars)")
         raise ValueError(msg)
     options = dict(shared.get("photometry", {}))
-    if shared.get("site_location") is not None:
+    # the solar band of [filters.NAME] is not passed yet: the photometry options take the band
+    options["band"] = _band(frame, shared)[0]
+    if frame.info.site is not None:
+        options["site"] = frame.info.site  # the header's own site, for the airmass
+    elif shared.get("site_location") is not None:
         options.setdefault("site", shared["site_location"])  # airmass when the header has none
     stars = frame_reference_stars(frame, path)
     return photometry_stage.measure_comet_frame(frame, stars, geometry_row[0], **options)

@@ -21,6 +21,7 @@ COMMANDS = {
     "size": "photpipe.cli.size",
     "report": "photpipe.cli.report",
     "orbit": "photpipe.cli.orbit",
+    "draft": "photpipe.cli.draft",
 }
 
 

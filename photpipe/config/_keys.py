@@ -28,6 +28,7 @@ KINDS = {
     "pair": "a [low, high] pair of numbers",
     "number_or_free": 'a number or "free"',
     "number_table": "a table of names to numbers",
+    "text_table": "a table of names to texts",
 }
 
 
@@ -171,6 +172,11 @@ def _check(key, value):
         if not isinstance(value, dict) or not all(map(_is_number, value.values())):
             return None, f"must be {KINDS[kind]}"
         return {str(k): float(v) for k, v in value.items()}, None
+    if kind == "text_table":
+        if not isinstance(value, dict) or not all(isinstance(v, str) and v.strip()
+                                                  for v in value.values()):
+            return None, f"must be {KINDS[kind]}"
+        return {str(k): v for k, v in value.items()}, None
     msg = f"key {key.name!r} has an unknown kind {kind!r}"
     raise AssertionError(msg)
 

@@ -59,6 +59,8 @@ NIGHT = Section("night", (
     Key("path", "path", None, "a folder of frames, or a glob such as raw/*.fits.fz"),
     Key("site", "text", None, "a [sites.NAME] key (default: no site, the Earth's centre)"),
     Key("name", "text", None, "the night's name (default: its folder's name)"),
+    Key("instrument", "text", None, "an [instruments.NAME] key for frames whose header names "
+        "no configured camera"),
 ), "one entry per night of frames", array=True)
 
 SITES = Section("sites", (
@@ -87,6 +89,55 @@ FRAMES = Section("frames", (
     Key("maxiters", "integer", 5, "clipping passes of the combination", low=1, low_open=False),
     Key("require_dark", "boolean", False, "skip science frames that have no matching dark"),
 ), "frame types and calibration")
+
+_KEYWORDS = "header keywords holding the {} (default: the usual names)"
+
+INSTRUMENTS = Section("instruments", (
+    Key("match_keyword", "text", "INSTRUME", "header keyword that names the camera"),
+    Key("match_values", "texts", None, "values of match_keyword that mean this camera"),
+    Key("gain", "number", None, "detector gain (default: the header's)", unit="electron/adu",
+        low=0.0),
+    Key("read_noise", "number", None, "read noise (default: the header's)", unit="electron",
+        low=0.0, low_open=False),
+    Key("saturation", "number", None, "raw saturation level (default: the header's, else the "
+        "integer type's full scale)", unit="adu", low=0.0),
+    Key("pixel_scale_arcsec", "number", None, "sky size of one unbinned pixel, for plate "
+        "solving (default: the header's)", unit="arcsec", low=0.0),
+    Key("trust_header", "texts", (), "values where the header wins over the ones above",
+        choices=("gain", "read_noise", "saturation")),
+    Key("time_reference", "text", "start", "the time keywords give the exposure's start or "
+        "middle", choices=("start", "middle")),
+    Key("exptime_keywords", "texts", None, _KEYWORDS.format("exposure time")),
+    Key("date_keywords", "texts", None, _KEYWORDS.format("date (and time)")),
+    Key("time_keywords", "texts", None, _KEYWORDS.format("time of a date-only DATE-OBS")),
+    Key("mjd_keywords", "texts", None, _KEYWORDS.format("MJD")),
+    Key("jd_keywords", "texts", None, _KEYWORDS.format("JD")),
+    Key("filter_keywords", "texts", None, _KEYWORDS.format("filter")),
+    Key("binning_keywords", "texts", None, "header keywords of the x and y binning (default "
+        "XBINNING, YBINNING)"),
+    Key("type_keyword", "text", None, "frame-type keyword (default [frames] type_keyword)"),
+    Key("bias", "texts", None, "frame-type values meaning a bias (default [frames])"),
+    Key("dark", "texts", None, "frame-type values meaning a dark (default [frames])"),
+    Key("flat", "texts", None, "frame-type values meaning a flat (default [frames])"),
+    Key("science", "texts", None, "frame-type values meaning a science frame (default "
+        "[frames])"),
+), "cameras, one [instruments.NAME] table each", named=True)
+
+FILTERS = Section("filters", (
+    Key("band", "text", None, "catalogue magnitude column this filter calibrates on"),
+    Key("solar_band", "text", None, "band of the Sun's magnitude for Afρ (default: band)"),
+), "FILTER header values, one [filters.NAME] table each (none: every frame uses "
+   "[photometry] band)", named=True)
+
+CATALOGUE = Section("catalogue", (
+    Key("ra", "text", "ra", "column of the right ascension (deg)"),
+    Key("dec", "text", "dec", "column of the declination (deg)"),
+    Key("id", "text", None, "column of the star names"),
+    Key("magnitudes", "text_table", None, "band -> magnitude column (default: columns named "
+        "after the bands)"),
+    Key("errors", "text_table", None, "band -> magnitude error column (default <band>_err)"),
+    Key("colour_column", "text", None, "column of the [photometry] colour (default: its name)"),
+), "column names of the reference-star catalogue")
 
 TARGET = Section("target", (
     Key("name", "text", "", "the target's name"),
@@ -149,6 +200,11 @@ PHOTOMETRY = Section("photometry", (
         "spreads out"),
     Key("airmass_formula", "text", "kasten-young", "airmass when the header has none",
         choices=("kasten-young", "pickering")),
+    Key("plate_solve", "text", "always", 'plate-solve frames from the catalogue: "always" (a '
+        'header WCS is checked and replaced), "missing" (only frames without a WCS), "never"',
+        choices=("never", "missing", "always")),
+    Key("plate_max_offset_arcmin", "number", 16.0, "largest pointing error the plate solution "
+        "searches", unit="arcmin", low=0.0),
 ), "comet and star photometry")
 
 NUCLEUS = Section("nucleus", (
@@ -287,8 +343,9 @@ RUN = Section("run", (
 ), "where the frame tasks run")
 
 #: Section name -> Section, in the order configs/demo.toml lists them.
-SECTIONS = {s.name: s for s in (CAMPAIGN, NIGHT, SITES, FRAMES, TARGET, ORBIT, GEOMETRY,
-                                 PHOTOMETRY, NUCLEUS, ROTATION, SIZE, ACTIVITY, RUN)}
+SECTIONS = {s.name: s for s in (CAMPAIGN, NIGHT, SITES, FRAMES, INSTRUMENTS, FILTERS,
+                                 CATALOGUE, TARGET, ORBIT, GEOMETRY, PHOTOMETRY, NUCLEUS,
+                                 ROTATION, SIZE, ACTIVITY, RUN)}
 
 
 def section_spec(name):

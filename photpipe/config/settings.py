@@ -196,10 +196,12 @@ class PhotometrySettings:
     detect_threshold: float
     coma_correction: bool
     airmass_formula: str
+    plate_solve: str
+    plate_max_offset: u.Quantity
 
     def options(self):
         """Keyword values of `~photpipe.photometry.measure_comet_frame`."""
-        skip = {"reference_stars", "reference_store"}
+        skip = {"reference_stars", "reference_store", "plate_solve", "plate_max_offset"}
         return {f.name: getattr(self, f.name) for f in fields(self) if f.name not in skip}
 
 
@@ -249,6 +251,7 @@ def read_photometry(config, *, tables=True):
         apertures_km=np.array(v["apertures_km"]) * u.km,
         apertures_arcsec=np.array(v["apertures_arcsec"]) * u.arcsec, annulus=annulus,
         phase_coefficient=None if beta is None else beta * u.mag / u.deg,
+        plate_max_offset=v["plate_max_offset_arcmin"] * u.arcmin,
         phase_function_table=_phase_table(config, table) if table and tables else None,
         profile_slope_range_km=np.array(v["profile_slope_range_km"]) * u.km)
 

@@ -22,6 +22,8 @@ from .errors import *  # noqa: F401,F403
 from .errors import __all__ as _errors_all
 from .ingest import *  # noqa: F401,F403
 from .ingest import __all__ as _ingest_all
+from .instruments import *  # noqa: F401,F403
+from .instruments import __all__ as _instruments_all
 from .kinds import *  # noqa: F401,F403
 from .kinds import __all__ as _kinds_all
 from .masters import *  # noqa: F401,F403
@@ -30,9 +32,14 @@ from .noise import *  # noqa: F401,F403
 from .noise import __all__ as _noise_all
 from .plan import *  # noqa: F401,F403
 from .plan import __all__ as _plan_all
+from .sites import *  # noqa: F401,F403
+from .sites import __all__ as _sites_all
+from .survey import *  # noqa: F401,F403
+from .survey import __all__ as _survey_all
 from .types import *  # noqa: F401,F403
 from .types import __all__ as _types_all
 
 __all__ = (list(_types_all) + list(_errors_all) + list(_kinds_all) + list(_ingest_all)
            + list(_plan_all) + list(_combine_all) + list(_masters_all) + list(_noise_all)
-           + list(_cosmics_all) + list(_calibrate_all) + list(_io_all))
+           + list(_cosmics_all) + list(_calibrate_all) + list(_io_all)
+           + list(_instruments_all) + list(_sites_all) + list(_survey_all))

@@ -13,10 +13,11 @@ from astropy.io import fits
 
 from photpipe._files import replacing
 
+from ._headers import number, parse_section
 from .errors import FrameError
 
 __all__ = ["open_image", "read_image", "stored_image", "RowReader", "write_atomic",
-           "merged_header"]
+           "merged_header", "image_sections", "trimmed_shape"]
 
 # keywords that describe one HDU's layout and must not be copied from the primary header
 _STRUCTURAL = {"SIMPLE", "EXTEND", "BITPIX", "NAXIS", "NAXIS1", "NAXIS2", "NAXIS3", "PCOUNT",
@@ -120,10 +121,64 @@ def _image_data(hdu, path):
     return _as_2d(data, path)
 
 
+def image_sections(path, header, shape):
+    """The image area and the overscan strip a header declares, as numpy slices.
+
+    The image area is TRIMSEC (else DATASEC), the overscan strip BIASSEC (FITS sections
+    ``'[x1:x2,y1:y2]'``, 1-based, inclusive; common practice of CCD headers). Either is None
+    when the header has no such keyword.
+
+    Returns
+    -------
+    trim, overscan : tuple of slice (rows, cols) or None
+    """
+    trim = overscan = None
+    for key in ("TRIMSEC", "DATASEC"):
+        value = header.get(key)
+        if isinstance(value, str) and value.strip():
+            trim = parse_section(path, key, value, shape)
+            break
+    value = header.get("BIASSEC")
+    if isinstance(value, str) and value.strip():
+        overscan = parse_section(path, "BIASSEC", value, shape)
+    return trim, overscan
+
+
+def trimmed_shape(path, header, shape):
+    """``(ny, nx)`` of the image area (the whole array when the header declares none)."""
+    trim, _ = image_sections(path, header, shape)
+    if trim is None:
+        return tuple(shape)
+    return (trim[0].stop - trim[0].start, trim[1].stop - trim[1].start)
+
+
+def _scaling(path, header):
+    return (number(path, "BSCALE", header.get("BSCALE", 1.0)),
+            number(path, "BZERO", header.get("BZERO", 0.0)))
+
+
+def _overscan_level(path, array, overscan, bscale, bzero):
+    """Median of the overscan strip in physical units (the frame's own bias level)."""
+    strip = np.asarray(array[overscan], dtype=np.float64) * bscale + bzero
+    strip = strip[np.isfinite(strip)]
+    if strip.size == 0:
+        raise FrameError(path, "BIASSEC overscan strip holds no finite values")
+    return float(np.median(strip))
+
+
 def read_image(path, *, dtype=np.float32):
-    """Read the first image of ``path`` as a 2-D array of ``dtype`` (BZERO/BSCALE applied)."""
+    """Read the image area of ``path`` as a 2-D array of ``dtype`` (BZERO/BSCALE applied).
+
+    With a BIASSEC overscan strip, its median is subtracted.
+    """
     with open_image(path) as (hdul, index):
-        return _image_data(hdul[index], path).astype(dtype, copy=False)
+        data = _image_data(hdul[index], path)
+        trim, overscan = image_sections(path, hdul[index].header, data.shape)
+        level = 0.0 if overscan is None else _overscan_level(path, data, overscan, 1.0, 0.0)
+        if trim is not None:
+            data = data[trim]
+        out = data.astype(dtype, copy=False)
+        return out - dtype(level) if level else out
 
 
 @contextlib.contextmanager
@@ -140,8 +195,13 @@ def stored_image(path):
     with open_image(path, memmap=True, scale=False) as (hdul, index):
         header = hdul[index].header
         if "BLANK" not in header:
-            yield (_image_data(hdul[index], path), float(header.get("BSCALE", 1.0)),
-                   float(header.get("BZERO", 0.0)))
+            bscale, bzero = _scaling(path, header)
+            data = _image_data(hdul[index], path)
+            trim, overscan = image_sections(path, header, data.shape)
+            if overscan is not None:
+                # the overscan level comes off through the zero point of the stored values
+                bzero -= _overscan_level(path, data, overscan, bscale, bzero)
+            yield (data if trim is None else data[trim]), bscale, bzero
             return
     yield read_image(path), 1.0, 0.0
 
@@ -165,17 +225,25 @@ class RowReader:
         self.shape = tuple(shape)
         self._stack = contextlib.ExitStack()
         self._hdus = []
+        self._layout = []
 
     def __enter__(self):
         try:
             for path in self.paths:
                 hdul, index = self._stack.enter_context(open_image(path, memmap=False))
                 hdu = hdul[index]
-                shape = tuple(hdu.shape[-2:])
+                full = tuple(hdu.shape[-2:])
+                trim, overscan = image_sections(path, hdu.header, full)
+                shape = trimmed_shape(path, hdu.header, full)
                 if shape != self.shape:
                     msg = f"image shape {shape} differs from the group's {self.shape}"
                     raise FrameError(path, msg)
+                level = 0.0
+                if overscan is not None:
+                    level = _overscan_level(path, self._section(hdu, overscan), (
+                        slice(None), slice(None)), 1.0, 0.0)
                 self._hdus.append(hdu)
+                self._layout.append((trim, level))
         except BaseException:
             self._stack.close()
             raise
@@ -183,22 +251,31 @@ class RowReader:
 
     def __exit__(self, *exc):
         self._hdus = []
+        self._layout = []
         self._stack.close()
         return False
 
+    @staticmethod
+    def _section(hdu, rows_cols):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            lead = (0,) * (hdu.header["NAXIS"] - 2)
+            return hdu.section[lead + tuple(rows_cols)]
+
     def read(self, i, r0, r1, *, dtype=np.float32):
-        """Rows ``r0:r1`` of file ``i`` as ``dtype``."""
+        """Rows ``r0:r1`` of file ``i``'s image area as ``dtype`` (overscan level taken off)."""
         hdu = self._hdus[i]
+        trim, level = self._layout[i]
+        rows, cols = slice(r0, r1), slice(None)
+        if trim is not None:
+            rows = slice(trim[0].start + r0, trim[0].start + r1)
+            cols = trim[1]
         try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                if hdu.header["NAXIS"] > 2:
-                    block = hdu.section[(0,) * (hdu.header["NAXIS"] - 2) + (slice(r0, r1),)]
-                else:
-                    block = hdu.section[r0:r1, :]
+            block = self._section(hdu, (rows, cols))
         except (OSError, ValueError, TypeError, EOFError) as exc:
             raise FrameError(self.paths[i], f"rows {r0}:{r1} cannot be read ({exc})") from exc
-        return np.asarray(block, dtype=dtype)
+        block = np.asarray(block, dtype=dtype)
+        return block - dtype(level) if level else block
 
 
 def write_atomic(hdul, path):

@@ -66,6 +66,14 @@ class FrameInfo:
         The OBJECT keyword, or "".
     header : `~astropy.io.fits.Header`
         The full primary header (not used for comparisons).
+    instrument : str
+        Name of the instrument profile the frame was read with (``"default"`` when none).
+    pixel_scale : `~astropy.units.Quantity` ['angle'] or None
+        Pixel scale of the (binned) frame from the instrument profile or the header.
+    site : `~astropy.coordinates.EarthLocation` or None
+        Observing site from the header; None: the night's site applies.
+    conflicts : tuple of str
+        Header values that differ from the configured ones (the configured value was used).
     """
 
     path: str
@@ -80,6 +88,10 @@ class FrameInfo:
     shape: tuple
     object_name: str = ""
     header: fits.Header = field(default_factory=fits.Header, compare=False, repr=False)
+    instrument: str = "default"
+    pixel_scale: u.Quantity | None = field(default=None, compare=False)
+    site: object = field(default=None, compare=False, repr=False)
+    conflicts: tuple = field(default=(), compare=False, repr=False)
 
     @property
     def name(self):

@@ -23,6 +23,10 @@ from .dust_phase import *  # noqa: F401,F403
 from .dust_phase import __all__ as _dust_phase_all
 from .errors import *  # noqa: F401,F403
 from .errors import __all__ as _errors_all
+from .filters import *  # noqa: F401,F403
+from .filters import __all__ as _filters_all
+from .frame_solve import *  # noqa: F401,F403
+from .frame_solve import __all__ as _frame_solve_all
 from .locate import *  # noqa: F401,F403
 from .locate import __all__ as _locate_all
 from .measure import *  # noqa: F401,F403
@@ -35,6 +39,8 @@ from .phase_schleicher_marcus import *  # noqa: F401,F403
 from .phase_schleicher_marcus import __all__ as _phase_schleicher_marcus_all
 from .phase_table import *  # noqa: F401,F403
 from .phase_table import __all__ as _phase_table_all
+from .platesolve import *  # noqa: F401,F403
+from .platesolve import __all__ as _platesolve_all
 from .profile import *  # noqa: F401,F403
 from .profile import __all__ as _profile_all
 from .refstars import *  # noqa: F401,F403
@@ -66,12 +72,15 @@ __all__ = (
     _detection_all +
     _dust_phase_all +
     _errors_all +
+    _filters_all +
+    _frame_solve_all +
     _locate_all +
     _measure_all +
     _options_all +
     _phase_linear_all +
     _phase_schleicher_marcus_all +
     _phase_table_all +
+    _platesolve_all +
     _profile_all +
     _refstars_all +
     _refstore_all +

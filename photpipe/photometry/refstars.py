@@ -4,9 +4,11 @@ import os
 
 import numpy as np
 from astropy import units as u
+from astropy.io.registry import IORegistryError
 from astropy.table import QTable
 
-__all__ = ["REFERENCE_FORMATS", "read_reference_stars", "check_reference_columns"]
+__all__ = ["REFERENCE_FORMATS", "read_reference_stars", "check_reference_columns",
+           "rename_columns"]
 
 #: file-name ending -> astropy Table reader format.
 REFERENCE_FORMATS = {
@@ -20,13 +22,57 @@ _ANGLE_COLUMNS = ("ra", "dec")
 
 
 def _reader_format(path):
+    """The reader for a known ending; None lets astropy recognise the table itself."""
     lower = str(path).lower()
     for ending in sorted(REFERENCE_FORMATS, key=len, reverse=True):
         if lower.endswith(ending):
             return REFERENCE_FORMATS[ending]
-    msg = (f"{path}: cannot tell the table format from the file name; use one of "
-           f"{', '.join(sorted(REFERENCE_FORMATS))}")
-    raise ValueError(msg)
+    return None
+
+
+def _read_any(path, fmt):
+    if fmt is not None:
+        return QTable.read(path, format=fmt)
+    try:
+        return QTable.read(path)
+    except IORegistryError:
+        # astropy's ASCII reader guesses among its many text layouts
+        return QTable.read(path, format="ascii")
+
+
+def rename_columns(table, columns, *, source="reference stars"):
+    """Rename the file's columns to photpipe's names, in place.
+
+    Parameters
+    ----------
+    table : `~astropy.table.Table`
+    columns : dict
+        photpipe name -> the file's column name, e.g. ``{"ra": "RAJ2000", "dec": "DEJ2000",
+        "V": "Vmag", "V_err": "e_Vmag", "B-V": "B-V"}`` (magnitude errors are ``<band>_err``).
+
+    Raises
+    ------
+    ValueError
+        Naming ``source`` and a mapped column the table lacks.
+
+    Examples
+    --------
+    from astropy.table import QTable
+    >>> t = QTable({"RAJ2000": [1.0], "Vmag": [12.0]})
+    >>> rename_columns(t, {"ra": "RAJ2000", "V": "Vmag"}).colnames
+    ['ra', 'V']
+    """
+    for ours, theirs in dict(columns or {}).items():
+        if ours == theirs:
+            continue
+        if theirs not in table.colnames:
+            msg = (f"{source}: the configured column {theirs!r} (for {ours!r}) is not in the "
+                   f"table (columns: {', '.join(table.colnames)})")
+            raise ValueError(msg)
+        if ours in table.colnames:
+            table.remove_column(ours)
+        table.rename_column(theirs, ours)
+    return table
 
 
 def check_reference_columns(table, columns, *, source="reference stars"):
@@ -43,7 +89,7 @@ def check_reference_columns(table, columns, *, source="reference stars"):
 
     Examples
     --------
-    >>> from astropy.table import QTable
+    from astropy.table import QTable
     >>> check_reference_columns(QTable({"ra": [1.0]}), ["ra", "dec"], source="cat.csv")
     Traceback (most recent call last):
     ...
@@ -56,17 +102,20 @@ def check_reference_columns(table, columns, *, source="reference stars"):
             raise ValueError(msg)
 
 
-def read_reference_stars(path, *, bands=None, colour=None):
+def read_reference_stars(path, *, bands=None, colour=None, columns=None):
     r"""Read a reference-star file into a QTable with ``ra``/``dec`` in degrees.
 
     Parameters
     ----------
     path : str or path-like
-        A CSV, ECSV, FITS-table or VOTable file (format from the file name).
+        Any table astropy reads: the format comes from the file name (`REFERENCE_FORMATS`), or
+        astropy recognises it.
     bands : iterable of str, optional
         Magnitude columns that must be present (e.g. ``["R", "V"]``).
     colour : str, optional
         Colour column that must be present (e.g. ``"B-V"``).
+    columns : dict, optional
+        photpipe name -> the file's column name (see `rename_columns`), applied first.
 
     Returns
     -------
@@ -106,16 +155,18 @@ def read_reference_stars(path, *, bands=None, colour=None):
         raise FileNotFoundError(msg)
     fmt = _reader_format(path)
     try:
-        table = QTable.read(path, format=fmt)
+        table = _read_any(path, fmt)
     except Exception as exc:  # astropy readers raise many kinds; the file is the problem
-        msg = f"{path}: cannot read as {fmt} table: {exc}"
+        msg = f"{path}: cannot read as {fmt or 'a'} table: {exc}"
         raise ValueError(msg) from exc
+    rename_columns(table, columns, source=path)
     lower = {name.lower(): name for name in table.colnames}
     for name in _ANGLE_COLUMNS:
         if name not in table.colnames and name in lower:
             table.rename_column(lower[name], name)
     required = list(_ANGLE_COLUMNS) + list(bands or []) + ([colour] if colour else [])
     check_reference_columns(table, required, source=path)
+    required += [f"{b}_err" for b in bands or [] if f"{b}_err" in table.colnames]
     for name in table.colnames:
         col = table[name]
         if name in _ANGLE_COLUMNS:

@@ -52,9 +52,30 @@ def test_missing_file(tmp_path):
 
 def test_unknown_format(tmp_path):
     path = tmp_path / "stars.dat"
-    path.write_text("x")
-    with pytest.raises(ValueError, match="cannot tell the table format from the file name"):
+    path.write_bytes(b"\x00\x01\x02 binary \xff\xfe")
+    with pytest.raises(ValueError, match="stars.dat: cannot read as a table"):
         read_reference_stars(path)
+
+
+def test_any_ending_astropy_recognises_and_mapped_columns(tmp_path):
+    """A catalogue as a survey service writes it: RAJ2000, DEJ2000, Vmag, e_Vmag, B-V."""
+    path = tmp_path / "field.txt"
+    path.write_text("RAJ2000 DEJ2000 Vmag e_Vmag B-V\n10.0 20.0 12.5 0.02 0.6\n"
+                    "10.1 20.1 13.0 0.03 0.8\n")
+    t = read_reference_stars(path, bands=["V"], colour="B-V",
+                             columns={"ra": "RAJ2000", "dec": "DEJ2000", "V": "Vmag",
+                                      "V_err": "e_Vmag"})
+    assert t["ra"].unit == u.deg and t["V"].unit == u.mag
+    assert t["V_err"].unit == u.mag
+    assert float(t["V_err"][1].value) == 0.03
+
+
+def test_mapped_column_missing_is_named(tmp_path):
+    path = tmp_path / "field.csv"
+    path.write_text("RAJ2000,DEJ2000,Vmag\n10.0,20.0,12.5\n")
+    with pytest.raises(ValueError, match="the configured column 'Rmag' \\(for 'R'\\)"):
+        read_reference_stars(path, bands=["R"], columns={"ra": "RAJ2000", "dec": "DEJ2000",
+                                                         "R": "Rmag"})
 
 
 def test_unparsable(tmp_path):
