@@ -125,7 +125,7 @@ def window_peaks(t, *, sites=None, f_max=3.5, min_power=0.1, max_peaks=6, oversa
                    "power": power[idx]})
 
 
-def describe_relation(frequency, adopted, *, tolerance, window=None):
+def describe_relation(frequency, adopted, *, tolerance, window=None, max_ratio_error=0.05):
     """Say how a candidate frequency relates to the adopted rotation frequency.
 
     Parameters
@@ -136,6 +136,11 @@ def describe_relation(frequency, adopted, *, tolerance, window=None):
         Frequencies closer than this count as equal (1/day).
     window : `~astropy.table.QTable`, optional
         Named window peaks (:func:`window_peaks`).
+    max_ratio_error : float, optional
+        A relation is named only when the frequencies also agree to this fraction. On a short
+        baseline the frequency ``tolerance`` is wide (half a cycle over the baseline can be a
+        factor of two in frequency); without this cap a period 1.6 times the adopted one would
+        be called "twice the period".
 
     Returns
     -------
@@ -156,15 +161,18 @@ def describe_relation(frequency, adopted, *, tolerance, window=None):
     bases = [("adopted", adopted), ("half period", 2 * adopted),
              ("twice the period", adopted / 2), ("2/3 of the period", 1.5 * adopted),
              ("3/2 of the period", adopted / 1.5), ("1/3 of the period", 3 * adopted)]
+    def close(f):
+        return abs(frequency - f) < min(tolerance, max_ratio_error * abs(f))
+
     for name, f in bases:
-        if abs(frequency - f) < tolerance:
+        if close(f):
             return name
     if window is not None:
         for row in window:
             fw = float(row["frequency"].to_value(1 / u.day))
             for name, f in bases[:3]:
                 for sign, text in ((1, "+"), (-1, "-")):
-                    if abs(frequency - (f + sign * fw)) < tolerance:
+                    if close(f + sign * fw):
                         return f"{name} {text} {row['name']}"
     return "unrelated"
 

@@ -32,3 +32,11 @@ def test_relations():
     assert describe_relation(4.0 - 1.0027, 2.0, tolerance=0.001, window=w) == \
         "half period - 1/day"
     assert describe_relation(7.77, 2.0, tolerance=0.01, window=w) == "unrelated"
+
+
+def test_relation_on_a_short_baseline_is_named_only_for_its_ratio():
+    # One 4.4 h night: 0.5 cycle over the baseline is 2.7 /day, wider than the frequencies
+    # themselves. A period 1.6 times the adopted one is no harmonic (ratio arithmetic, exact).
+    assert describe_relation(5.0 / 1.6, 5.0, tolerance=2.7) == "unrelated"
+    assert describe_relation(2.5, 5.0, tolerance=2.7) == "twice the period"
+    assert describe_relation(5.1, 5.0, tolerance=2.7) == "adopted"
