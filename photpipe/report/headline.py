@@ -137,16 +137,21 @@ def _size_line(size):
         return [f"nucleus radius: not given ({size.get('reason') or 'no result'})"]
     if size.get("albedo") is not None:
         line += f" for an assumed albedo {size['albedo']:g}"
+    if size.get("radius_km") is not None and size.get("status") not in (None, "radius"):
+        line += f"; {str(size['status']).upper()}: {size.get('reason') or 'see size.json'}"
     return [line]
 
 
 def _activity_lines(measurements, activity):
     lines = []
-    if measurements is not None and len(measurements) and "a0frho_cm" in measurements.colnames:
-        nights = nightly_afrho(measurements)
+    column = _afrho_column(measurements, activity)
+    if column is not None:
+        nights = nightly_afrho(measurements, column=column)
         shown = nights if len(nights) <= 6 else nights[:3] + nights[-3:]
+        name = ("A(0°)fρ" if column.startswith("a0") else "Afρ") + (
+            " of the coma" if "coma" in column else " of all the light")
         for date, mean, err, rho, k in shown:
-            lines.append(f"A(0°)fρ {date} (ρ = {rho:g} km, {k} frames): "
+            lines.append(f"{name} {date} (ρ = {rho:g} km, {k} frames): "
                          f"{with_error(mean, err, 'cm')}")
         if len(nights) > 6:
             lines.insert(3, f"  ... {len(nights) - 6} more nights in the report")
@@ -162,6 +167,17 @@ def _activity_lines(measurements, activity):
     if within:
         lines.append(f"outbursts within a night: {len(within)}")
     return lines
+
+
+def _afrho_column(measurements, activity):
+    """The Afρ column the activity step used (coma-only by default), else the total light's."""
+    if measurements is None or len(measurements) == 0:
+        return None
+    for column in ((activity or {}).get("afrho_column"), "a0frho_cm"):
+        if column and column in measurements.colnames and np.any(
+                np.isfinite(_floats(measurements, column, u.cm))):
+            return column
+    return None
 
 
 def _flag_line(measurements):

@@ -37,10 +37,23 @@ def test_headline_names_caveats_and_where_to_look():
                                  "radius_hi_km": 5.46, "albedo": 0.04},
                            report="results/report.html")
     text = "\n".join(lines)
-    assert "A(0°)fρ 2026-12-01 (ρ = 10000 km, 2 frames): 102.0 ± 4.5 cm" in text
+    assert "A(0°)fρ of all the light 2026-12-01 (ρ = 10000 km, 2 frames): 102.0 ± 4.5 cm" in text
     assert "nucleus magnitude: 15.20–15.40 mag over 2 frames; 1 frame(s) give only an upper " \
            "limit" in text
     assert "rotation period: none found (weak detection)" in text
     assert "nucleus radius: 4.4 km (68 % interval 3.8–5.5 km)" in text
     assert "flagged measurement rows: edge (1)" in text  # airmass_computed only informs
     assert lines[-1] == "open the report: results/report.html"
+
+
+def test_headline_follows_the_activity_column_and_names_an_uncertain_radius():
+    meas = _meas()
+    meas["a0frho_coma_cm"] = meas["a0frho_cm"] * 0.5
+    meas["a0frho_coma_err_cm"] = meas["a0frho_err_cm"] * 0.5
+    lines = headline_lines(measurements=meas, activity={"afrho_column": "a0frho_coma_cm"},
+                           size={"radius_km": 5.07, "status": "uncertain",
+                                 "reason": "the H error exceeds the limit"})
+    text = "\n".join(lines)
+    # half of the total-light case above: 102.0 ± 4.47 cm scaled by 0.5 (exact)
+    assert "A(0°)fρ of the coma 2026-12-01 (ρ = 10000 km, 2 frames): 51.0 ± 2.2 cm" in text
+    assert "nucleus radius: 5.1 km; UNCERTAIN: the H error exceeds the limit" in text
