@@ -62,7 +62,9 @@ def run_report_stage(config, measurements, nucleus=None, extra=None, out_dir=Non
         elong = content.column_values(measurements, "elong_deg", u.deg)
     target = Path(report_path) if report_path is not None else out / "report.html"
     return write_report(target, campaign_name=summary["campaign"], summary=summary,
-                        tables=content.result_tables(analysis, extra, measurements, nucleus),
+                        tables=content.result_tables(analysis, extra, measurements, nucleus,
+                                                     afrho_column=settings["column"]),
                         figures=figures, notes=notes, elongations=elong,
                         caution_elongation=settings["caution_elongation"], captions=captions,
-                        **content.page_extras(measurements, nucleus, analysis, extra))
+                        **content.page_extras(measurements, nucleus, analysis, extra,
+                                              afrho_column=settings["column"]))

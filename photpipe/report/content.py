@@ -289,8 +289,11 @@ def draw_figures(measurements, nucleus, analysis, settings, notes, *, extra=None
     return figures, captions
 
 
-def nights_observed(measurements, nucleus):
+def nights_observed(measurements, nucleus, *, afrho_column="a0frho_cm"):
     """One row per night: frames, geometry, A(0)fρ near 10 000 km, nucleus and quality.
+
+    ``afrho_column`` is the Afρ column the activity step follows (the coma's by default); the
+    total light's is used where the measurements lack it.
 
     Returns
     -------
@@ -301,7 +304,9 @@ def nights_observed(measurements, nucleus):
     mjd = column_values(measurements, "mjd_utc_mid", u.day).value
     night = np.floor(mjd - 0.5)
     frames = np.asarray(measurements["frame"]).astype(str)
-    afrho = {d: (m, e, r) for d, m, e, r, _ in nightly_afrho(measurements)}
+    if afrho_column not in measurements.colnames:
+        afrho_column = "a0frho_cm"
+    afrho = {d: (m, e, r) for d, m, e, r, _ in nightly_afrho(measurements, column=afrho_column)}
     nmag = nflags = None
     if nucleus is not None and len(nucleus):
         nmag = column_values(nucleus, "nucleus_mag", u.mag).value
@@ -331,12 +336,13 @@ def nights_observed(measurements, nucleus):
         rows.append((date, len(np.unique(frames[sel])), float(np.nanmedian(rh)),
                      float(np.nanmedian(dl)), float(np.nanmedian(ph)), m, e,
                      r, nuc_text, float(np.nanmedian(zp)), flagged))
-    names = ("night (UTC date)", "frames", "r_h_au", "delta_au", "phase_deg", "a0frho_cm",
-             "a0frho_err_cm", "rho_km", "nucleus magnitude range (mag)", "zp_mag",
+    err_column = afrho_column.replace("_cm", "_err_cm")
+    names = ("night (UTC date)", "frames", "r_h_au", "delta_au", "phase_deg", afrho_column,
+             err_column, "rho_km", "nucleus magnitude range (mag)", "zp_mag",
              "flagged rows")
     t = QTable(rows=rows, names=names)
     for col, unit in (("r_h_au", u.au), ("delta_au", u.au), ("phase_deg", u.deg),
-                      ("a0frho_cm", u.cm), ("a0frho_err_cm", u.cm), ("rho_km", u.km),
+                      (afrho_column, u.cm), (err_column, u.cm), ("rho_km", u.km),
                       ("zp_mag", u.mag)):
         t[col].unit = unit
     for col, fmt in (("r_h_au", ".3f"), ("delta_au", ".3f"), ("phase_deg", ".1f"),
@@ -379,11 +385,13 @@ def _candidates_table(rot):
     return t
 
 
-def result_tables(analysis, extra, measurements=None, nucleus=None):
+def result_tables(analysis, extra, measurements=None, nucleus=None, *,
+                  afrho_column="a0frho_cm"):
     """Return the page's tables (name -> table): nights, trend, outbursts, rotation, size."""
     tables = {}
     if measurements is not None and len(measurements):
-        tables["Nights observed"] = nights_observed(measurements, nucleus)
+        tables["Nights observed"] = nights_observed(measurements, nucleus,
+                                                    afrho_column=afrho_column)
     if analysis is not None:
         tables["Activity trend"] = _trend_table(analysis.trend)
         tables["Outbursts"] = _outburst_table(analysis.outbursts)
@@ -411,7 +419,8 @@ def _size_table(size):
     return _one_row(row, list(row))
 
 
-def page_extras(measurements, nucleus, analysis, extra, *, report=None):
+def page_extras(measurements, nucleus, analysis, extra, *, report=None,
+                afrho_column="a0frho_cm"):
     """The page's "what to look at first" lines and why any section is empty.
 
     Returns
@@ -420,7 +429,8 @@ def page_extras(measurements, nucleus, analysis, extra, *, report=None):
         ``highlights`` (list of str) and ``reasons`` (section or table name -> str), as
         `photpipe.report.page.write_report` takes them.
     """
-    activity = analysis.to_dict() if analysis is not None else None
+    activity = dict(analysis.to_dict()) if analysis is not None else {}
+    activity["afrho_column"] = afrho_column
     highlights = headline_lines(measurements=measurements, nucleus=nucleus,
                                 rotation=extra.get("rotation"), size=extra.get("size"),
                                 activity=activity)
