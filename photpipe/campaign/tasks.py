@@ -241,8 +241,7 @@ def _run_photometry(frame, geometry_row, shared):
                or "no reference-star file is configured ([photometry] reference_stars)")
         raise ValueError(msg)
     options = dict(shared.get("photometry", {}))
-    # the solar band of [filters.NAME] is not passed yet: the photometry options take the band
-    options["band"] = _band(frame, shared)[0]
+    options["band"], options["solar_band"] = _band(frame, shared)
     if frame.info.site is not None:
         options["site"] = frame.info.site  # the header's own site, for the airmass
     elif shared.get("site_location") is not None:

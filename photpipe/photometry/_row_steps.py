@@ -122,10 +122,10 @@ def magnitudes(prep, lay, ap, cal, opts, notes):
     rho_km = np.concatenate([prep.km_radii, prep.arcsec_radii / _ARCSEC_PER_RAD * prep.delta_km])
     rho_as = np.concatenate([lay.r_km * prep.scale, prep.arcsec_radii])
     try:
-        m_sun = solar_magnitude(c.band, c.mag_system).to_value(u.mag)
+        m_sun = solar_magnitude(c.solar_band or c.band, c.mag_system).to_value(u.mag)
     except ValueError:
         m_sun = np.nan
-        notes.flag("no_solar_magnitude", f"band {c.band!r}, {c.mag_system}")
+        notes.flag("no_solar_magnitude", f"band {c.solar_band or c.band!r}, {c.mag_system}")
     if np.isfinite(m_sun):
         af = afrho_of(np.where(np.isfinite(mag), mag, 99.0), m_sun, geo["r_h"] * u.au,
                       geo["delta"] * u.au, rho_km * u.km)

@@ -44,6 +44,10 @@ class CalibrationOptions:
     ----------
     band, colour : str
         Catalogue band the frame is calibrated to, and colour column of the colour term.
+    solar_band : str
+        Band of the Sun's magnitude used for Afρ (a name `~photpipe.photometry.solar_magnitude`
+        knows); empty means ``band``. A catalogue column named ``Vmag`` calibrates on V but
+        the Sun's table knows it as ``V``.
     fit_colour_term : bool
         Fit a colour term in the zero point.
     comet_colour : float or None
@@ -61,6 +65,7 @@ class CalibrationOptions:
     """
 
     band: str = "R"
+    solar_band: str = ""
     colour: str = "B-V"
     fit_colour_term: bool = False
     comet_colour: float | None = None

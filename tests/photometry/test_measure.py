@@ -293,3 +293,18 @@ def test_unknown_option_is_named():
     opts = MeasureOptions.from_keywords(band="V", sky_method="median", min_stars=3)
     assert (opts.calibration.band, opts.apertures.sky_method, opts.calibration.min_stars) == \
         ("V", "median", 3)
+
+
+def test_solar_band_names_the_suns_magnitude(standard_frame, standard):
+    # A catalogue column called "Rmag" calibrates on R; [filters.NAME] solar_band = "R" tells
+    # Afρ which solar magnitude to use. The same frame must give the same Afρ as band "R"
+    # (A'Hearn et al. 1984, eq. 1: Afρ depends on the band only through m_sun).
+    s, r_plain, _ = standard
+    stars = s.stars.copy()
+    stars["Rmag"] = stars["R"]
+    r, _ = measure_recording(s.frame, stars, s.geometry, band="Rmag", solar_band="R",
+                             apertures_km=KM_APERTURES,
+                             profile_slope_range_km=(8000, 60000) * u.km)
+    assert "no_solar_magnitude" not in r.flags
+    np.testing.assert_allclose(r.comet["afrho_cm"].value, r_plain.comet["afrho_cm"].value,
+                               rtol=1e-9)
