@@ -16,7 +16,13 @@ import numpy as np
 from astropy import units as u
 from astropy.time import Time
 
-from photpipe.activity import FALLBACK_FLAG, afrho_series, analyse_activity, find_night_outbursts
+from photpipe.activity import (
+    FALLBACK_FLAG,
+    afrho_series,
+    analyse_activity,
+    comet_colour,
+    find_night_outbursts,
+)
 from photpipe.config import read_activity
 
 from .result_files import write_text
@@ -39,6 +45,11 @@ class ActivityOutcome:
         What was done, warnings raised, and why nothing was fitted when so.
     path : str or None
         ``activity.json``, when written.
+    filter : str or None
+        The filter whose rows the trend follows (the most frequent one), None when the rows
+        name no filter.
+    colours : list of `~photpipe.activity.CometColour`
+        The comet's colour against each other filter, in the trend's aperture.
     """
 
     analysis: object
@@ -46,6 +57,8 @@ class ActivityOutcome:
     night_outbursts: object = None
     notes: list = field(default_factory=list)
     path: str | None = None
+    filter: str | None = None
+    colours: list = field(default_factory=list)
 
     @property
     def summary(self):
@@ -87,6 +100,51 @@ def _perihelion(settings, rows, notes):
     return perihelion
 
 
+def _filters(table):
+    if "filter" not in table.colnames:
+        return None
+    return np.array([str(f).strip() for f in table["filter"]])
+
+
+def one_filter(rows, notes):
+    """The rows of the most frequent filter, and its name.
+
+    Afρ differs between filters by the dust's colour, so nights observed in different filters
+    would look like activity changes: the trend follows one filter and says so.
+    """
+    names = _filters(rows)
+    if names is None or len(rows) == 0:
+        return rows, None
+    kinds, counts = np.unique(names, return_counts=True)
+    main = str(kinds[int(np.argmax(counts))])
+    if len(kinds) > 1:
+        others = ", ".join(f"{k} ({c} rows)" for k, c in zip(kinds, counts, strict=True)
+                           if k != main)
+        notes.append(f"The trend follows filter {main} ({counts.max()} rows); the rows in "
+                     f"{others} are left out of it (Afρ differs between filters by the "
+                     "dust's colour).")
+    return rows[names == main], main
+
+
+def colours_in_aperture(rows, main, rho_km, notes):
+    """The comet's colour ``main - other`` for each other filter, in the trend's aperture."""
+    names = _filters(rows)
+    if names is None or main is None or "mag" not in rows.colnames:
+        return []
+    rho = _values(rows, "rho_km", u.km).value
+    near = np.isfinite(rho) & (np.abs(rho - rho_km) <= 0.01 * rho_km)
+    out = []
+    for other in sorted(set(names[near]) - {main}):
+        sel = near & np.isin(names, [main, other])
+        sub = rows[sel]
+        colour = comet_colour(Time(_values(sub, "mjd_utc_mid", u.day).value, format="mjd"),
+                              _values(sub, "mag", u.mag), _values(sub, "mag_err", u.mag),
+                              names[sel], first=main, second=other)
+        notes.append(colour.summary() + f", ρ = {rho_km:,.0f} km.")
+        out.append(colour)
+    return out
+
+
 def fit_activity(measurements, settings, notes):
     """Fit the trend and search for outbursts on the rows not flagged ``exclude_flags``.
 
@@ -115,7 +173,7 @@ def fit_activity(measurements, settings, notes):
     if np.any(flagged):
         notes.append(f"{np.count_nonzero(flagged)} measurement rows flagged "
                      f"{', '.join(settings.exclude_flags)} were left out of the trend.")
-    rows = measurements[~flagged]
+    rows, _ = one_filter(measurements[~flagged], notes)
     afrho, afrho_err, fallback = afrho_series(rows, column=settings.column)
     if np.any(fallback == FALLBACK_FLAG):
         notes.append(f"{np.count_nonzero(fallback == FALLBACK_FLAG)} of {len(rows)} rows have "
@@ -190,7 +248,15 @@ def run_activity_stage(config, measurements, out_dir):
         outcome.notes.append(f"The activity trend could not be fitted: {exc}")
         return outcome
     outcome.notes.append(_trend_note(settings))
+    kept = measurements[~_flagged(measurements, settings.exclude_flags)]
+    _, outcome.filter = one_filter(kept, [])
+    trend_rho = outcome.analysis.trend.rho
+    if trend_rho is not None:
+        outcome.colours = colours_in_aperture(kept, outcome.filter,
+                                              float(trend_rho.to_value(u.km)), outcome.notes)
     payload = outcome.analysis.to_dict()
+    payload["filter"] = outcome.filter
+    payload["colours"] = [c.to_dict() for c in outcome.colours]
     within = outcome.night_outbursts.to_dict()
     payload["outbursts_within_night"] = within.pop("outbursts")
     payload["within_night_search"] = within

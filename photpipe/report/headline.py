@@ -145,11 +145,16 @@ def _size_line(size):
 def _activity_lines(measurements, activity):
     lines = []
     column = _afrho_column(measurements, activity)
+    main = (activity or {}).get("filter")
+    if main and measurements is not None and "filter" in measurements.colnames:
+        # the nights of the filter the trend follows: Afρ differs between filters
+        measurements = measurements[[str(f).strip() == main for f in measurements["filter"]]]
     if column is not None:
         nights = nightly_afrho(measurements, column=column)
         shown = nights if len(nights) <= 6 else nights[:3] + nights[-3:]
         name = ("A(0°)fρ" if column.startswith("a0") else "Afρ") + (
-            " of the coma" if "coma" in column else " of all the light")
+            " of the coma" if "coma" in column else " of all the light") + (
+            f" in {main}" if main else "")
         for date, mean, err, rho, k in shown:
             lines.append(f"{name} {date} (ρ = {rho:g} km, {k} frames): "
                          f"{with_error(mean, err, 'cm')}")
@@ -166,6 +171,13 @@ def _activity_lines(measurements, activity):
     within = (activity or {}).get("outbursts_within_night") or []
     if within:
         lines.append(f"outbursts within a night: {len(within)}")
+    for c in (activity or {}).get("colours") or []:
+        if c.get("status") == "measured":
+            lines.append(f"comet colour {c['label']}: "
+                         f"{with_error(c['colour_mag'], c['colour_err_mag'], 'mag')} "
+                         f"({c['n_pairs']} frames paired)")
+        else:
+            lines.append(f"comet colour {c['label']}: none ({c.get('reason', '')})")
     return lines
 
 

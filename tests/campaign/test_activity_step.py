@@ -38,3 +38,31 @@ def test_total_light_when_no_coma_column(tmp_path):
     payload = json.loads((tmp_path / "activity.json").read_text())
     assert payload["rows_total_light"] == len(meas)
     assert out.night_outbursts is not None
+
+
+def test_two_filters_trend_follows_one_and_colour_is_measured(tmp_path):
+    # Every third frame in V: V is 0.45 mag fainter than R and its Afρ 10 % lower (invented
+    # colours). The trend must follow R alone (as a campaign in R only would give) and the
+    # colour V-R come out of bracketing R frames, 15 min apart.
+    meas = _measurements(True)
+    only_r = run_activity_stage(CONFIG, meas, tmp_path / "r")
+    frame_no = np.array([int(f.split("_f")[1]) for f in meas["frame"]])
+    v = frame_no % 3 == 2
+    meas["filter"][v] = "V"
+    meas["mag"][v] += 0.45 * u.mag
+    for name in ("afrho_cm", "a0frho_cm", "a0frho_coma_cm"):
+        meas[name][v] *= 0.9
+    out = run_activity_stage(CONFIG, meas, tmp_path / "rv")
+    payload = json.loads((tmp_path / "rv" / "activity.json").read_text())
+    assert out.filter == payload["filter"] == "R"
+    assert any("left out of it" in n and "V (" in n for n in out.notes)
+    # the R-only trend of the mixed campaign matches the R campaign's within its errors
+    a, b = only_r.analysis.trend, out.analysis.trend
+    for side in ("pre", "post"):
+        fa, fb = a.branch(side), b.branch(side)
+        if fa is None or fb is None:
+            continue
+        assert abs(fa.k - fb.k) < 3 * max(fa.k_err, fb.k_err)
+    (colour,) = payload["colours"]
+    assert colour["label"] == "R-V" and colour["status"] == "measured"
+    assert abs(colour["colour_mag"] + 0.45) < 3 * colour["colour_err_mag"] + 0.01

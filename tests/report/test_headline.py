@@ -57,3 +57,20 @@ def test_headline_follows_the_activity_column_and_names_an_uncertain_radius():
     # half of the total-light case above: 102.0 ± 4.47 cm scaled by 0.5 (exact)
     assert "A(0°)fρ of the coma 2026-12-01 (ρ = 10000 km, 2 frames): 51.0 ± 2.2 cm" in text
     assert "nucleus radius: 5.1 km; UNCERTAIN: the H error exceeds the limit" in text
+
+
+def test_headline_keeps_to_the_trend_filter_and_names_the_colour():
+    meas = _meas()
+    meas["filter"] = ["R", "R", "R", "R", "V", "V", "R", "R"]
+    meas["a0frho_cm"][4:6] *= 10  # a V frame far brighter in Afρ must not enter the R means
+    activity = {"filter": "R", "colours": [
+        {"label": "R-V", "status": "measured", "colour_mag": -0.452, "colour_err_mag": 0.013,
+         "n_pairs": 7},
+        {"label": "R-B", "status": "none", "reason": "0 R frame(s) with a B frame within 30 min"},
+    ]}
+    text = "\n".join(headline_lines(measurements=meas, activity=activity))
+    # night 2 in R is frame d alone: 90 ± 3 cm (exact)
+    assert "A(0°)fρ of all the light in R 2026-12-02 (ρ = 10000 km, 1 frames): 90.0 ± 3.0 cm" \
+        in text
+    assert "comet colour R-V: -0.452 ± 0.013 mag (7 frames paired)" in text
+    assert "comet colour R-B: none (0 R frame(s) with a B frame within 30 min)" in text
