@@ -221,6 +221,7 @@ class NightRun:
                 "photometry": settings.photometry.options(),
                 "nucleus": settings.nucleus.fit_options(),
                 "psf": settings.nucleus.psf_options(), "tracking": settings.nucleus.tracking,
+                "tracking_check": settings.nucleus.tracking_check,
                 "site_location": site,
                 "reference_store": reference.store_path, "reference_problem": reference.problem,
                 "filters": settings.filters,

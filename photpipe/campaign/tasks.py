@@ -117,6 +117,7 @@ def process_frame(item, shared):
         ``masters`` (`~photpipe.frames.MasterSet`), ``stages`` (frame stages available, in
         order), ``calibration`` / ``photometry`` / ``nucleus`` (keyword options of the stages'
         functions), ``tracking`` ("sidereal" or "comet": which of comet and stars trail),
+        ``tracking_check`` (a TRACKING header, else the stars' shapes, may override it),
         ``reference_store`` (path of the campaign's
         `~photpipe.photometry.ReferenceStarStore`, or None) and ``reference_problem`` (why
         there is none).
@@ -167,11 +168,12 @@ def process_frame(item, shared):
                           zero_point=_zero_point_row(photometry))
     if "nucleus" in stages and photometry is not None:
         try:
-            fit, pixel_scale = _run_nucleus(frame, photometry, item, shared)
+            fit, pixel_scale, tracking = _run_nucleus(frame, photometry, item, shared)
         except Exception as exc:  # noqa: BLE001
             problems.append(("nucleus", _reason(exc, info)))
         else:
-            record["nucleus"] = fit.to_row()
+            record["nucleus"] = _with_tracking_flag(fit.to_row(), tracking,
+                                                    shared.get("tracking", "sidereal"))
             try:
                 record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
             except Exception as exc:  # noqa: BLE001 - the fit is kept; only these columns lack
@@ -304,6 +306,31 @@ def _exposure_trails(wcs, geometry_row, frame, tracking):
                                          tracking=tracking)
 
 
+def _frame_tracking(frame, photometry, star_xy, item, shared):
+    """How this frame was tracked: the configuration, or a TRACKING header, or the stars."""
+    configured = shared.get("tracking", "sidereal")
+    if configured == "none" or not shared.get("tracking_check", True):
+        return nucleus_stage.TrackingVerdict(configured, "configuration")
+    from_header = nucleus_stage.tracking_from_header(frame.info.header)
+    if from_header is not None:
+        return nucleus_stage.TrackingVerdict(from_header, "header")
+    motion, _ = _exposure_trails(photometry.wcs or frame.wcs, item.get("geometry"), frame,
+                                 "sidereal")
+    fwhm = photometry.details.get("fwhm_pix")
+    if fwhm is None or not np.isfinite(fwhm):
+        return nucleus_stage.TrackingVerdict(configured, "configuration")
+    return nucleus_stage.tracking_from_stars(frame.data, frame.good, star_xy, motion,
+                                             fwhm_pix=float(fwhm), configured=configured)
+
+
+def _with_tracking_flag(row, verdict, configured):
+    """The nucleus row, flagged where the header or the stars overrode the configured mode."""
+    if verdict.source != "configuration" and verdict.mode != configured:
+        flag = "tracking_comet" if verdict.mode == "comet" else "tracking_sidereal"
+        row["flags"] = ",".join(f for f in (row["flags"], flag) if f)
+    return row
+
+
 def _run_nucleus(frame, photometry, item, shared):
     options = dict(shared.get("nucleus", {}))
     comet = photometry.comet
@@ -324,8 +351,9 @@ def _run_nucleus(frame, photometry, item, shared):
     fwhm_pix = photometry.details.get("fwhm_pix")
     if fwhm_pix is not None and np.isfinite(fwhm_pix):
         psf_options.setdefault("fallback_fwhm", float(fwhm_pix))
+    tracking = _frame_tracking(frame, photometry, star_xy, item, shared)
     trails = _exposure_trails(photometry.wcs or frame.wcs, item.get("geometry"), frame,
-                              shared.get("tracking", "sidereal"))
+                              tracking.mode)
     psf = nucleus_stage.measure_psf(frame, star_xy, exclude_xy=(x0, y0),
                                     star_trail=trails[1], **psf_options)
     zp = photometry.zero_point
@@ -333,4 +361,4 @@ def _run_nucleus(frame, photometry, item, shared):
         frame, x0, y0, psf, pixel_scale=pixel_scale, zero_point=zp.zp,
         zero_point_err=zp.zp_err, star_xy=star_xy, comet_trail=trails[0], star_trail=trails[1],
         rng=np.random.default_rng(_seed(item["content_hash"])), **options)
-    return fit, pixel_scale
+    return fit, pixel_scale, tracking

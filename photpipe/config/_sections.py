@@ -224,6 +224,8 @@ NUCLEUS = Section("nucleus", (
     Key("tracking", "text", "sidereal", '"sidereal": the comet trails; "comet": the stars '
         "trail (the orbit's rate times the exposure); \"none\": motion not modelled",
         choices=("sidereal", "comet", "none")),
+    Key("tracking_check", "boolean", True, "let a TRACKING header value, else the field stars' "
+        "shapes, override `tracking` frame by frame where they decide"),
     Key("psf_cutout_pix", "integer", 25, "side of the star stamps of the PSF", unit="pix",
         low=3, low_open=False),
     Key("psf_min_stars", "integer", 5, "fewest stars for a measured PSF", low=1,

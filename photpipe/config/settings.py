@@ -268,6 +268,7 @@ class NucleusSettings:
     detection_sigma: float
     profile: bool
     tracking: str
+    tracking_check: bool
     psf_cutout: int
     psf_min_stars: int
     psf_methods: tuple
@@ -302,8 +303,8 @@ def read_nucleus(config):
         gamma=v["gamma"], cutout=v["cutout_pix"], bootstrap=v["bootstrap"],
         modulation=v["modulation"], max_shift=v["max_shift_pix"],
         detection_sigma=v["detection_sigma"], profile=v["profile"], tracking=v["tracking"],
-        psf_cutout=v["psf_cutout_pix"], psf_min_stars=v["psf_min_stars"],
-        psf_methods=v["psf_methods"], psf_epsf=v["psf_epsf"])
+        tracking_check=v["tracking_check"], psf_cutout=v["psf_cutout_pix"],
+        psf_min_stars=v["psf_min_stars"], psf_methods=v["psf_methods"], psf_epsf=v["psf_epsf"])
 
 
 # -- campaign steps --------------------------------------------------------------------------

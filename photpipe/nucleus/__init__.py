@@ -29,6 +29,9 @@ from .result import *  # noqa: F403
 from .result import __all__ as _result_all
 from .table import *  # noqa: F403
 from .table import __all__ as _table_all
+from .tracking import *  # noqa: F403
+from .tracking import __all__ as _tracking_all
 
 __all__ = (_coma_all + _coma_afrho_all + _fisher_all + _fit_all + _models_all + _moffat_all
-           + _motion_all + _plot_all + _profile_all + _psf_all + _result_all + _table_all)
+           + _motion_all + _plot_all + _profile_all + _psf_all + _result_all + _table_all
+           + _tracking_all)
