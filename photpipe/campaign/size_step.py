@@ -14,7 +14,7 @@ import numpy as np
 from astropy import units as u
 
 from photpipe._warnings import PoorResultWarning
-from photpipe.config import ConfigError, read_size
+from photpipe.config import ConfigError, read_filters, read_size
 from photpipe.orbit.bound import acceleration_limit_from_fit
 from photpipe.size import (
     absolute_magnitude_limit,
@@ -54,9 +54,44 @@ def read_lightcurve(path):
     return table
 
 
-def _band(settings, table, name_of_file):
+def _one_filter(table, settings, config, where, notes):
+    """The lightcurve rows of one filter, and that filter's band (None: one filter only).
+
+    Magnitudes in two filters differ by the nucleus's colour, so an H from both would be
+    neither: the rows of ``[size] band`` are kept (through ``[filters]``), else those of the
+    most frequent filter.
+    """
+    if "filter" not in table.colnames or len(table) == 0:
+        return table, None
+    names = np.array([str(f).strip() for f in table["filter"]])
+    kinds, counts = np.unique(names, return_counts=True)
+    if len(kinds) < 2:
+        return table, None
+    filter_map = read_filters(config)
+
+    def band_of(name):
+        entry = filter_map.lookup(name)
+        return entry.band if entry is not None else name
+
+    if settings.band:
+        keep = [k for k in kinds if band_of(k).casefold() == settings.band.casefold()]
+        if not keep:
+            msg = (f"{where}: the lightcurve's filters ({', '.join(kinds)}) hold none in band "
+                   f"{settings.band!r} ([size] band)")
+            raise ValueError(msg)
+    else:
+        keep = [str(kinds[int(np.argmax(counts))])]
+    chosen = np.isin(names, keep)
+    notes.append(f"H from the {', '.join(keep)} rows only ({np.count_nonzero(chosen)} of "
+                 f"{len(table)}): magnitudes in other filters differ by the nucleus's colour")
+    return table[chosen], band_of(keep[0])
+
+
+def _band(settings, table, name_of_file, chosen=None):
     if settings.band:
         return settings.band
+    if chosen:
+        return chosen
     if "filter" in table.colnames:
         names = sorted({str(f) for f in table["filter"]})
         if len(names) == 1:
@@ -266,32 +301,33 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
         msg = "no lightcurve given: an H needs a lightcurve behind it"
         raise ValueError(msg)
     where = lightcurve_table.meta.get("path", "lightcurve")
+    notes = []
+    lightcurve_table, chosen_band = _one_filter(lightcurve_table, settings, config, where, notes)
     finite = lightcurve_table[np.isfinite(_plain(lightcurve_table["nucleus_mag"]))] \
         if "nucleus_mag" in lightcurve_table.colnames else lightcurve_table
     count = count_detections(_upper_limit_mask(finite), min_detections=settings.min_detections,
                              min_fraction=settings.min_detected_fraction)
     if len(finite) and not count.enough:
         result = _limit_result(lightcurve_table, settings,
-                               _band(settings, finite, name_of_file), count, where)
+                               _band(settings, finite, name_of_file, chosen_band), count, where)
         return _write(result, out_dir)
     rows = _usable_rows(lightcurve_table, where)
-    notes = []
     reduced = _reduced_magnitudes(rows, settings, where, notes)
     with warnings.catch_warnings(record=True) as caught:
         # poor but usable (a large H error, a mass below the momentum bound): kept, said
         warnings.simplefilter("always", PoorResultWarning)
         result, provenance = _assess(rows, reduced, rotation, settings, name_of_file, notes,
-                                     out_dir)
+                                     out_dir, chosen_band)
     return _write(result, out_dir, [str(w.message) for w in caught
                                     if issubclass(w.category, PoorResultWarning)], provenance)
 
 
-def _assess(rows, reduced, rotation, settings, name_of_file, notes, out_dir):
+def _assess(rows, reduced, rotation, settings, name_of_file, notes, out_dir, chosen_band=None):
     h = _absolute_magnitude(rows, reduced, rotation, notes)
     r_act = _activity_distance(rows, settings, notes)
     accel_limit, accel_provenance = _accel_limit(settings, out_dir, r_act, notes)
     return assess_nucleus(
-        h, band=_band(settings, rows, name_of_file), m_sun=settings.m_sun,
+        h, band=_band(settings, rows, name_of_file, chosen_band), m_sun=settings.m_sun,
         phase=_phase_coefficient(rows, settings), h_err_limit=settings.h_err_limit_mag,
         albedo=settings.albedo, albedo_range=settings.albedo_range,
         albedo_prior=settings.albedo_prior, density_range=settings.density_range,

@@ -40,3 +40,21 @@ def test_two_acceleration_units_refused(tmp_path):
         tmp_path, FULL_SIZE + "nongrav_accel_limit_m_s2 = 1e-9\n"))
     with pytest.raises(ConfigError, match="give one acceleration limit"):
         run_size_stage(config, make_lightcurve(), tmp_path)
+
+
+def test_h_from_one_filter_of_a_two_filter_lightcurve(tmp_path):
+    # A quarter of the frames in V, 0.45 mag fainter (invented colour): H must come from the R
+    # rows alone, as from the R-only lightcurve, not 0.11 mag fainter from the mixture.
+    config = load_config(write_size_config(tmp_path, FULL_SIZE))
+    only_r = run_size_stage(config, make_lightcurve(), tmp_path / "r")
+    lc = make_lightcurve()
+    v = [i % 4 == 0 for i in range(len(lc))]
+    lc["filter"] = ["V" if is_v else "R" for is_v in v]
+    lc["nucleus_mag"][v] += 0.45 * lc["nucleus_mag"].unit
+    out = run_size_stage(config, lc, tmp_path / "rv")
+    assert out["n_points"] == 60
+    assert abs(out["H_mag"] - only_r["H_mag"]) < 0.5 * only_r["H_err_mag"]
+    assert any("H from the R rows only (60 of 80)" in n for n in out["assumptions"])
+    config_v = load_config(write_size_config(tmp_path, FULL_SIZE + 'band = "B"\n'))
+    with pytest.raises(ValueError, match=r"filters \(R, V\) hold none in band 'B'"):
+        run_size_stage(config_v, lc, tmp_path / "b")
