@@ -229,6 +229,8 @@ class NightRun:
                                 "max_offset": settings.photometry.plate_max_offset}}
 
     def _measure(self, entry, night, plan, todo, keys, hashes):
+        # the worker processes start while the masters are built (serial work in this process)
+        self.run.runner.start_soon()
         masters = self._masters(night, plan)
         site, geometry, problem = self._geometry(entry, night, todo)
         calibrated = self.run.results / night.name / "calibrated"
