@@ -103,6 +103,10 @@ INSTRUMENTS = Section("instruments", (
         "integer type's full scale)", unit="adu", low=0.0),
     Key("pixel_scale_arcsec", "number", None, "sky size of one unbinned pixel, for plate "
         "solving (default: the header's)", unit="arcsec", low=0.0),
+    Key("trim_section", "text", None, "image area as a FITS section '[x1:x2,y1:y2]' (1-based, "
+        "inclusive; default: the header's TRIMSEC, else DATASEC)"),
+    Key("overscan_section", "text", None, "overscan strip as a FITS section, its median taken "
+        "off each frame (default: the header's BIASSEC)"),
     Key("trust_header", "texts", (), "values where the header wins over the ones above",
         choices=("gain", "read_noise", "saturation")),
     Key("time_reference", "text", "start", "the time keywords give the exposure's start or "

@@ -44,6 +44,7 @@ def _profile(config, name, table, frame_types):
             read_noise=v["read_noise"], saturation=v["saturation"],
             pixel_scale=v["pixel_scale_arcsec"], trust_header=tuple(v["trust_header"]),
             time_reference=v["time_reference"], keywords=tuple(keywords),
+            sections=(v["trim_section"], v["overscan_section"]),
             kind_map=kind_map_from_mapping(types))
     except (TypeError, ValueError) as exc:
         msg = f"{_file(config)}: {label}: {exc}"

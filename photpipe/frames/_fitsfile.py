@@ -121,32 +121,40 @@ def _image_data(hdu, path):
     return _as_2d(data, path)
 
 
-def image_sections(path, header, shape):
-    """The image area and the overscan strip a header declares, as numpy slices.
+def image_sections(path, header, shape, sections=None):
+    """The image area and the overscan strip, as numpy slices.
 
     The image area is TRIMSEC (else DATASEC), the overscan strip BIASSEC (FITS sections
     ``'[x1:x2,y1:y2]'``, 1-based, inclusive; common practice of CCD headers). Either is None
-    when the header has no such keyword.
+    when the header has no such keyword. ``sections`` (the camera's configured image area and
+    overscan strip, `InstrumentProfile.sections`) win over the header where given.
 
     Returns
     -------
     trim, overscan : tuple of slice (rows, cols) or None
     """
+    trim_text, overscan_text = sections if sections is not None else (None, None)
     trim = overscan = None
-    for key in ("TRIMSEC", "DATASEC"):
+    if trim_text:
+        trim = parse_section(path, "trim_section", trim_text, shape)
+    if overscan_text:
+        overscan = parse_section(path, "overscan_section", overscan_text, shape)
+    if trim_text and overscan_text:
+        return trim, overscan
+    for key in ("TRIMSEC", "DATASEC") if trim is None else ():
         value = header.get(key)
         if isinstance(value, str) and value.strip():
             trim = parse_section(path, key, value, shape)
             break
     value = header.get("BIASSEC")
-    if isinstance(value, str) and value.strip():
+    if overscan is None and isinstance(value, str) and value.strip():
         overscan = parse_section(path, "BIASSEC", value, shape)
     return trim, overscan
 
 
-def trimmed_shape(path, header, shape):
-    """``(ny, nx)`` of the image area (the whole array when the header declares none)."""
-    trim, _ = image_sections(path, header, shape)
+def trimmed_shape(path, header, shape, sections=None):
+    """``(ny, nx)`` of the image area (the whole array when none is declared)."""
+    trim, _ = image_sections(path, header, shape, sections)
     if trim is None:
         return tuple(shape)
     return (trim[0].stop - trim[0].start, trim[1].stop - trim[1].start)
@@ -166,14 +174,14 @@ def _overscan_level(path, array, overscan, bscale, bzero):
     return float(np.median(strip))
 
 
-def read_image(path, *, dtype=np.float32):
+def read_image(path, *, dtype=np.float32, sections=None):
     """Read the image area of ``path`` as a 2-D array of ``dtype`` (BZERO/BSCALE applied).
 
-    With a BIASSEC overscan strip, its median is subtracted.
+    With an overscan strip (BIASSEC, or the camera's ``sections``), its median is subtracted.
     """
     with open_image(path) as (hdul, index):
         data = _image_data(hdul[index], path)
-        trim, overscan = image_sections(path, hdul[index].header, data.shape)
+        trim, overscan = image_sections(path, hdul[index].header, data.shape, sections)
         level = 0.0 if overscan is None else _overscan_level(path, data, overscan, 1.0, 0.0)
         if trim is not None:
             data = data[trim]
@@ -182,7 +190,7 @@ def read_image(path, *, dtype=np.float32):
 
 
 @contextlib.contextmanager
-def stored_image(path):
+def stored_image(path, *, sections=None):
     """Yield ``(array, bscale, bzero)``: the first image as stored, read without a copy.
 
     An uncompressed image is memory-mapped and left as the file's values (big-endian integers,
@@ -197,13 +205,13 @@ def stored_image(path):
         if "BLANK" not in header:
             bscale, bzero = _scaling(path, header)
             data = _image_data(hdul[index], path)
-            trim, overscan = image_sections(path, header, data.shape)
+            trim, overscan = image_sections(path, header, data.shape, sections)
             if overscan is not None:
                 # the overscan level comes off through the zero point of the stored values
                 bzero -= _overscan_level(path, data, overscan, bscale, bzero)
             yield (data if trim is None else data[trim]), bscale, bzero
             return
-    yield read_image(path), 1.0, 0.0
+    yield read_image(path, sections=sections), 1.0, 0.0
 
 
 class RowReader:
@@ -218,23 +226,26 @@ class RowReader:
         Frame files, all of the same 2-D shape.
     shape : tuple of int
         Expected ``(ny, nx)``.
+    sections : list of tuple, optional
+        Each file's configured image area and overscan strip (`image_sections`).
     """
 
-    def __init__(self, paths, shape):
+    def __init__(self, paths, shape, sections=None):
         self.paths = [os.fspath(p) for p in paths]
         self.shape = tuple(shape)
+        self.sections = list(sections) if sections is not None else [None] * len(self.paths)
         self._stack = contextlib.ExitStack()
         self._hdus = []
         self._layout = []
 
     def __enter__(self):
         try:
-            for path in self.paths:
+            for path, sections in zip(self.paths, self.sections, strict=True):
                 hdul, index = self._stack.enter_context(open_image(path, memmap=False))
                 hdu = hdul[index]
                 full = tuple(hdu.shape[-2:])
-                trim, overscan = image_sections(path, hdu.header, full)
-                shape = trimmed_shape(path, hdu.header, full)
+                trim, overscan = image_sections(path, hdu.header, full, sections)
+                shape = trimmed_shape(path, hdu.header, full, sections)
                 if shape != self.shape:
                     msg = f"image shape {shape} differs from the group's {self.shape}"
                     raise FrameError(path, msg)

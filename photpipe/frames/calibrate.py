@@ -291,7 +291,7 @@ def calibrate_frame(frame, masters, *, detect_cosmics=True, cosmic_method="lacos
     prepared = prepare_calibration(bias, dark, flat, exptime=t, gain=gain,
                                    read_noise=read_noise)
     saturation = info.saturation.to_value(u.adu)
-    with stored_image(info.path) as (raw, bscale, bzero):
+    with stored_image(info.path, sections=info.sections) as (raw, bscale, bzero):
         if raw.shape != tuple(info.shape):
             raise FrameError(info.path, f"image shape {raw.shape} differs from its header's "
                                         f"{tuple(info.shape)}")

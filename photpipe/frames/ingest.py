@@ -215,7 +215,7 @@ def _frame_info(path, header, shape, *, kind_map, defaults, profile, profiles, n
     read_noise = _detector_value(path, header, "read_noise", profile, defaults, conflicts)
     saturation = _detector_value(path, header, "saturation", profile, defaults, conflicts)
     binning = _binning(path, header, profile)
-    shape = trimmed_shape(path, header, shape)
+    shape = trimmed_shape(path, header, shape, sections=profile.sections)
 
     _, filt = first_present(header, profile.keys("filter"))
     filt = None if kind in ("bias", "dark") or filt is None else str(filt).strip()
@@ -226,7 +226,8 @@ def _frame_info(path, header, shape, *, kind_map, defaults, profile, profiles, n
                      object_name="" if obj is None else str(obj).strip(), header=header,
                      instrument=profile.name,
                      pixel_scale=_pixel_scale(path, header, profile, binning),
-                     site=site_from_header(path, header), conflicts=tuple(conflicts))
+                     site=site_from_header(path, header), conflicts=tuple(conflicts),
+                     sections=tuple(profile.sections))
 
 
 @dataclass(frozen=True)

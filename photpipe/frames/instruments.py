@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from astropy import units as u
 
+from ._headers import _SECTION
 from .kinds import DEFAULT_KIND_MAP, KindMap
 
 __all__ = ["InstrumentProfile", "DEFAULT_PROFILE", "DEFAULT_KEYWORDS", "DETECTOR_VALUES",
@@ -63,6 +64,9 @@ class InstrumentProfile:
         Replacements for entries of `DEFAULT_KEYWORDS`.
     kind_map : `KindMap`
         Frame-type keyword and its values.
+    sections : tuple of (str or None, str or None)
+        The image area and the overscan strip as FITS sections, where the camera's headers
+        do not say them (TRIMSEC/DATASEC, BIASSEC); None: the header's.
 
     Examples
     --------
@@ -82,6 +86,7 @@ class InstrumentProfile:
     time_reference: str = "start"
     keywords: tuple = ()
     kind_map: KindMap = field(default=DEFAULT_KIND_MAP)
+    sections: tuple = (None, None)
 
     def __post_init__(self):
         if self.time_reference not in ("start", "middle"):
@@ -94,6 +99,11 @@ class InstrumentProfile:
             msg = (f"instrument {self.name!r}: unknown name(s) {', '.join(map(repr, unknown))}; "
                    f"known: {', '.join(DEFAULT_KEYWORDS)}")
             raise ValueError(msg)
+        for label, text in zip(("trim_section", "overscan_section"), self.sections, strict=True):
+            if text is not None and not _SECTION.match(str(text)):
+                msg = (f"instrument {self.name!r}: {label} must be a FITS section "
+                       f"'[x1:x2,y1:y2]', got {text!r}")
+                raise ValueError(msg)
         for name, (unit, low, high) in DETECTOR_VALUES.items():
             value = getattr(self, name)
             if value is not None and not (isinstance(value, (int, float))
@@ -149,7 +159,7 @@ def choose_profile(header, profiles, *, night_profile=None):
 
 
 _FIELDS = {"match_keyword", "match_values", "gain", "read_noise", "saturation", "pixel_scale",
-           "trust_header", "time_reference", "keywords", "frame_types"}
+           "trust_header", "time_reference", "keywords", "frame_types", "sections"}
 
 
 def profile_from_mapping(name, section):
@@ -184,8 +194,9 @@ def profile_from_mapping(name, section):
     values = section.pop("match_values", ())
     values = (values,) if isinstance(values, str) else tuple(values)
     trust = tuple(section.pop("trust_header", ()))
+    sections = tuple(section.pop("sections", (None, None)))
     return InstrumentProfile(name=name, keywords=kw, kind_map=kinds, match_values=values,
-                             trust_header=trust, **section)
+                             trust_header=trust, sections=sections, **section)
 
 
 def pixel_scale_from_header(header):

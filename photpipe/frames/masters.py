@@ -182,7 +182,8 @@ def _combine_rows(members, shape, prepare, noise_var, *, method, sigma, maxiters
     n_used = np.empty(shape, np.int16)
     rejected = 0
     factor = 1.0
-    with RowReader([m.path for m in members], shape) as reader:
+    with RowReader([m.path for m in members], shape,
+                   [m.sections for m in members]) as reader:
         stack = np.empty((min(block_rows, ny), nx, len(members)), np.float32)
         for r0 in range(0, ny, block_rows):
             r1 = min(ny, r0 + block_rows)
@@ -441,7 +442,7 @@ def _flat_level(info, key, bias, dark_data):
                                     flat_field=False)
     dark = None if choice.dark is None else dark_data[choice.dark]
     t = info.exptime.to_value(u.s)
-    raw = read_image(info.path)
+    raw = read_image(info.path, sections=info.sections)
     sat = info.saturation.to_value(u.adu)
     frac = float(np.mean(raw >= sat))
     if frac > 0.01:

@@ -74,6 +74,9 @@ class FrameInfo:
         Observing site from the header; None: the night's site applies.
     conflicts : tuple of str
         Header values that differ from the configured ones (the configured value was used).
+    sections : tuple of (str or None, str or None)
+        The camera's configured image area and overscan strip (FITS sections), where they
+        replace the header's TRIMSEC/DATASEC and BIASSEC; (None, None): the header's.
     """
 
     path: str
@@ -92,6 +95,7 @@ class FrameInfo:
     pixel_scale: u.Quantity | None = field(default=None, compare=False)
     site: object = field(default=None, compare=False, repr=False)
     conflicts: tuple = field(default=(), compare=False, repr=False)
+    sections: tuple = field(default=(None, None), compare=False, repr=False)
 
     @property
     def name(self):

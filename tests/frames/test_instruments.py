@@ -203,3 +203,36 @@ def test_non_numeric_scaling_named_at_ingest(tmp_path, key):
         hdul[0].header[key] = "abc"
     with pytest.raises(FrameError, match=f"{key} = 'abc' is not a finite number"):
         read_frame_info(path)
+
+
+def test_configured_sections_replace_missing_keywords(tmp_path):
+    # The same 8 x 14 raw frame as above, its header without TRIMSEC/BIASSEC: the camera's
+    # configured sections give the same image area and bias level (the keyword case above).
+    data = np.full((8, 14), 1000, np.uint16)
+    data[:, 12:] = 990
+    data[:, :12] += np.arange(12, dtype=np.uint16)
+    path = _write(tmp_path / "a.fits", _plain_header(GAIN=1.0, RDNOISE=5.0), data)
+    cam = profile_from_mapping("cam", {"match_values": ["Cam A"],
+                                       "sections": ("[1:12,1:8]", "[13:14,1:8]")})
+    info = read_frame_info(path, profiles=[cam])
+    assert info.shape == (8, 12) and info.sections == ("[1:12,1:8]", "[13:14,1:8]")
+    from photpipe.frames._fitsfile import read_image, stored_image
+    with stored_image(path, sections=info.sections) as (raw, bscale, bzero):
+        phys = np.asarray(raw, float) * bscale + bzero
+    np.testing.assert_allclose(phys[0], 10.0 + np.arange(12))
+    np.testing.assert_allclose(read_image(path, sections=info.sections)[0], 10.0 + np.arange(12))
+
+
+def test_bad_configured_section_named():
+    with pytest.raises(ValueError, match=r"overscan_section must be a FITS section"):
+        InstrumentProfile(name="x", sections=(None, "13:14,1:8"))
+
+
+def test_config_sections_reach_the_profile(tmp_path):
+    from photpipe.config import ConfigError, read_instruments
+
+    (cam,) = read_instruments({"instruments": {"cam": {
+        "trim_section": "[1:2048,1:2048]", "overscan_section": "[2049:2080,1:2048]"}}})
+    assert cam.sections == ("[1:2048,1:2048]", "[2049:2080,1:2048]")
+    with pytest.raises(ConfigError, match="trim_section must be a FITS section"):
+        read_instruments({"_file": "c.toml", "instruments": {"cam": {"trim_section": "all"}}})

@@ -42,8 +42,8 @@ def clean_night(tmp_path_factory):
     return truth, stars, _reduce(__import__("pathlib").Path(truth.folder), stars, solve=False)
 
 
-def _reduce(folder, stars, *, solve):
-    night = scan_night(folder, profiles=[CAMERA])
+def _reduce(folder, stars, *, solve, camera=CAMERA):
+    night = scan_night(folder, profiles=[camera])
     assert not night.skipped, night.skipped
     masters = build_masters(plan_calibrations(night), folder / "masters")
     geometry = QTable({"r_h": [1.5] * u.au, "delta": [1.0] * u.au, "phase": [30.0] * u.deg,
@@ -70,6 +70,32 @@ def test_styled_night_reduces_like_the_clean_one(clean_night, tmp_path, style):
     assert len(paths) == 5 + 3 + 4 + 2
     for (zp_a, zpe_a, m_a, me_a), (zp_b, zpe_b, m_b, me_b) in zip(clean, styled, strict=True):
         # the same pixels: zero points and magnitudes agree well within their errors
+        assert abs(zp_a - zp_b) < 0.5 * np.hypot(zpe_a, zpe_b) + 1e-3
+        assert np.all(np.abs(m_a - m_b) < 0.5 * np.hypot(me_a, me_b) + 1e-3)
+
+
+@pytest.mark.slow
+def test_overscan_from_the_configuration(clean_night, tmp_path):
+    # The overscan night with BIASSEC/TRIMSEC taken out of every header: the camera's
+    # configured sections must give the same numbers as the keywords did.
+    truth, stars, clean = clean_night
+    paths = restyle_night(truth, tmp_path, "overscan", rng=3)
+    sections = None
+    for path in paths.values():
+        with fits.open(path, mode="update") as hdul:
+            for hdu in hdul:  # a compressed file repeats the cards in its primary header
+                sections = (hdu.header.pop("TRIMSEC", sections and sections[0]),
+                            hdu.header.pop("BIASSEC", sections and sections[1]))
+    camera = profile_from_mapping("scenario", {
+        "match_values": [INSTRUMENT.name], "gain": 1.6, "read_noise": 8.0,
+        "saturation": 60000.0, "pixel_scale": 1.0, "sections": sections})
+    # without the sections the overscan columns would count as image
+    assert {f.shape for f in scan_night(tmp_path, profiles=[CAMERA]).frames} != {
+        INSTRUMENT.shape}
+    assert {f.shape for f in scan_night(tmp_path, profiles=[camera]).frames} == {
+        INSTRUMENT.shape}
+    styled = _reduce(tmp_path, stars, solve=False, camera=camera)
+    for (zp_a, zpe_a, m_a, me_a), (zp_b, zpe_b, m_b, me_b) in zip(clean, styled, strict=True):
         assert abs(zp_a - zp_b) < 0.5 * np.hypot(zpe_a, zpe_b) + 1e-3
         assert np.all(np.abs(m_a - m_b) < 0.5 * np.hypot(me_a, me_b) + 1e-3)
 
