@@ -9,6 +9,7 @@ measured; and every row the store held before must still be there, unchanged.
 
 import math
 import shutil
+import sqlite3
 import warnings
 from collections import Counter
 from pathlib import Path
@@ -57,12 +58,18 @@ def measured(tmp_path_factory):
 
 
 def _copy_campaign(measured, folder):
-    """The measured campaign copied to ``folder`` (night, results, config).
+    """The measured campaign copied to ``folder`` (night, results, config), as if made there.
 
     The reference stars stay where they are: the same catalogue, so the same configuration.
     """
     for name in ("night", "results"):
         shutil.copytree(measured.root / name, folder / name)
+    # the copy's store names the copy's files (frames are known by content and full path)
+    db = sqlite3.connect(folder / "results" / "campaign.sqlite")
+    db.execute("UPDATE frames SET path = replace(path, ?, ?)",
+               (str(measured.root), str(folder)))
+    db.commit()
+    db.close()
     return write_config(folder, [str(folder / "night")],
                         stars_path=str(measured.root / "stars.ecsv"))
 
@@ -123,19 +130,17 @@ def test_the_other_frames_are_measured_and_earlier_rows_kept(measured, corpus_ru
 
 @pytest.mark.parametrize("kind", ["truncated_in_data", "pixels_all_nan"])
 def test_a_measured_frame_spoilt_on_disk_keeps_its_rows(measured, tmp_path, kind):
-    # the same file name now holds a bad file: the attempt fails, the earlier rows stay
+    # the same file now holds a bad file: the attempt fails, the earlier rows stay
     config = _copy_campaign(measured, tmp_path)
-    night = tmp_path / "night"
-    target = night / "sci_0001.fits.fz"
+    target = tmp_path / "night" / "sci_0001.fits.fz"
     data, header = good_frame(target)
-    target.unlink()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        KINDS[kind][0](night / "sci_0001.fits", data, header)
+        KINDS[kind][0](target, data, header)
     summary = _run(config)
     (n,) = summary.nights
-    assert any(s.item.endswith("sci_0001.fits") or s.item == "sci_0001" for s in n.skipped)
-    assert n.measured == 0
+    assert any(s.item.endswith("sci_0001.fits.fz") or s.item == "sci_0001" for s in n.skipped)
+    assert n.measured == 0, [str(s) for s in n.skipped]
     after = contents(tmp_path / "results" / "campaign.sqlite")
     for table in ("measurements", "nucleus", "zero_points", "stars"):
         assert list(map(_comparable, after[table])) == \
