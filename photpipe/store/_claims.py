@@ -77,8 +77,13 @@ def _free_name(db, night, path, frame_id, newcomer):
 
 
 def _rename(db, frame_id, night, name, path, old_calibrated, calibrated_for, moves):
+    old_night, old_name = db.execute("SELECT night, name FROM frames WHERE id = ?",
+                                     (frame_id,)).fetchone()
     db.execute("UPDATE frames SET night = ?, name = ?, path = ? WHERE id = ?",
                (night, name, path, frame_id))
+    # the frame's problems go by its new name too
+    db.execute("UPDATE OR REPLACE skipped SET night = ?, item = ? WHERE night = ? AND item = ?",
+               (night, name, old_night, old_name))
     if old_calibrated:
         new = str(calibrated_for(night, name))
         db.execute("UPDATE frame_results SET calibrated_path = ? WHERE frame_id = ?",
