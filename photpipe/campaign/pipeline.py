@@ -69,8 +69,18 @@ class _Run:
             if summary:
                 # The step's own account goes to the log whole; the screen gets its title.
                 log.info("%s step:\n%s", name, summary)
-                self.echo(f"{name}: {str(summary).splitlines()[0]} (full text in the log)")
+                self.echo(_step_line(name, written, summary))
             self.summary.outputs.extend(str(p) for p in _paths(written))
+
+
+def _step_line(name, written, summary):
+    """The screen's line for a campaign step: the size step's radius with its status (as the
+    end headline says it), any other step's title."""
+    if name == "size" and isinstance(written, dict):
+        from photpipe.report import size_line
+
+        return f"size: {size_line(written)} (full text in the log)"
+    return f"{name}: {str(summary).splitlines()[0]} (full text in the log)"
 
 
 def _paths(written):
