@@ -74,8 +74,11 @@ class _Run:
 
 
 def _step_line(name, written, summary):
-    """The screen's line for a campaign step: the size step's radius with its status (as the
-    end headline says it), any other step's title."""
+    """The screen's line for a campaign step.
+
+    The size step's line gives the radius with its status (as the end headline says it); any
+    other step's gives its title.
+    """
     if name == "size" and isinstance(written, dict):
         from photpipe.report import size_line
 
