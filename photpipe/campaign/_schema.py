@@ -155,6 +155,49 @@ GEOMETRY_COLUMNS = (
     _c("light_time_s", unit=u.s),
 )
 
+#: The comet's position on each frame (one row per frame): ``photpipe.orbit.comet_position_row``.
+ASTROMETRY_COLUMNS = (
+    _c("mjd_utc_mid", description="mid-exposure time, MJD (UTC)"),
+    _c("x_pix", unit=u.pix, description="centre of light, 0-based"),
+    _c("y_pix", unit=u.pix),
+    _c("x_err_pix", unit=u.pix, description="centroid error from the pixel noise, field stars "
+                                            "and masking"),
+    _c("y_err_pix", unit=u.pix),
+    _c("ra_deg", unit=u.deg, description="through the refined WCS"),
+    _c("dec_deg", unit=u.deg),
+    _c("ra_err_arcsec", unit=u.arcsec, description="1-sigma error of RA cos(Dec): centroid and "
+                                                   "plate solution in quadrature"),
+    _c("dec_err_arcsec", unit=u.arcsec),
+    _c("radec_corr", description="correlation of the RA and Dec errors"),
+    _c("centroid_err_arcsec", unit=u.arcsec, description="per-axis centroid error"),
+    _c("plate_err_arcsec", unit=u.arcsec, description="per-axis error of the refined WCS at "
+                                                      "the comet"),
+    _c("star_rms_arcsec", unit=u.arcsec, description="per-axis rms of the reference stars "
+                                                     "about the refined WCS"),
+    _c("n_ref_stars", "INTEGER", description="stars in the WCS fit"),
+    _c("stn", "TEXT", description="station (the site's name)"),
+    _c("object", "TEXT"),
+    _c("ast_cat", "TEXT", description="reference catalogue"),
+    _c("lon_deg", unit=u.deg, description="site east longitude (WGS84)"),
+    _c("lat_deg", unit=u.deg),
+    _c("height_m", unit=u.m),
+)
+
+_SB = u.electron / (u.s * u.arcsec**2)
+
+#: The coma's surface-brightness profile of each frame (a row per annulus).
+PROFILE_COLUMNS = (
+    _c("rho_km", unit=u.km, description="mean radius of the annulus at the comet"),
+    _c("rho_arcsec", unit=u.arcsec),
+    _c("sb_e_s_arcsec2", unit=_SB, description="mean surface brightness, all azimuths"),
+    _c("sb_err_e_s_arcsec2", unit=_SB),
+    _c("sb_sun_e_s_arcsec2", unit=_SB, description="sunward sector"),
+    _c("sb_sun_err_e_s_arcsec2", unit=_SB),
+    _c("sb_tail_e_s_arcsec2", unit=_SB, description="tailward sector"),
+    _c("sb_tail_err_e_s_arcsec2", unit=_SB),
+    _c("n_pix", "INTEGER"),
+)
+
 #: Table name -> (columns after the frame key, one row per frame?). These hold a frame's results
 #: and are replaced as a whole when the frame is measured again.
 RESULT_TABLES = {
@@ -163,6 +206,8 @@ RESULT_TABLES = {
     "stars": (STAR_COLUMNS, False),
     "measurements": (MEASUREMENT_COLUMNS, False),
     "nucleus": (NUCLEUS_COLUMNS, True),
+    "astrometry": (ASTROMETRY_COLUMNS, True),
+    "profiles": (PROFILE_COLUMNS, False),
 }
 
 #: Bookkeeping tables with their columns (in export order).
@@ -215,6 +260,14 @@ LABELS = {
     "colour_term_err": "colour-term error", "n_rejected": "stars rejected",
     "rms_mag": "star residual rms", "band": "band", "aperture_correction":
     "aperture correction", "light_time_s": "light time",
+    "x_err_pix": "comet x error", "y_err_pix": "comet y error",
+    "ra_err_arcsec": "RA cos(Dec) error", "dec_err_arcsec": "declination error",
+    "radec_corr": "RA-Dec error correlation", "centroid_err_arcsec": "centroid error",
+    "plate_err_arcsec": "plate-solution error at the comet",
+    "star_rms_arcsec": "reference-star rms about the WCS", "n_ref_stars": "stars in the WCS fit",
+    "stn": "station", "object": "object", "ast_cat": "reference catalogue",
+    "sb_e_s_arcsec2": "surface brightness Σ", "sb_sun_e_s_arcsec2": "Σ, sunward sector",
+    "sb_tail_e_s_arcsec2": "Σ, tailward sector",
 }
 
 

@@ -20,6 +20,7 @@ from pathlib import Path
 from photpipe.config import ConfigError, read_run
 from photpipe.store import CampaignStore, write_table_atomic
 
+from .astrometry_files import write_campaign_positions
 from .hashing import config_hash
 from .night import NIGHT_TABLES, NightRun, night_name
 from .preflight import check_before_frames
@@ -57,6 +58,9 @@ class _Run:
             write_table_atomic(lightcurve, path)
         lightcurve.meta["path"] = str(path)
         self.summary.outputs.append(str(path))
+        positions = write_campaign_positions(self.store, self.results)
+        if positions is not None:
+            self.summary.outputs.append(str(positions))
         steps = run_campaign_steps(
             self.config, lightcurve, self.store.export_table("measurements"),
             self.store.export_table("nucleus"), self.results, echo=self.echo,

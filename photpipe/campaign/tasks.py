@@ -19,6 +19,7 @@ from photpipe import frames as frame_stage
 from photpipe import nucleus as nucleus_stage
 from photpipe import photometry as photometry_stage
 
+from . import frame_views
 from .records import FrameRecord
 
 __all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
@@ -164,7 +165,12 @@ def process_frame(item, shared):
         else:
             photometry.comet["coma_slope_err"] = photometry.details.get("coma_slope_err", np.nan)
             record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
-                          zero_point=_zero_point_row(photometry))
+                          zero_point=_zero_point_row(photometry),
+                          profile=frame_views.profile_rows(photometry.profile))
+            try:
+                record["astrometry"] = _comet_position(frame, photometry, item, shared)
+            except Exception as exc:  # noqa: BLE001 - the photometry is kept
+                problems.append(("astrometry", f"no comet position: {_reason(exc, info)}"))
     if "nucleus" in stages and photometry is not None:
         try:
             fit, pixel_scale = _run_nucleus(frame, photometry, item, shared)
@@ -172,6 +178,7 @@ def process_frame(item, shared):
             problems.append(("nucleus", _reason(exc, info)))
         else:
             record["nucleus"] = fit.to_row()
+            record["nucleus_images"] = frame_views.nucleus_cutouts(fit)
             try:
                 record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
             except Exception as exc:  # noqa: BLE001 - the fit is kept; only these columns lack
@@ -196,6 +203,52 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     for name in coma.colnames:
         out[name] = coma[name]
     return out
+
+
+def _comet_position(frame, photometry, item, shared):
+    """The comet's sky position with its error (`photpipe.orbit.comet_position_row`)."""
+    from photpipe import orbit
+
+    details = photometry.details
+    comet = photometry.comet
+    if len(comet) == 0 or "centroid_mask" not in details:
+        msg = "the photometry stage gave no comet centre"
+        raise ValueError(msg)
+    x = float(u.Quantity(comet["x_pix"][0]).value)
+    y = float(u.Quantity(comet["y_pix"][0]).value)
+    star_xy, star_flux = _catalogue_light(frame, photometry, shared)
+    moffat = details.get("psf_moffat") or {}
+    cov = orbit.centre_of_light_covariance(
+        frame.data, frame.variance, x, y, sky=details["centroid_sky"],
+        box=details["centroid_box_pix"], mask=details["centroid_mask"], star_xy=star_xy,
+        star_flux=star_flux,
+        moffat=(moffat["alpha_pix"], moffat["beta"]) if "alpha_pix" in moffat else None)
+    fit = details.get("wcs_correction") or {}
+    location = frame.info.site if frame.info.site is not None else shared.get("site_location")
+    return orbit.comet_position_row(
+        x, y, cov, wcs=photometry.wcs, star_rms_pix=fit.get("rms", np.nan),
+        n_stars=fit.get("n_matched", 0), time_mid=frame.info.time_mid,
+        station=item.get("site") or "own",
+        object_id=shared.get("target_name") or frame.info.object_name or "comet",
+        catalogue=shared.get("catalogue_name") or "unknown",
+        location=location)
+
+
+def _catalogue_light(frame, photometry, shared):
+    """Pixel positions and fluxes (electrons) of the catalogue's stars on the frame."""
+    path = shared.get("reference_store")
+    if path is None:
+        return None, None
+    stars = frame_reference_stars(frame, path)
+    band = _band(frame, shared)[0]
+    if band not in stars.colnames:
+        return None, None
+    ra = u.Quantity(stars["ra"], u.deg).value
+    dec = u.Quantity(stars["dec"], u.deg).value
+    x, y = photometry.wcs.world_to_pixel_values(ra, dec)
+    mag = np.asarray(u.Quantity(stars[band]).value, dtype=float)
+    flux = float(frame.info.exptime.to_value(u.s)) * 10 ** (-0.4 * (mag - photometry.zero_point.zp))
+    return np.column_stack([x, y]), flux
 
 
 def _band(frame, shared):
