@@ -120,13 +120,15 @@ def process_frame(item, shared):
         functions), ``tracking`` ("sidereal" or "comet": which of comet and stars trail),
         ``reference_store`` (path of the campaign's
         `~photpipe.photometry.ReferenceStarStore`, or None) and ``reference_problem`` (why
-        there is none).
+        there is none); ``target_name`` and ``catalogue_name`` label the comet's position.
 
     Returns
     -------
     FrameRecord
         Results of each stage that succeeded, and ``problems`` naming each stage that did not
-        and why. A frame whose calibration fails carries only its problem.
+        and why. A frame whose calibration fails carries only its problem. With the
+        photometry come the coma profile and the comet's sky position with its error
+        (`photpipe.orbit.comet_position_row`); with the nucleus fit, its small images.
     """
     info = item["info"]
     stages = tuple(shared["stages"])
