@@ -12,10 +12,10 @@ from scipy.optimize import least_squares
 from photpipe._quantity import as_positive_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.frames.types import CalibratedFrame
+from photpipe.models.moffat import moffat_pixel_image, moffat_surface
 
 from ._residuals import shared_residual_z
 from ._stamps import cut_star_stamps, fit_profile_to_stamp
-from .moffat import moffat_pixel_image, moffat_surface
 from .psf_epsf import build_epsf_image
 from .psf_moffat import fit_moffat_shape
 
