@@ -303,8 +303,7 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     The model (see `photpipe.nucleus.models`) is fitted with lmfit, weighting each pixel by the
     inverse of the variance plane. The centre and γ are varied by Levenberg-Marquardt; the
     amplitudes (F_n, K, azimuthal terms, sky, uncatalogued stars) are solved linearly at every
-    step (variable projection, Golub & Pereyra 1973). How the error is formed, and why: the
-    module's notes.
+    step (variable projection, Golub & Pereyra 1973). The error: see the module's notes.
 
     Examples
     --------
