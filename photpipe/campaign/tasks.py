@@ -18,6 +18,7 @@ from astropy import units as u
 from photpipe import frames as frame_stage
 from photpipe import nucleus as nucleus_stage
 from photpipe import photometry as photometry_stage
+from photpipe import schema
 
 from . import frame_views
 from .records import FrameRecord
@@ -28,10 +29,8 @@ __all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
 #: line, since it points at a bug rather than at the data.
 FRAME_ERRORS = (ValueError, TypeError, KeyError, OSError, RuntimeError, ArithmeticError)
 
-#: Geometry columns of ``observing_geometry`` -> stored column.
-_GEOMETRY_MAP = {"r_h": "r_h_au", "delta": "delta_au", "phase": "phase_deg",
-                 "elong": "elong_deg", "ra": "ra_deg", "dec": "dec_deg",
-                 "light_time": "light_time_s"}
+#: Geometry columns of ``observing_geometry`` -> stored column (from the schema).
+_GEOMETRY_MAP = schema.stage_names("geometry")
 
 
 def _reason(exc, info):
@@ -306,11 +305,8 @@ def _run_photometry(frame, geometry_row, shared):
     return photometry_stage.measure_comet_frame(frame, stars, geometry_row[0], **options)
 
 
-#: Field-star table of the photometry stage -> stored column.
-_STAR_MAP = {"id": "star_id", "ra": "ra_deg", "dec": "dec_deg", "x": "x_pix", "y": "y_pix",
-             "flux": "flux_e_s", "flux_err": "flux_err_e_s", "inst_mag": "mag_inst",
-             "inst_mag_err": "mag_inst_err", "cat_mag": "mag_ref", "cat_mag_err": "mag_ref_err",
-             "colour": "colour_ref", "residual": "residual_mag", "used": "used"}
+#: Field-star table of the photometry stage -> stored column (from the schema).
+_STAR_MAP = schema.stage_names("stars")
 
 
 def _star_rows(stars):
