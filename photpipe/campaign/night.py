@@ -29,7 +29,8 @@ __all__ = ["NightRun", "night_name", "NIGHT_TABLES"]
 log = logging.getLogger("photpipe.campaign")
 
 #: Tables exported into each night's folder.
-NIGHT_TABLES = ("frames", "measurements", "nucleus", "stars", "zero_points", "skipped")
+NIGHT_TABLES = ("frames", "measurements", "nucleus", "stars", "zero_points", "astrometry",
+                "profiles", "skipped")
 
 
 def night_name(night):
@@ -116,12 +117,13 @@ class NightRun:
             return
         keys = frame_keys(inventory.frames)
         hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
+        same = self._claim(night, inventory, keys, hashes)
         self._add_frames(entry, night, inventory, keys, hashes)
         plan = frames.plan_calibrations(inventory,
                                         require_dark=self.run.settings.frames.require_dark)
         for s in plan.skipped:
             self.skip(night, keys.get(s.item, s.item), s.stage, s.reason)
-        todo = self._to_measure(night, plan, keys, hashes)
+        todo = self._to_measure(night, plan, keys, hashes, same)
         if todo:
             self._measure(entry, night, plan, todo, keys, hashes)
         self._export(night)
@@ -165,9 +167,46 @@ class NightRun:
              "exptime_s": info.exptime, "site": entry.get("site")}
             for info in inventory.frames)
 
-    def _to_measure(self, night, plan, keys, hashes):
+    def _claim(self, night, inventory, keys, hashes):
+        """Science files claim their results by content and full path (`claim_frame`).
+
+        Results follow a renamed or moved file, and their calibrated file with them; another
+        file's results under a reused name are kept under that file's name. Returns
+        ``path -> "night/frame"`` of files whose content was measured from another file that
+        still holds it.
+        """
+        calibrated = self.run.results
+
+        def calibrated_for(night_name, key):
+            return calibrated / night_name / "calibrated" / calibrated_name(key)
+
+        def holds_content(path, digest):
+            if path in hashes:
+                return hashes[path] == digest
+            return os.path.isfile(path) and file_sha256(path) == digest
+
+        same = {}
+        for info in inventory.of_kind("science"):
+            key = keys[info.path]
+            claim = self.run.store.claim_frame(
+                night.name, key, info.path, hashes[info.path], holds_content=holds_content,
+                calibrated_for=calibrated_for)
+            for old, new in claim.calibrated_moves:
+                _move_file(old, new)
+            if claim.same_as:
+                same[info.path] = claim.same_as
+            if claim.moved_from:
+                log.info("%s/%s: the results of %s (same content) go by this name now",
+                         night.name, key, claim.moved_from)
+            if claim.set_aside:
+                self.run.echo(f"night {night.name}: {key} is a new file; the results of the "
+                              f"earlier file of that name are kept as {claim.set_aside}")
+        return same
+
+    def _to_measure(self, night, plan, keys, hashes, same):
         """Science frames not measured yet with this content and configuration."""
-        same = duplicates(plan.science, hashes, keys)
+        fresh = [info for info in plan.science if info.path not in same]
+        same = {**same, **duplicates(fresh, hashes, keys)}
         todo = []
         for info in plan.science:
             key = keys[info.path]
@@ -225,6 +264,9 @@ class NightRun:
                 "site_location": site,
                 "reference_store": reference.store_path, "reference_problem": reference.problem,
                 "filters": settings.filters,
+                "target_name": str(self.run.config.get("target", {}).get("name") or ""),
+                "catalogue_name": os.path.basename(str(
+                    self.run.config.get("photometry", {}).get("reference_stars") or "")),
                 "plate_solve": {"mode": settings.photometry.plate_solve,
                                 "max_offset": settings.photometry.plate_max_offset}}
 
@@ -260,6 +302,8 @@ class NightRun:
             # A result the store cannot take (a unit it does not know) is nothing stored.
             self.skip(night, frame, "store", str(exc))
             return
+        if stored is not None and result.nucleus_images:
+            self._keep_images(night, frame, result.nucleus_images)
         for stage, reason in result.problems:
             night.skipped.append(Skipped(frame, stage, reason))
             log.info("%s/%s [%s]: %s", night.name, frame, stage, reason)
@@ -269,6 +313,15 @@ class NightRun:
                      frame)
         elif not any(stage == "calibration" for stage, _ in result.problems):
             night.measured += 1
+
+    def _keep_images(self, night, frame, images):
+        """The nucleus fit's small images beside the store (a failure costs only the figure)."""
+        from .frame_views import nucleus_images_path, write_nucleus_images
+
+        try:
+            write_nucleus_images(images, nucleus_images_path(self.run.results, night.name, frame))
+        except OSError as exc:
+            log.info("%s/%s: nucleus images not kept (%s)", night.name, frame, exc)
 
     def _export(self, night):
         folder = self.run.results / night.name
@@ -280,6 +333,20 @@ class NightRun:
                 log.info("%s: left as it was (the store has no rows for it)", path)
                 continue
             night.outputs.append(str(write_export(data, path)))
+        from .astrometry_files import write_night_positions
+
+        night.outputs.extend(write_night_positions(self.run.store, folder, night.name))
+
+
+def _move_file(old, new):
+    """Rename a calibrated file to follow its results (nothing to do when it is not there)."""
+    try:
+        Path(new).parent.mkdir(parents=True, exist_ok=True)
+        os.replace(old, new)
+    except FileNotFoundError:
+        pass
+    except OSError as exc:
+        log.warning("%s: could not be renamed to %s (%s)", old, new, exc)
 
 
 def _stem(path):

@@ -308,3 +308,16 @@ def test_solar_band_names_the_suns_magnitude(standard_frame, standard):
     assert "no_solar_magnitude" not in r.flags
     np.testing.assert_allclose(r.comet["afrho_cm"].value, r_plain.comet["afrho_cm"].value,
                                rtol=1e-9)
+
+
+def test_every_emitted_column_is_in_the_schema_with_its_unit(standard):
+    _, r, _ = standard
+    from _schema_check import assert_in_schema
+
+    from photpipe import schema
+
+    assert_in_schema(r.comet, schema.MEASUREMENT_COLUMNS, "measurements")
+    stars = r.stars[[n for n in r.stars.colnames if n in schema.stage_names("stars")]]
+    stars = stars.__class__({schema.stage_names("stars")[n]: stars[n] for n in stars.colnames})
+    assert len(stars.colnames) == len(schema.STAR_COLUMNS)
+    assert_in_schema(stars, schema.STAR_COLUMNS, "stars")

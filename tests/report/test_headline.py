@@ -74,3 +74,18 @@ def test_headline_keeps_to_the_trend_filter_and_names_the_colour():
         in text
     assert "comet colour R-V: -0.452 ± 0.013 mag (7 frames paired)" in text
     assert "comet colour R-B: none (0 R frame(s) with a B frame within 30 min)" in text
+
+
+def test_run_screen_size_line_carries_radius_and_status():
+    # the in-run line says what the end headline says, not only the step's title
+    from photpipe.campaign.pipeline import _step_line
+
+    size = {"radius_km": 3.1, "radius_lo_km": 2.6, "radius_hi_km": 3.7, "albedo": 0.04,
+            "status": "insecure", "reason": "H rests on 12 points", "summary": "Nucleus size"}
+    line = _step_line("size", size, size["summary"])
+    assert line.startswith("size: nucleus radius: 3.1 km (68 % interval")
+    assert "INSECURE: H rests on 12 points" in line
+    limit = {"radius_upper_limit_km": 1.2, "status": "upper_limit", "summary": "limit"}
+    assert "below 1.2 km (upper limit)" in _step_line("size", limit, "limit")
+    assert _step_line("rotation", {}, "Rotation\nmore") == \
+        "rotation: Rotation (full text in the log)"
