@@ -16,7 +16,6 @@ from photpipe.rotation import (
     residuals_figure,
     search_rotation,
 )
-
 from photpipe.rotation.errors import LightcurveError, NoUsablePointsError
 
 from .result_files import write_atomic, write_text
