@@ -29,7 +29,8 @@ __all__ = ["NightRun", "night_name", "NIGHT_TABLES"]
 log = logging.getLogger("photpipe.campaign")
 
 #: Tables exported into each night's folder.
-NIGHT_TABLES = ("frames", "measurements", "nucleus", "stars", "zero_points", "skipped")
+NIGHT_TABLES = ("frames", "measurements", "nucleus", "stars", "zero_points", "astrometry",
+                "profiles", "skipped")
 
 
 def night_name(night):
@@ -224,6 +225,9 @@ class NightRun:
                 "site_location": site,
                 "reference_store": reference.store_path, "reference_problem": reference.problem,
                 "filters": settings.filters,
+                "target_name": str(self.run.config.get("target", {}).get("name") or ""),
+                "catalogue_name": os.path.basename(str(
+                    self.run.config.get("photometry", {}).get("reference_stars") or "")),
                 "plate_solve": {"mode": settings.photometry.plate_solve,
                                 "max_offset": settings.photometry.plate_max_offset}}
 
@@ -257,6 +261,8 @@ class NightRun:
             # A result the store cannot take (a unit it does not know) is nothing stored.
             self.skip(night, frame, "store", str(exc))
             return
+        if stored is not None and result.nucleus_images:
+            self._keep_images(night, frame, result.nucleus_images)
         for stage, reason in result.problems:
             night.skipped.append(Skipped(frame, stage, reason))
             log.info("%s/%s [%s]: %s", night.name, frame, stage, reason)
@@ -266,6 +272,15 @@ class NightRun:
                      frame)
         elif not any(stage == "calibration" for stage, _ in result.problems):
             night.measured += 1
+
+    def _keep_images(self, night, frame, images):
+        """The nucleus fit's small images beside the store (a failure costs only the figure)."""
+        from .frame_views import nucleus_images_path, write_nucleus_images
+
+        try:
+            write_nucleus_images(images, nucleus_images_path(self.run.results, night.name, frame))
+        except OSError as exc:
+            log.info("%s/%s: nucleus images not kept (%s)", night.name, frame, exc)
 
     def _export(self, night):
         folder = self.run.results / night.name
@@ -277,6 +292,9 @@ class NightRun:
                 log.info("%s: left as it was (the store has no rows for it)", path)
                 continue
             night.outputs.append(str(write_export(data, path)))
+        from .astrometry_files import write_night_positions
+
+        night.outputs.extend(write_night_positions(self.run.store, folder, night.name))
 
 
 def _stem(path):

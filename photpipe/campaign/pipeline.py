@@ -20,6 +20,7 @@ from pathlib import Path
 from photpipe.config import ConfigError, read_run
 from photpipe.store import CampaignStore, write_table_atomic
 
+from .astrometry_files import write_campaign_positions
 from .hashing import config_hash
 from .night import NIGHT_TABLES, NightRun, night_name
 from .preflight import check_before_frames
@@ -57,6 +58,9 @@ class _Run:
             write_table_atomic(lightcurve, path)
         lightcurve.meta["path"] = str(path)
         self.summary.outputs.append(str(path))
+        positions = write_campaign_positions(self.store, self.results)
+        if positions is not None:
+            self.summary.outputs.append(str(positions))
         steps = run_campaign_steps(
             self.config, lightcurve, self.store.export_table("measurements"),
             self.store.export_table("nucleus"), self.results, echo=self.echo,
@@ -69,8 +73,21 @@ class _Run:
             if summary:
                 # The step's own account goes to the log whole; the screen gets its title.
                 log.info("%s step:\n%s", name, summary)
-                self.echo(f"{name}: {str(summary).splitlines()[0]} (full text in the log)")
+                self.echo(_step_line(name, written, summary))
             self.summary.outputs.extend(str(p) for p in _paths(written))
+
+
+def _step_line(name, written, summary):
+    """The screen's line for a campaign step.
+
+    The size step's line gives the radius with its status (as the end headline says it); any
+    other step's gives its title.
+    """
+    if name == "size" and isinstance(written, dict):
+        from photpipe.report import size_line
+
+        return f"size: {size_line(written)} (full text in the log)"
+    return f"{name}: {str(summary).splitlines()[0]} (full text in the log)"
 
 
 def _paths(written):

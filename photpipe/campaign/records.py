@@ -53,6 +53,13 @@ class FrameRecord:
         ``(stage, reason)`` for stages that could not give a result on this frame.
     calibrated_path : str or None
         Where the calibrated frame was written.
+    astrometry : dict or None
+        The comet's sky position with its error (``astrometry`` table of the store).
+    profile : list of dict or None
+        Σ(ρ) of the coma, all azimuths and the sunward and tailward sectors (``profiles``).
+    nucleus_images : dict or None
+        Data, model and residual of the nucleus fit, cut small (written by the campaign beside
+        the store, see `photpipe.campaign.frame_views`).
 
     Examples
     --------
@@ -79,6 +86,9 @@ class FrameRecord:
     nucleus: object = None
     problems: tuple = field(default=())
     calibrated_path: str | None = None
+    astrometry: dict | None = None
+    profile: object = None
+    nucleus_images: dict | None = field(default=None, repr=False)
 
     def to_dict(self):
         """Return the record's attributes as a plain dict (tables are not copied)."""

@@ -18,7 +18,9 @@ from astropy import units as u
 from photpipe import frames as frame_stage
 from photpipe import nucleus as nucleus_stage
 from photpipe import photometry as photometry_stage
+from photpipe import schema
 
+from . import frame_views
 from .records import FrameRecord
 
 __all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
@@ -27,10 +29,8 @@ __all__ = ["process_frame", "frame_reference_stars", "FRAME_ERRORS"]
 #: line, since it points at a bug rather than at the data.
 FRAME_ERRORS = (ValueError, TypeError, KeyError, OSError, RuntimeError, ArithmeticError)
 
-#: Geometry columns of ``observing_geometry`` -> stored column.
-_GEOMETRY_MAP = {"r_h": "r_h_au", "delta": "delta_au", "phase": "phase_deg",
-                 "elong": "elong_deg", "ra": "ra_deg", "dec": "dec_deg",
-                 "light_time": "light_time_s"}
+#: Geometry columns of ``observing_geometry`` -> stored column (from the schema).
+_GEOMETRY_MAP = schema.stage_names("geometry")
 
 
 def _reason(exc, info):
@@ -119,13 +119,15 @@ def process_frame(item, shared):
         functions), ``tracking`` ("sidereal" or "comet": which of comet and stars trail),
         ``reference_store`` (path of the campaign's
         `~photpipe.photometry.ReferenceStarStore`, or None) and ``reference_problem`` (why
-        there is none).
+        there is none); ``target_name`` and ``catalogue_name`` label the comet's position.
 
     Returns
     -------
     FrameRecord
         Results of each stage that succeeded, and ``problems`` naming each stage that did not
-        and why. A frame whose calibration fails carries only its problem.
+        and why. A frame whose calibration fails carries only its problem. With the
+        photometry come the coma profile and the comet's sky position with its error
+        (`photpipe.orbit.comet_position_row`); with the nucleus fit, its small images.
     """
     info = item["info"]
     stages = tuple(shared["stages"])
@@ -164,7 +166,12 @@ def process_frame(item, shared):
         else:
             photometry.comet["coma_slope_err"] = photometry.details.get("coma_slope_err", np.nan)
             record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
-                          zero_point=_zero_point_row(photometry))
+                          zero_point=_zero_point_row(photometry),
+                          profile=frame_views.profile_rows(photometry.profile))
+            try:
+                record["astrometry"] = _comet_position(frame, photometry, item, shared)
+            except Exception as exc:  # noqa: BLE001 - the photometry is kept
+                problems.append(("astrometry", f"no comet position: {_reason(exc, info)}"))
     if "nucleus" in stages and photometry is not None:
         try:
             fit, pixel_scale = _run_nucleus(frame, photometry, item, shared)
@@ -172,6 +179,7 @@ def process_frame(item, shared):
             problems.append(("nucleus", _reason(exc, info)))
         else:
             record["nucleus"] = fit.to_row()
+            record["nucleus_images"] = frame_views.nucleus_cutouts(fit)
             try:
                 record["measurements"] = _with_coma_afrho(photometry.comet, fit, pixel_scale)
             except Exception as exc:  # noqa: BLE001 - the fit is kept; only these columns lack
@@ -196,6 +204,52 @@ def _with_coma_afrho(comet, fit, pixel_scale):
     for name in coma.colnames:
         out[name] = coma[name]
     return out
+
+
+def _comet_position(frame, photometry, item, shared):
+    """The comet's sky position with its error (`photpipe.orbit.comet_position_row`)."""
+    from photpipe import orbit
+
+    details = photometry.details
+    comet = photometry.comet
+    if len(comet) == 0 or "centroid_mask" not in details:
+        msg = "the photometry stage gave no comet centre"
+        raise ValueError(msg)
+    x = float(u.Quantity(comet["x_pix"][0]).value)
+    y = float(u.Quantity(comet["y_pix"][0]).value)
+    star_xy, star_flux = _catalogue_light(frame, photometry, shared)
+    moffat = details.get("psf_moffat") or {}
+    cov = orbit.centre_of_light_covariance(
+        frame.data, frame.variance, x, y, sky=details["centroid_sky"],
+        box=details["centroid_box_pix"], mask=details["centroid_mask"], star_xy=star_xy,
+        star_flux=star_flux,
+        moffat=(moffat["alpha_pix"], moffat["beta"]) if "alpha_pix" in moffat else None)
+    fit = details.get("wcs_correction") or {}
+    location = frame.info.site if frame.info.site is not None else shared.get("site_location")
+    return orbit.comet_position_row(
+        x, y, cov, wcs=photometry.wcs, star_rms_pix=fit.get("rms", np.nan),
+        n_stars=fit.get("n_matched", 0), time_mid=frame.info.time_mid,
+        station=item.get("site") or "own",
+        object_id=shared.get("target_name") or frame.info.object_name or "comet",
+        catalogue=shared.get("catalogue_name") or "unknown",
+        location=location)
+
+
+def _catalogue_light(frame, photometry, shared):
+    """Pixel positions and fluxes (electrons) of the catalogue's stars on the frame."""
+    path = shared.get("reference_store")
+    if path is None:
+        return None, None
+    stars = frame_reference_stars(frame, path)
+    band = _band(frame, shared)[0]
+    if band not in stars.colnames:
+        return None, None
+    ra = u.Quantity(stars["ra"], u.deg).value
+    dec = u.Quantity(stars["dec"], u.deg).value
+    x, y = photometry.wcs.world_to_pixel_values(ra, dec)
+    mag = np.asarray(u.Quantity(stars[band]).value, dtype=float)
+    flux = float(frame.info.exptime.to_value(u.s)) * 10 ** (-0.4 * (mag - photometry.zero_point.zp))
+    return np.column_stack([x, y]), flux
 
 
 def _band(frame, shared):
@@ -251,11 +305,8 @@ def _run_photometry(frame, geometry_row, shared):
     return photometry_stage.measure_comet_frame(frame, stars, geometry_row[0], **options)
 
 
-#: Field-star table of the photometry stage -> stored column.
-_STAR_MAP = {"id": "star_id", "ra": "ra_deg", "dec": "dec_deg", "x": "x_pix", "y": "y_pix",
-             "flux": "flux_e_s", "flux_err": "flux_err_e_s", "inst_mag": "mag_inst",
-             "inst_mag_err": "mag_inst_err", "cat_mag": "mag_ref", "cat_mag_err": "mag_ref_err",
-             "colour": "colour_ref", "residual": "residual_mag", "used": "used"}
+#: Field-star table of the photometry stage -> stored column (from the schema).
+_STAR_MAP = schema.stage_names("stars")
 
 
 def _star_rows(stars):

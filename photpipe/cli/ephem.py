@@ -19,7 +19,7 @@ from astropy.time import Time
 from photpipe._warnings import PhotpipeWarning, SolarElongationWarning
 from photpipe.campaign.result_files import read_json, write_ecsv
 from photpipe.cli._errors import CONFIG, FAILED, OK, Failures, Problem, fail
-from photpipe.cli._sky import DARK_SUN_ALTITUDE, dark_windows, predicted_magnitude, sky_columns
+from photpipe.cli._sky import DARK_SUN_ALTITUDE, dark_windows, predicted_magnitude_band, sky_columns
 from photpipe.config import (
     GEOCENTRE,
     geometry_at_location,
@@ -129,7 +129,8 @@ def _sexagesimal(value_deg, *, hours):
 
 #: Optional columns of the printed table: name -> (heading, unit line, width).
 _EXTRA = {"alt": ("alt", "deg", 5), "airmass": ("air-", "mass", 5),
-          "sun_alt": ("Sun", "alt", 5), "mag_pred": ("mag", "pred", 5)}
+          "sun_alt": ("Sun", "alt", 5), "mag_pred": ("mag", "pred", 5),
+          "mag_pred_err": ("±", "1σ", 4)}
 
 
 def _extra_cell(row, name):
@@ -158,7 +159,8 @@ def format_table(geometry, *, limit):
     >>> last.split()[:4], last.split()[-3:]
     (['2026-12-01', '00:00', '17:14:55.2', '-00:19:12'], ['208.0', '55.6', 'SUN'])
     """
-    extra = [c for c in ("alt", "airmass", "sun_alt", "mag_pred") if c in geometry.colnames]
+    extra = [c for c in ("alt", "airmass", "sun_alt", "mag_pred", "mag_pred_err")
+             if c in geometry.colnames]
     widths = (16, 10, 9, 7, 8, 6, 6, 7, 6, 6, 6) + tuple(_EXTRA[c][2] for c in extra)
     top = ("UTC", "RA", "Dec", "r_h", "Delta", "phase", "elong", "motion", "PA of", "PA to",
            "PA of") + tuple(_EXTRA[c][0] for c in extra)
@@ -251,10 +253,11 @@ def _add_sky_and_prediction(geometry, config, location):
         size = read_json(os.path.join(results, "size.json"), "size result")
     except ValueError as exc:
         return f"no predicted magnitude: {exc}"
-    mag, note = predicted_magnitude(geometry, activity=activity, size=size)
+    mag, err, note = predicted_magnitude_band(geometry, activity=activity, size=size)
     if mag is None:
         return note
     geometry["mag_pred"] = mag * u.mag
+    geometry["mag_pred_err"] = err * u.mag
     geometry.meta["mag_pred"] = f"predicted magnitude: {note}"
     return note
 

@@ -50,6 +50,7 @@ FILE_NAMES = {
     "pa_neg_velocity": "pa_neg_velocity_deg", "true_anomaly": "true_anomaly_deg",
     "r_h_dot": "r_h_dot_km_s", "delta_dot": "delta_dot_km_s", "light_time": "light_time_s",
     "alt": "alt_deg", "sun_alt": "sun_alt_deg", "mag_pred": "pred_total_mag",
+    "mag_pred_err": "pred_total_err_mag",
 }
 
 

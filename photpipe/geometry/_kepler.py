@@ -4,6 +4,8 @@ Everything here works in any consistent unit system (the caller passes ``mu`` in
 length and time units as the state) and is vectorised over epochs and over states.
 """
 
+from dataclasses import dataclass
+
 import numpy as np
 
 __all__ = [
@@ -100,6 +102,40 @@ def universal_propagate(r0, v0, dt, mu, *, chi_guess=None, return_chi=False):
     leaves the bracket, so convergence is guaranteed for every eccentricity, including e = 1 and
     e well above 1. Bound orbits are first reduced to within half a period of the epoch.
     """
+    r0, v0, c = _conic_constants(r0, v0, dt, mu)
+    lo, hi = _bracket(c)
+    chi = _starting_chi(c, chi_guess, lo, hi)
+    chi = _solve_chi(c, chi, lo, hi)
+    r, v = _lagrange_states(c, r0, v0, chi)
+    if return_chi:
+        return r, v, chi
+    return r, v
+
+
+@dataclass(frozen=True)
+class _Conic:
+    """Per-epoch constants of the universal Kepler equation (broadcast to the epochs' shape)."""
+
+    mu: float
+    sqmu: float
+    r0n: np.ndarray      # |r0|
+    sigma0: np.ndarray   # r0·v0 / √μ
+    alpha: np.ndarray    # 2/r0 - v0²/μ (1/a; > 0 bound)
+    q: np.ndarray        # perihelion distance
+    dtr: np.ndarray      # Δt, reduced to within half a period for bound orbits
+    target: np.ndarray   # √μ Δt (reduced)
+
+    @property
+    def bound(self):
+        return self.alpha > 0
+
+    @property
+    def one_m_ar(self):
+        return 1.0 - self.alpha * self.r0n
+
+
+def _conic_constants(r0, v0, dt, mu):
+    """The states as (3, n) arrays and the equation's constants on the epochs' shape."""
     r0 = np.asarray(r0, dtype=float)
     v0 = np.asarray(v0, dtype=float)
     dt = np.asarray(dt, dtype=float)
@@ -133,36 +169,47 @@ def universal_propagate(r0, v0, dt, mu, *, chi_guess=None, return_chi=False):
     wraps = bound & (np.abs(dt) > 0.5 * period)
     turns = np.round(np.divide(dt, period, out=np.zeros_like(dt), where=wraps))
     dtr = np.where(wraps, dt - turns * np.where(wraps, period, 0.0), dt)
+    return r0, v0, _Conic(mu, sqmu, r0n, sigma0, alpha, q, dtr, sqmu * dtr)
 
-    one_m_ar = 1.0 - alpha * r0n
-    target = sqmu * dtr
-    limit = np.abs(target) / q
+
+def _bracket(c):
+    """The interval that holds the root: [0, √μ Δt / q] or its mirror, within one orbit."""
+    limit = np.abs(c.target) / c.q
     with np.errstate(divide="ignore", invalid="ignore"):
         # within half a period |ΔM| <= π, so |ΔE| <= π + 2e < 2π: χ = √a ΔE stays below 2π√a
-        one_orbit = np.where(bound, 2.0 * np.pi / np.sqrt(np.abs(alpha)), np.inf)
+        one_orbit = np.where(c.bound, 2.0 * np.pi / np.sqrt(np.abs(c.alpha)), np.inf)
     limit = np.minimum(limit, one_orbit)
-    lo = np.where(target < 0, -limit, 0.0)
-    hi = np.where(target < 0, 0.0, limit)
+    lo = np.where(c.target < 0, -limit, 0.0)
+    hi = np.where(c.target < 0, 0.0, limit)
+    return lo, hi
 
-    if chi_guess is None:
-        chi = target / r0n
-        chi = np.where(bound, target * alpha, chi)
-        # hyperbolic starter (Vallado 2013, Algorithm 8)
-        hyp = alpha < 0
-        if np.any(hyp):
-            with np.errstate(divide="ignore", invalid="ignore"):
-                sgn = np.sign(dtr)
-                a = 1.0 / alpha
-                arg = (-2.0 * mu * alpha * dtr) / (
-                    sigma0 * sqmu + sgn * np.sqrt(-mu * a) * one_m_ar)
-                guess = sgn * np.sqrt(-a) * np.log(arg)
-            chi = np.where(hyp & np.isfinite(guess), guess, chi)
-        chi = np.clip(chi, lo, hi)
-    else:
-        chi = np.clip(np.broadcast_to(np.asarray(chi_guess, dtype=float), shape), lo, hi)
 
+def _starting_chi(c, chi_guess, lo, hi):
+    """The first χ: the caller's warm start, else the usual starters, within the bracket."""
+    if chi_guess is not None:
+        return np.clip(np.broadcast_to(np.asarray(chi_guess, dtype=float), c.target.shape),
+                       lo, hi)
+    chi = c.target / c.r0n
+    chi = np.where(c.bound, c.target * c.alpha, chi)
+    # hyperbolic starter (Vallado 2013, Algorithm 8)
+    hyp = c.alpha < 0
+    if np.any(hyp):
+        mu, alpha, dtr = c.mu, c.alpha, c.dtr
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sgn = np.sign(dtr)
+            a = 1.0 / alpha
+            arg = (-2.0 * mu * alpha * dtr) / (
+                c.sigma0 * c.sqmu + sgn * np.sqrt(-mu * a) * c.one_m_ar)
+            guess = sgn * np.sqrt(-a) * np.log(arg)
+        chi = np.where(hyp & np.isfinite(guess), guess, chi)
+    return np.clip(chi, lo, hi)
+
+
+def _solve_chi(c, chi, lo, hi):
+    """Laguerre steps guarded by bisection in [lo, hi] until F(χ) = 0 at rounding level."""
     n = _LAGUERRE_N
-    scale = np.maximum(np.abs(target), np.sqrt(q) * q) + 1e-300
+    sigma0, one_m_ar, r0n, alpha, target = c.sigma0, c.one_m_ar, c.r0n, c.alpha, c.target
+    scale = np.maximum(np.abs(target), np.sqrt(c.q) * c.q) + 1e-300
     done = np.abs(target) == 0.0
     chi = np.where(done, 0.0, chi)
     for _ in range(_MAX_ITER):
@@ -194,23 +241,23 @@ def universal_propagate(r0, v0, dt, mu, *, chi_guess=None, return_chi=False):
         chi = np.where(done, chi, new)
         done = done | converged
         if np.all(done):
-            break
-    else:  # pragma: no cover - the bisection guard makes this unreachable in practice
-        msg = "universal Kepler equation did not converge"
-        raise RuntimeError(msg)
+            return chi
+    msg = "universal Kepler equation did not converge"  # pragma: no cover - bisection guards
+    raise RuntimeError(msg)
 
-    z = alpha * chi * chi
+
+def _lagrange_states(c, r0, v0, chi):
+    """Position and velocity from the Lagrange coefficients f, g, ḟ, ġ at χ."""
+    z = c.alpha * chi * chi
     c2, c3 = stumpff_c2c3(z)
     x2 = chi * chi
-    f = 1.0 - x2 * c2 / r0n
-    g = dtr - x2 * chi * c3 / sqmu
+    f = 1.0 - x2 * c2 / c.r0n
+    g = c.dtr - x2 * chi * c3 / c.sqmu
     r = f * r0 + g * v0
     rn = np.sqrt(np.sum(r * r, axis=0))
-    fdot = sqmu / (rn * r0n) * chi * (z * c3 - 1.0)
+    fdot = c.sqmu / (rn * c.r0n) * chi * (z * c3 - 1.0)
     gdot = 1.0 - x2 * c2 / rn
     v = fdot * r0 + gdot * v0
-    if return_chi:
-        return r, v, chi
     return r, v
 
 

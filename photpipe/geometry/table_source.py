@@ -1,6 +1,7 @@
 """Observing geometry from an ephemeris table the observer already has, at frame times."""
 
 import warnings
+from dataclasses import dataclass
 
 import numpy as np
 from astropy import units as u
@@ -119,6 +120,33 @@ def geometry_from_ephemeris_table(table, times, *, location=None, ephemeris="bui
     1 - Δ̇/c, is the heliocentric velocity, from which the rates, position angles, r_h rate
     and true anomaly follow exactly as for an orbit.
     """
+    table = _checked_table(table, source)
+    times = _as_times(times)
+    ttab = _table_times(table["time"], source)
+    vals = {name: _column(table, name, unit, source)
+            for name, unit in REQUIRED_TABLE_COLUMNS.items() if unit is not None}
+    axis = _time_axis(ttab, times, source)
+    sky, comet_r, comet_v, states = _interpolate(vals, axis, location, ephemeris)
+    out = geometry_table(times, *states, comet_r, comet_v, mu=mu,
+                         caution_limit=caution_elongation)
+    r_h_rebuilt = out["r_h"].to_value(u.au)
+    phase_rebuilt = out["phase"].to_value(u.deg)
+    out["ra"] = sky["ra"] * u.deg
+    out["dec"] = sky["dec"] * u.deg
+    out["delta"] = sky["delta"] * u.au
+    out["r_h"] = sky["r_h"] * u.au
+    out["phase"] = sky["phase"] * u.deg
+    out["light_time"] = (sky["delta"] / C_AU_PER_DAY * 86400.0) * u.s
+    _flag_mismatch(out, r_h_rebuilt, phase_rebuilt, times, source)
+    out.meta["source"] = source
+    out.meta["ephemeris"] = ephemeris
+    out.meta["observer"] = "geocentre" if location is None else _describe(location)
+    warn_if_near_sun(out["elong"], limit=caution_elongation, stacklevel=2)
+    return out
+
+
+def _checked_table(table, source):
+    """The table with photpipe's own column names read, checked for columns and rows."""
     if not isinstance(table, Table):
         msg = f"{source}: expected an astropy Table, got {type(table).__name__}"
         raise TypeError(msg)
@@ -131,11 +159,21 @@ def geometry_from_ephemeris_table(table, times, *, location=None, ephemeris="bui
     if len(table) < 2:
         msg = f"{source}: needs at least 2 rows to interpolate, has {len(table)}"
         raise ValueError(msg)
-    times = _as_times(times)
-    ttab = _table_times(table["time"], source)
-    vals = {name: _column(table, name, unit, source)
-            for name, unit in REQUIRED_TABLE_COLUMNS.items() if unit is not None}
+    return table
 
+
+@dataclass(frozen=True)
+class _TimeAxis:
+    """The table's and the frames' times as TDB Julian-date parts and days from the first row."""
+
+    table_jd: tuple
+    frame_jd: tuple
+    x_tab: np.ndarray
+    x: np.ndarray
+
+
+def _time_axis(ttab, times, source):
+    """Check the table's times increase and hold the frames' times; return the time axis."""
     tj1, tj2 = tdb_parts(ttab)
     fj1, fj2 = tdb_parts(times)
     base = tj1[0]
@@ -152,57 +190,58 @@ def geometry_from_ephemeris_table(table, times, *, location=None, ephemeris="bui
         msg = (f"{source}: frame time {first.utc.isot} UTC is outside the table's span "
                f"{ttab[0].utc.isot} to {ttab[-1].utc.isot}")
         raise ValueError(msg)
+    return _TimeAxis((tj1, tj2), (fj1, fj2), x_tab, x)
 
+
+def _comet_positions(jd1, jd2, ra, dec, delta, location, ephemeris):
+    """Heliocentric emission positions from RA, Dec and Δ, and the observer's and Sun's states."""
+    obs_p, obs_v, sun_p, sun_v = observer_states(jd1, jd2, location=location,
+                                                 ephemeris=ephemeris)
+    a, d = np.deg2rad(ra), np.deg2rad(dec)
+    uhat = np.stack([np.cos(d) * np.cos(a), np.cos(d) * np.sin(a), np.sin(d)])
+    sun_ret = sun_p - sun_v * (delta / C_AU_PER_DAY)
+    return obs_p + delta * uhat - sun_ret, (obs_p, obs_v, sun_p, sun_v)
+
+
+def _interpolate(vals, axis, location, ephemeris):
+    """The table's columns at the frames' times, and the comet's rebuilt position and velocity.
+
+    Returns the interpolated ``ra, dec, delta, r_h, phase`` (plain deg and AU), the comet's
+    heliocentric position and velocity (AU, AU/day) and the observer's and Sun's states.
+    """
+    x_tab, x = axis.x_tab, axis.x
     ra_unwrapped = np.rad2deg(np.unwrap(np.deg2rad(vals["ra"])))
     splines = {name: CubicSpline(x_tab, v) for name, v in
                (("ra", ra_unwrapped), ("dec", vals["dec"]), ("delta", vals["delta"]),
                 ("r_h", vals["r_h"]), ("phase", vals["phase"]))}
-
-    def comet_positions(jd1, jd2, ra, dec, delta):
-        obs_p, obs_v, sun_p, sun_v = observer_states(jd1, jd2, location=location,
-                                                     ephemeris=ephemeris)
-        a, d = np.deg2rad(ra), np.deg2rad(dec)
-        uhat = np.stack([np.cos(d) * np.cos(a), np.cos(d) * np.sin(a), np.sin(d)])
-        sun_ret = sun_p - sun_v * (delta / C_AU_PER_DAY)
-        return obs_p + delta * uhat - sun_ret, (obs_p, obs_v, sun_p, sun_v)
-
-    r_tab, _ = comet_positions(tj1, tj2, vals["ra"], vals["dec"], vals["delta"])
+    r_tab, _ = _comet_positions(*axis.table_jd, vals["ra"], vals["dec"], vals["delta"],
+                                location, ephemeris)
     r_spline = CubicSpline(x_tab, r_tab, axis=1)
 
     ra = splines["ra"](x) % 360.0
     dec = splines["dec"](x)
     delta = splines["delta"](x)
     delta_dot = splines["delta"](x, 1)
-    comet_r, (obs_p, obs_v, sun_p, sun_v) = comet_positions(fj1, fj2, ra, dec, delta)
+    comet_r, states = _comet_positions(*axis.frame_jd, ra, dec, delta, location, ephemeris)
     comet_v = r_spline(x, 1) / (1.0 - delta_dot / C_AU_PER_DAY)
+    sky = {"ra": ra, "dec": dec, "delta": delta, "r_h": splines["r_h"](x),
+           "phase": splines["phase"](x)}
+    return sky, comet_r, comet_v, states
 
-    out = geometry_table(times, obs_p, obs_v, sun_p, sun_v, comet_r, comet_v, mu=mu,
-                         caution_limit=caution_elongation)
-    r_h_rebuilt = out["r_h"].to_value(u.au)
-    phase_rebuilt = out["phase"].to_value(u.deg)
-    out["ra"] = ra * u.deg
-    out["dec"] = dec * u.deg
-    out["delta"] = delta * u.au
-    out["r_h"] = splines["r_h"](x) * u.au
-    out["phase"] = splines["phase"](x) * u.deg
-    out["light_time"] = (delta / C_AU_PER_DAY * 86400.0) * u.s
 
+def _flag_mismatch(out, r_h_rebuilt, phase_rebuilt, times, source):
+    """Flag ``table_mismatch`` where the table's r_h or phase disagree with its positions."""
     bad = (np.abs(r_h_rebuilt - out["r_h"].to_value(u.au)) > _RH_TOL_AU) | (
         np.abs(phase_rebuilt - out["phase"].to_value(u.deg)) > _PHASE_TOL_DEG)
-    if np.any(bad):
-        flags = [",".join(w for w in (f, "table_mismatch") if w) if b else f
-                 for f, b in zip(out["flags"], bad, strict=True)]
-        out["flags"] = np.array(flags, dtype=str)
-        i = int(np.flatnonzero(bad)[0])
-        msg = (f"{source}: at {times[i].utc.isot} UTC the table gives r_h "
-               f"{out['r_h'][i].to_value(u.au):.6f} AU and phase "
-               f"{out['phase'][i].to_value(u.deg):.3f} deg, but its RA, Dec and delta place "
-               f"the comet at r_h {r_h_rebuilt[i]:.6f} AU, phase {phase_rebuilt[i]:.3f} deg; "
-               "was it computed for another observer or target? Rows flagged 'table_mismatch'.")
-        warnings.warn(msg, PoorResultWarning, stacklevel=2)
-
-    out.meta["source"] = source
-    out.meta["ephemeris"] = ephemeris
-    out.meta["observer"] = "geocentre" if location is None else _describe(location)
-    warn_if_near_sun(out["elong"], limit=caution_elongation, stacklevel=2)
-    return out
+    if not np.any(bad):
+        return
+    flags = [",".join(w for w in (f, "table_mismatch") if w) if b else f
+             for f, b in zip(out["flags"], bad, strict=True)]
+    out["flags"] = np.array(flags, dtype=str)
+    i = int(np.flatnonzero(bad)[0])
+    msg = (f"{source}: at {times[i].utc.isot} UTC the table gives r_h "
+           f"{out['r_h'][i].to_value(u.au):.6f} AU and phase "
+           f"{out['phase'][i].to_value(u.deg):.3f} deg, but its RA, Dec and delta place "
+           f"the comet at r_h {r_h_rebuilt[i]:.6f} AU, phase {phase_rebuilt[i]:.3f} deg; "
+           "was it computed for another observer or target? Rows flagged 'table_mismatch'.")
+    warnings.warn(msg, PoorResultWarning, stacklevel=3)

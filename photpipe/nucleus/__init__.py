@@ -5,8 +5,6 @@ PSF convolved with a point source plus a power-law coma, plus sky; `fit_nucleus`
 frame and `fisher_bound` gives the Cramér-Rao bound of its parameters.
 """
 
-from .coma import *  # noqa: F403
-from .coma import __all__ as _coma_all
 from .coma_afrho import *  # noqa: F403
 from .coma_afrho import __all__ as _coma_afrho_all
 from .fisher import *  # noqa: F403
@@ -15,8 +13,6 @@ from .fit import *  # noqa: F403
 from .fit import __all__ as _fit_all
 from .models import *  # noqa: F403
 from .models import __all__ as _models_all
-from .moffat import *  # noqa: F403
-from .moffat import __all__ as _moffat_all
 from .motion import *  # noqa: F403
 from .motion import __all__ as _motion_all
 from .plot import *  # noqa: F403
@@ -30,5 +26,5 @@ from .result import __all__ as _result_all
 from .table import *  # noqa: F403
 from .table import __all__ as _table_all
 
-__all__ = (_coma_all + _coma_afrho_all + _fisher_all + _fit_all + _models_all + _moffat_all
+__all__ = (_coma_afrho_all + _fisher_all + _fit_all + _models_all
            + _motion_all + _plot_all + _profile_all + _psf_all + _result_all + _table_all)

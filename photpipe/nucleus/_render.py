@@ -8,7 +8,7 @@ sky. The model is linear in their amplitudes; only the centre and γ enter non-l
 import numpy as np
 from scipy import fft
 
-from .coma import azimuthal_term_image, power_law_coma_image
+from photpipe.models.coma import azimuthal_term_image, power_law_coma_image
 
 __all__ = ["ComponentRenderer", "component_names"]
 

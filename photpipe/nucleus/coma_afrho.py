@@ -18,13 +18,13 @@ from astropy import units as u
 from astropy.table import QTable
 from photutils.aperture import CircularAperture
 
+from photpipe import schema
 from photpipe._quantity import as_positive_value, as_value
 
 __all__ = ["COMA_AFRHO_COLUMNS", "enclosed_fraction", "coma_only_afrho"]
 
-#: Columns added to each measurement row (``afrho_coma_cm`` etc.), in order.
-COMA_AFRHO_COLUMNS = ("nucleus_share", "afrho_coma_cm", "afrho_coma_err_cm", "a0frho_coma_cm",
-                      "a0frho_coma_err_cm")
+#: Columns added to each measurement row (``afrho_coma_cm`` etc.), in order, from the schema.
+COMA_AFRHO_COLUMNS = schema.column_names(schema.MEASUREMENT_COLUMNS, stage="nucleus")
 
 _NEEDED = ("rho_arcsec", "mag", "zp_mag", "afrho_cm", "afrho_err_cm", "a0frho_cm",
            "a0frho_err_cm")

@@ -1,34 +1,40 @@
-"""Nucleus and coma separated by a PSF-convolved fit to one frame."""
+"""Nucleus and coma separated by a PSF-convolved fit to one frame (`fit_nucleus`).
 
+How the error is formed, and why. The statistical part is the covariance (JᵀJ)⁻¹ of all
+parameters (Kay 1993, eq. 3.31 at the fit), scaled by the larger of 1, χ²_red of the box
+and χ²_red within 2 FWHM of the nucleus: a PSF that is slightly wrong shows as excess
+residual where the nucleus's information is, and the box-wide χ²_red, diluted by thousands
+of sky pixels, would not see it. The second part is the PSF's own uncertainty, measured from
+the stars: the flux is refitted with the Moffat FWHM and β moved by their standard errors
+from the scatter of the star-by-star fits (`psf_shape_error`), and the two are added in
+quadrature. A residual bootstrap alone would miss that second part (it resamples the
+residuals of a fit made with the same PSF), and was the stage's main cost; it stays as an
+option. The pulls (F - F_true)/σ_F have a robust σ of 0.8-1.25 on every named case of
+`photpipe.scenario.NIGHT_CASES` (tests/nucleus/test_case_pulls.py).
+"""
+
+import inspect
 import warnings
 from dataclasses import dataclass
 
 import lmfit
 import numpy as np
-from astropy import units as u
 from photutils.aperture import CircularAperture
 
-from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
-from photpipe.frames.types import CalibratedFrame
 
 from ._cutout import cut_comet_box
 from ._fit_steps import core_bad_share, find_peak, find_residual_sources, psf_shape_error
 from ._render import ComponentRenderer
 from ._separable import fit_separable, weighted_jacobian
+from .fit_options import DETECTION_SIGMA, FitOptions, checked_options, option_parameters
 from .profile import fit_radial_profile
-from .psf import PSFModel
 from .result import WARN_FLAGS, NucleusFit
 
-__all__ = ["fit_nucleus", "GAMMA_BOUNDS", "DETECTION_SIGMA"]
+__all__ = ["fit_nucleus", "GAMMA_BOUNDS", "FitOptions", "DETECTION_SIGMA"]
 
 #: Range of the coma index when it is fitted (the pixel integral diverges at γ = 2).
 GAMMA_BOUNDS = (0.3, 1.9)
-
-#: Default significance F/σ_F below which the nucleus is an upper limit. At 3σ an honest error
-#: bar calls a pure coma a nucleus in 0.13 % of frames (the one-sided normal tail, Abramowitz
-#: & Stegun 1964, 26.2.17), and a limit is 3σ above the estimate (common practice).
-DETECTION_SIGMA = 3.0
 
 #: Flags that make the nucleus an upper limit whatever its significance.
 _FORCE_LIMIT = ("psf_fallback", "star_near_nucleus", "fit_at_bound")
@@ -71,75 +77,6 @@ def _bootstrap(data, sigma, model, basis_fn, params, names, n, rng):
 def _aperture_weights(shape, x, y, radius):
     ap = CircularAperture((x, y), r=radius)
     return ap.to_mask(method="exact").to_image(shape)
-
-
-@dataclass(frozen=True)
-class _Options:
-    """Checked options of one fit (plain floats)."""
-
-    name: str
-    scale: float
-    exptime: float
-    zp: float | None
-    zp_err: float
-    free_gamma: bool
-    gamma: float
-    cutout: int
-    modulation: int
-    max_shift: float
-    search_radius: float
-    detection_sigma: float
-    fraction_radius: float
-    star_radius: float
-    max_nfev: int
-
-
-def _check_options(frame, psf, x0, y0, *, pixel_scale, zero_point, zero_point_err, gamma,
-                   cutout, modulation, max_shift, search_radius, detection_sigma,
-                   fraction_radius, star_mask_radius, max_nfev):
-    if not isinstance(frame, CalibratedFrame):
-        msg = f"'frame' must be a CalibratedFrame, got {type(frame).__name__}"
-        raise TypeError(msg)
-    if not isinstance(psf, PSFModel):
-        msg = f"'psf' must be a PSFModel, got {type(psf).__name__}"
-        raise TypeError(msg)
-    name = frame.name
-    scale = as_positive_value(pixel_scale, u.arcsec / u.pix, "pixel_scale")
-    x0 = as_value(x0, u.pix, "x0", allow_dimensionless=True)
-    y0 = as_value(y0, u.pix, "y0", allow_dimensionless=True)
-    if not (np.isfinite(x0) and np.isfinite(y0)):
-        msg = f"frame {name!r}: nucleus position must be finite, got ({x0}, {y0})"
-        raise ValueError(msg)
-    if not isinstance(cutout, (int, np.integer)) or cutout % 2 != 1 or cutout < 21:
-        msg = f"'cutout' must be an odd integer >= 21, got {cutout!r}"
-        raise ValueError(msg)
-    free_gamma = isinstance(gamma, str)
-    if free_gamma and gamma != "free":
-        msg = f"'gamma' must be 'free' or a number in (0, 2), got {gamma!r}"
-        raise ValueError(msg)
-    if not free_gamma and not 0.0 < float(gamma) < 2.0:
-        msg = f"'gamma' must lie in (0, 2), got {gamma}"
-        raise ValueError(msg)
-    if not (np.isfinite(detection_sigma) and detection_sigma > 0):
-        msg = f"'detection_sigma' must be positive, got {detection_sigma}"
-        raise ValueError(msg)
-    zp = None if zero_point is None else as_value(zero_point, u.mag, "zero_point",
-                                                  allow_dimensionless=True)
-    if zp is not None and not np.isfinite(zp):
-        zp = None
-    zp_err = 0.0 if zero_point_err is None else as_value(zero_point_err, u.mag, "zero_point_err",
-                                                         allow_dimensionless=True)
-    exptime = as_positive_value(frame.info.exptime, u.s, f"{name}: exptime")
-    fwhm = float(psf.fwhm_pix)
-    return _Options(
-        name=name, scale=scale, exptime=exptime, zp=zp,
-        zp_err=float(zp_err) if np.isfinite(zp_err) else 0.0, free_gamma=free_gamma,
-        gamma=1.0 if free_gamma else float(gamma), cutout=int(cutout),
-        modulation=int(modulation), max_shift=float(max_shift),
-        search_radius=float(max(3.0 * fwhm, 8.0) if search_radius is None else search_radius),
-        detection_sigma=float(detection_sigma), fraction_radius=float(fraction_radius),
-        star_radius=float(3.0 * fwhm if star_mask_radius is None else star_mask_radius),
-        max_nfev=int(max_nfev))
 
 
 def _start_position(frame, x0, y0, psf, star_xy, opt):
@@ -308,10 +245,8 @@ def _coma_seen(res):
 
 
 def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_err=None,
-                gamma="free", cutout=101, star_xy=None, comet_trail=(0.0, 0.0),
-                star_trail=(0.0, 0.0), bootstrap=0, rng=None, modulation=0, max_shift=2.0,
-                search_radius=None, detection_sigma=DETECTION_SIGMA, fraction_radius=1.0,
-                star_mask_radius=None, profile=True, max_nfev=400):
+                star_xy=None, comet_trail=(0.0, 0.0), star_trail=(0.0, 0.0), rng=None,
+                **options):
     """Separate nucleus and coma in one frame by a PSF-convolved 2-D fit.
 
     Parameters
@@ -327,10 +262,6 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
         Pixel scale.
     zero_point, zero_point_err : `~astropy.units.Quantity` [mag] or float, optional
         Zero point (mag of 1 electron/s) and its error; without it magnitudes are NaN.
-    gamma : "free" or float, optional
-        Coma index: fitted within `GAMMA_BOUNDS`, or held fixed (1 for a steady-state coma).
-    cutout : int, optional
-        Side of the fitted box, pixels (odd).
     star_xy : array-like, shape (n, 2), optional
         Field-star positions to mask.
     comet_trail : tuple of float, optional
@@ -340,28 +271,12 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     star_trail : tuple of float, optional
         The stars' motion during the exposure (tracking on the comet), used for the PSF of
         uncatalogued stars found in the cutout.
-    bootstrap : int, optional
-        Residual-bootstrap refits (0: none). When run, the larger of its scatter and the adopted
-        error is reported.
     rng : `numpy.random.Generator`, optional
         For the bootstrap.
-    modulation : int, optional
-        Highest azimuthal order of the coma modulation (0 for an axisymmetric coma).
-    max_shift : float, optional
-        Largest move of the nucleus from the start found within ``search_radius``, pixels.
-    search_radius : float, optional
-        Radius around (x0, y0) searched for the comet's peak, pixels (default max(3 FWHM, 8)).
-    detection_sigma : float, optional
-        Significance F/σ_F below which the nucleus is an upper limit of max(F, 0) +
-        ``detection_sigma`` σ_F (default `DETECTION_SIGMA`).
-    fraction_radius : float, optional
-        Radius, in FWHM, of the circle in which ``nucleus_fraction`` is measured.
-    star_mask_radius : float, optional
-        Radius of the star masks, pixels (default 3 FWHM).
-    profile : bool, optional
-        Also run the 1-D profile fit.
-    max_nfev : int, optional
-        Evaluation budget of the main fit; running out flags ``no_convergence``.
+    **options
+        How the fit runs, by name (``gamma, cutout, bootstrap, modulation, max_shift,
+        search_radius, detection_sigma, fraction_radius, star_mask_radius, profile,
+        max_nfev``): the fields of `FitOptions`, described there with their defaults.
 
     Returns
     -------
@@ -388,19 +303,7 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     The model (see `photpipe.nucleus.models`) is fitted with lmfit, weighting each pixel by the
     inverse of the variance plane. The centre and γ are varied by Levenberg-Marquardt; the
     amplitudes (F_n, K, azimuthal terms, sky, uncatalogued stars) are solved linearly at every
-    step (variable projection, Golub & Pereyra 1973).
-
-    How the error is formed, and why. The statistical part is the covariance (JᵀJ)⁻¹ of all
-    parameters (Kay 1993, eq. 3.31 at the fit), scaled by the larger of 1, χ²_red of the box
-    and χ²_red within 2 FWHM of the nucleus: a PSF that is slightly wrong shows as excess
-    residual where the nucleus's information is, and the box-wide χ²_red, diluted by thousands
-    of sky pixels, would not see it. The second part is the PSF's own uncertainty, measured from
-    the stars: the flux is refitted with the Moffat FWHM and β moved by their standard errors
-    from the scatter of the star-by-star fits (`psf_shape_error`), and the two are added in
-    quadrature. A residual bootstrap alone would miss that second part (it resamples the
-    residuals of a fit made with the same PSF), and was the stage's main cost; it stays as an
-    option. The pulls (F - F_true)/σ_F have a robust σ of 0.8-1.25 on every named case of
-    `photpipe.scenario.NIGHT_CASES` (tests/nucleus/test_case_pulls.py).
+    step (variable projection, Golub & Pereyra 1973). The error: see the module's notes.
 
     Examples
     --------
@@ -423,20 +326,17 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
     >>> bool(abs(fit.nucleus_flux_e / 2e4 - 1) < 3 * fit.nucleus_flux_err_e / 2e4)
     True
     """
-    opt = _check_options(frame, psf, x0, y0, pixel_scale=pixel_scale, zero_point=zero_point,
-                         zero_point_err=zero_point_err, gamma=gamma, cutout=cutout,
-                         modulation=modulation, max_shift=max_shift,
-                         search_radius=search_radius, detection_sigma=detection_sigma,
-                         fraction_radius=fraction_radius, star_mask_radius=star_mask_radius,
-                         max_nfev=max_nfev)
+    options = FitOptions.from_keywords(**options)
+    opt = checked_options(frame, psf, x0, y0, pixel_scale=pixel_scale, zero_point=zero_point,
+                          zero_point_err=zero_point_err, options=options)
     psf_comet = psf.with_trail(comet_trail) if any(comet_trail) else psf
     psf_star = psf.with_trail(star_trail) if any(star_trail) else psf
     box, xl, yl, flags = _prepare_box(frame, x0, y0, psf, psf_comet, psf_star, star_xy, opt)
     fit = _fit_with_sources(box, psf_comet, psf_star, xl, yl, opt, flags)
-    errors = _errors(fit, box, psf_comet, opt, flags, bootstrap,
+    errors = _errors(fit, box, psf_comet, opt, flags, options.bootstrap,
                      np.random.default_rng() if rng is None else rng)
     images = _images(fit, box.good)
-    prof = _profile_check(fit, box, errors, flags) if profile else None
+    prof = _profile_check(fit, box, errors, flags) if options.profile else None
     reported, upper = _decide(fit.res.values["nucleus_flux"], errors["err"], flags, opt)
     flags = list(dict.fromkeys(flags))
     if any(f in flags for f in WARN_FLAGS):
@@ -444,6 +344,17 @@ def fit_nucleus(frame, x0, y0, psf, *, pixel_scale, zero_point=None, zero_point_
                       PoorResultWarning, stacklevel=2)
     return _assemble(frame, psf, psf_comet, opt, box, fit, errors, images, prof, reported,
                      upper, flags)
+
+
+def _flat_signature():
+    """``fit_nucleus``'s signature with every option of `FitOptions` and its default."""
+    sig = inspect.signature(fit_nucleus)
+    named = [p for p in sig.parameters.values() if p.kind is not inspect.Parameter.VAR_KEYWORD]
+    return sig.replace(parameters=named + option_parameters())
+
+
+# introspection (help, editors, the configuration's check of defaults) sees every keyword
+fit_nucleus.__signature__ = _flat_signature()
 
 
 def _prepare_box(frame, x0, y0, psf, psf_comet, psf_star, star_xy, opt):

@@ -3,7 +3,7 @@
     M(x, y) = PSF ⊗ [F_n δ(x - x0, y - y0) + K ρ^-γ (1 + Σ_m a_m cos mθ + b_m sin mθ)] + sky
 
 with ρ, θ measured from (x0, y0) in pixels. The coma is integrated exactly over each pixel near
-the centre (`photpipe.nucleus.coma`), the point source is the PSF integrated over the pixels, and
+the centre (`photpipe.models.coma`), the point source is the PSF integrated over the pixels, and
 the blur is an FFT convolution on a cutout padded by the PSF's half-width.
 """
 

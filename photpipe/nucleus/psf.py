@@ -12,10 +12,10 @@ from scipy.optimize import least_squares
 from photpipe._quantity import as_positive_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.frames.types import CalibratedFrame
+from photpipe.models.moffat import moffat_pixel_image, moffat_surface
 
 from ._residuals import shared_residual_z
 from ._stamps import cut_star_stamps, fit_profile_to_stamp
-from .moffat import moffat_pixel_image, moffat_surface
 from .psf_epsf import build_epsf_image
 from .psf_moffat import fit_moffat_shape
 
@@ -427,6 +427,23 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     >>> psf.method, psf.flags
     ('fallback', ('psf_fallback',))
     """
+    _check_request(frame, methods, epsf)
+    fb_pix = _fallback_pixels(fallback_fwhm, pixel_scale)
+    cutout, methods, star_trail = _trail_setup(cutout, methods, star_trail)
+    stamps, dropped = cut_star_stamps(frame, star_xy, size=cutout, exclude_xy=exclude_xy,
+                                      exclude_radius=exclude_radius)
+    if len(stamps) < min_stars:
+        return _too_few_stars(frame.name, stamps, dropped, min_stars, fb_pix, fwhm_guess,
+                              star_trail)
+    candidates, scores, shared_z = _fit_candidates(stamps, methods, fwhm_guess, star_trail, epsf)
+    if not candidates:
+        return _fallback(frame.name, fb_pix, "no PSF model could be fitted to the stars",
+                         len(stamps))
+    return _best_model(candidates, scores, shared_z)
+
+
+def _check_request(frame, methods, epsf):
+    """Refuse a frame that is not calibrated, an unknown method or an unknown ``epsf``."""
     if not isinstance(frame, CalibratedFrame):
         msg = f"'frame' must be a CalibratedFrame, got {type(frame).__name__}"
         raise TypeError(msg)
@@ -437,17 +454,26 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     if epsf not in _EPSF_WHEN:
         msg = f"'epsf' must be one of {_EPSF_WHEN}, got {epsf!r}"
         raise ValueError(msg)
-    fb_pix = None
-    if fallback_fwhm is not None:
-        if isinstance(fallback_fwhm, u.Quantity) and fallback_fwhm.unit.physical_type == "angle":
-            if pixel_scale is None:
-                msg = "'pixel_scale' is needed to turn an angular 'fallback_fwhm' into pixels"
-                raise ValueError(msg)
-            scale = as_positive_value(pixel_scale, u.arcsec / u.pix, "pixel_scale")
-            fb_pix = as_positive_value(fallback_fwhm, u.arcsec, "fallback_fwhm") / scale
-        else:
-            fb_pix = as_positive_value(fallback_fwhm, u.pix, "fallback_fwhm",
-                                       allow_dimensionless=True)
+
+
+def _fallback_pixels(fallback_fwhm, pixel_scale):
+    """The fallback FWHM in pixels (None without one)."""
+    if fallback_fwhm is None:
+        return None
+    if isinstance(fallback_fwhm, u.Quantity) and fallback_fwhm.unit.physical_type == "angle":
+        if pixel_scale is None:
+            msg = "'pixel_scale' is needed to turn an angular 'fallback_fwhm' into pixels"
+            raise ValueError(msg)
+        scale = as_positive_value(pixel_scale, u.arcsec / u.pix, "pixel_scale")
+        return as_positive_value(fallback_fwhm, u.arcsec, "fallback_fwhm") / scale
+    return as_positive_value(fallback_fwhm, u.pix, "fallback_fwhm", allow_dimensionless=True)
+
+
+def _trail_setup(cutout, methods, star_trail):
+    """The stamp side, the methods and the trail for stars that moved by ``star_trail``.
+
+    Trailed stars need stamps longer by the trail, and no ePSF (it would hold the trail).
+    """
     if cutout % 2 != 1 or cutout < 9:
         msg = f"'cutout' must be an odd number of pixels >= 9, got {cutout}"
         raise ValueError(msg)
@@ -459,16 +485,22 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     if trail_len > 0:
         cutout += 2 * int(np.ceil(0.5 * trail_len))
         methods = tuple(m for m in methods if m != "epsf")
-    stamps, dropped = cut_star_stamps(frame, star_xy, size=cutout, exclude_xy=exclude_xy,
-                                      exclude_radius=exclude_radius)
-    if len(stamps) < min_stars:
-        reason = (f"only {len(stamps)} usable PSF stars (need {min_stars}; dropped: "
-                  + ", ".join(f"{k} {v}" for k, v in dropped.items() if v) + ")")
-        if fb_pix is None and stamps:
-            # a Moffat from the few stars there are is still better than nothing: flagged
-            psf = _moffat_from_stamps(stamps, fwhm_guess, star_trail)
-            fb_pix = psf.fwhm_major_pix
-        return _fallback(frame.name, fb_pix, reason, len(stamps))
+    return cutout, methods, star_trail
+
+
+def _too_few_stars(frame_name, stamps, dropped, min_stars, fb_pix, fwhm_guess, star_trail):
+    """The fallback PSF when fewer than ``min_stars`` stamps are usable."""
+    reason = (f"only {len(stamps)} usable PSF stars (need {min_stars}; dropped: "
+              + ", ".join(f"{k} {v}" for k, v in dropped.items() if v) + ")")
+    if fb_pix is None and stamps:
+        # a Moffat from the few stars there are is still better than nothing: flagged
+        psf = _moffat_from_stamps(stamps, fwhm_guess, star_trail)
+        fb_pix = psf.fwhm_major_pix
+    return _fallback(frame_name, fb_pix, reason, len(stamps))
+
+
+def _fit_candidates(stamps, methods, fwhm_guess, star_trail, epsf):
+    """Each method's PSF fitted to the stamps, its score, and the Moffat's shared residual."""
     candidates = {}
     scores = {}
     # the Moffat first: when it fits to the noise the ePSF need not be built
@@ -485,9 +517,11 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
         scores[name], residuals = _score(candidates[name], stamps)
         if name == "moffat":
             shared_z = shared_residual_z(residuals)
-    if not candidates:
-        return _fallback(frame.name, fb_pix, "no PSF model could be fitted to the stars",
-                         len(stamps))
+    return candidates, scores, shared_z
+
+
+def _best_model(candidates, scores, shared_z):
+    """The candidate with the best score (the ePSF's by `EPSF_MARGIN`), with every score."""
     best = min(scores, key=lambda k: scores[k] * (1.0 if k == "epsf" else EPSF_MARGIN))
     chosen = candidates[best]
     return PSFModel(method=chosen.method, fwhm_major_pix=chosen.fwhm_major_pix,

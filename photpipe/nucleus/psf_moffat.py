@@ -4,8 +4,9 @@ import numpy as np
 from scipy import ndimage
 from scipy.optimize import least_squares
 
+from photpipe.models.moffat import moffat_pixel_image
+
 from ._stamps import fit_linear, sky_plane
-from .moffat import moffat_pixel_image
 
 __all__ = ["fit_moffat_shape", "shape_from_q", "trail_points"]
 

@@ -6,16 +6,15 @@ import numpy as np
 from astropy import units as u
 from astropy.io import fits
 
+from photpipe import schema
 from photpipe.flags import FLAGS
 
 from .psf import PSFModel
 
 __all__ = ["NucleusFit", "NUCLEUS_COLUMNS", "NUCLEUS_FLAGS", "WARN_FLAGS"]
 
-#: Columns of ``nucleus.ecsv``, in order.
-NUCLEUS_COLUMNS = ("frame", "mjd_utc_mid", "nucleus_mag", "nucleus_mag_err", "nucleus_flux_e_s",
-                   "coma_k", "coma_gamma", "fwhm_arcsec", "nucleus_fraction", "chi2_red",
-                   "method", "flags")
+#: Columns of ``nucleus.ecsv``, in order, from the schema (`photpipe.schema.NUCLEUS_COLUMNS`).
+NUCLEUS_COLUMNS = ("frame",) + schema.column_names(schema.NUCLEUS_COLUMNS)
 
 #: Flag words a nucleus fit can carry and what they mean, taken from the one registry
 #: (`photpipe.flags.FLAGS`): the nucleus stage's own, and the PSF's and the cutout's.

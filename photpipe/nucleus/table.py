@@ -1,16 +1,16 @@
 """The per-frame nucleus table (the ``nucleus.ecsv`` contract) built from fits."""
 
 import numpy as np
-from astropy import units as u
 from astropy.table import QTable
+
+from photpipe import schema
 
 from .result import NUCLEUS_COLUMNS
 
 __all__ = ["nucleus_table"]
 
-_UNITS = {"mjd_utc_mid": u.day, "nucleus_mag": u.mag, "nucleus_mag_err": u.mag,
-          "nucleus_flux_e_s": u.electron / u.s, "coma_k": u.electron / u.s,
-          "fwhm_arcsec": u.arcsec}
+_UNITS = {c.name: schema.table_unit(c) for c in schema.NUCLEUS_COLUMNS
+          if schema.table_unit(c) is not None}
 
 
 def nucleus_table(fits):

@@ -10,10 +10,14 @@ from photpipe.orbit.astrometry import *  # noqa: F403
 from photpipe.orbit.astrometry import __all__ as _astrometry_all
 from photpipe.orbit.bound import *  # noqa: F403
 from photpipe.orbit.bound import __all__ as _bound_all
+from photpipe.orbit.centroid import *  # noqa: F403
+from photpipe.orbit.centroid import __all__ as _centroid_all
 from photpipe.orbit.figures import *  # noqa: F403
 from photpipe.orbit.figures import __all__ as _figures_all
 from photpipe.orbit.fit import *  # noqa: F403
 from photpipe.orbit.fit import __all__ as _fit_all
+from photpipe.orbit.frame_position import *  # noqa: F403
+from photpipe.orbit.frame_position import __all__ as _frame_position_all
 from photpipe.orbit.initial import *  # noqa: F403
 from photpipe.orbit.initial import __all__ as _initial_all
 from photpipe.orbit.limits import *  # noqa: F403
@@ -29,6 +33,6 @@ from photpipe.orbit.result import __all__ as _result_all
 from photpipe.orbit.sites import *  # noqa: F403
 from photpipe.orbit.sites import __all__ as _sites_all
 
-__all__ = (_ades_all + _astrometry_all + _bound_all + _figures_all + _fit_all + _initial_all
-           + _limits_all + _nongrav_all + _observe_all + _propagate_all + _result_all
-           + _sites_all)
+__all__ = (_ades_all + _astrometry_all + _bound_all + _centroid_all + _figures_all + _fit_all
+           + _frame_position_all + _initial_all + _limits_all + _nongrav_all + _observe_all
+           + _propagate_all + _result_all + _sites_all)

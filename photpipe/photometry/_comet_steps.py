@@ -110,6 +110,9 @@ def find_centre(prep, det, lay, cut, fwhm, opts, notes):
     xc, yc, status = refine_comet_centre(prep.data, full_mask, lay.x_pred, lay.y_pred,
                                          sky=det.sky, box=box, max_shift=cut.max_shift)
     notes.details["centroid_status"] = status
+    # what the centroid saw, for its error (photpipe.orbit.centre_of_light_covariance)
+    notes.details["centroid_box_pix"], notes.details["centroid_mask"] = box, full_mask
+    notes.details["centroid_sky"] = det.sky
     notes.details["predicted_xy"] = (lay.x_pred, lay.y_pred)
     if status == "at_limit":
         notes.flag("centroid_at_limit")

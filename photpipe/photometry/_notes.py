@@ -2,33 +2,34 @@
 
 import time
 
+from photpipe.flags import meaning
+
 from .dust_phase import PHASE_FLAG
 
-__all__ = ["FLAG_TEXT", "Notes"]
+__all__ = ["flag_text", "Notes"]
 
-#: flag -> sentence for the messages list.
-FLAG_TEXT = {
-    "few_stars": "fewer reference stars than 'min_stars' in the zero-point fit",
-    "colour_term_dropped": "too few stars to fit a colour term; constant zero point used",
-    "wcs_refined_large": "header WCS was off by more than the refinement limit",
-    "edge": "an aperture or the sky annulus runs off the frame",
+#: The photometry's messages that say more than the flag's meaning in the one registry
+#: (`photpipe.flags.FLAGS`); every other flag's message is its registered meaning.
+_MORE_TEXT = {
     "saturated": "saturated comet pixels inside an aperture",
-    "star_in_aperture": "a field star inside an aperture was masked and filled from the coma",
-    "nan_pixels": "non-finite or bad pixels inside an aperture were filled from the coma",
-    "centroid_at_limit": "comet centroid reached 'max_centroid_shift'; position is bounded",
-    "centroid_failed": "no comet light found for a centroid; predicted position used",
-    "nonpositive_flux": "flux in an aperture is not positive; magnitude undefined",
-    "profile_short": "too few profile annuli in the slope range",
     "no_sun_pa": "no pa_sun in the geometry row; sector profiles not made",
-    "no_solar_magnitude": "no solar magnitude for the band; Afρ not computed",
     "psf_fallback": ("too few field stars, or a curve of growth that does not fix both Moffat "
                      "parameters; the coma aperture correction uses a Moffat PSF with beta = 3 "
                      "and the measured FWHM"),
     PHASE_FLAG: ("phase angle outside the range where the dust phase function is checked; "
                  "A(0)fρ uses its value at the edge of that range"),
-    "low_elongation": ("small solar elongation: pointing optics near the Sun can blind and damage "
-                       "them; follow local rules and experienced practice"),
 }
+
+
+def flag_text(name):
+    """The sentence for flag ``name`` in a frame's messages.
+
+    Examples
+    --------
+    >>> flag_text("few_stars")
+    "fewer reference stars than 'min_stars' in the zero-point fit"
+    """
+    return _MORE_TEXT.get(name) or meaning(name)
 
 
 def add_flag(flags, messages, name, detail=""):
@@ -36,7 +37,7 @@ def add_flag(flags, messages, name, detail=""):
     if name not in flags:
         flags.append(name)
         extra = f" ({detail})" if detail else ""
-        messages.append(f"{name}: {FLAG_TEXT.get(name, name)}{extra}")
+        messages.append(f"{name}: {flag_text(name)}{extra}")
 
 
 class Notes:

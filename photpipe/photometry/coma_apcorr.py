@@ -15,9 +15,10 @@ from photutils.aperture import CircularAperture, aperture_photometry
 from scipy.optimize import least_squares
 from scipy.signal import fftconvolve
 
-from photpipe.nucleus.coma import inverse_rho_pixel_integral
+from photpipe.models.coma import inverse_rho_pixel_integral
+from photpipe.models.moffat import moffat_alpha, moffat_encircled, moffat_fwhm, moffat_shape
 
-__all__ = ["MoffatGrowth", "moffat_encircled", "fit_moffat_growth", "moffat_from_measured_fwhm",
+__all__ = ["MoffatGrowth", "fit_moffat_growth", "moffat_from_measured_fwhm",
            "coma_aperture_correction"]
 
 #: Sub-pixels per FWHM of the oversampled grid on which the coma is convolved.
@@ -48,7 +49,7 @@ class MoffatGrowth:
     @property
     def fwhm(self):
         """FWHM = 2 α sqrt(2^(1/β) - 1), pixels."""
-        return 2.0 * self.alpha * np.sqrt(2.0 ** (1.0 / self.beta) - 1.0)
+        return moffat_fwhm(self.alpha, self.beta)
 
     def encircled(self, r):
         """Fraction of the light within radius ``r`` (see `moffat_encircled`)."""
@@ -69,36 +70,11 @@ class MoffatGrowth:
         n = int(np.ceil(half / step))
         c = np.arange(-n, n + 1) * step
         r2 = c[np.newaxis, :] ** 2 + c[:, np.newaxis] ** 2
-        img = (1.0 + r2 / self.alpha**2) ** (-self.beta)
+        img = moffat_shape(r2, self.alpha, self.beta)
         return img / img.sum()
 
     def __repr__(self):
         return f"MoffatGrowth(alpha={self.alpha:.4g}, beta={self.beta:.4g})"
-
-
-def moffat_encircled(r, alpha, beta):
-    """Encircled-energy fraction of a Moffat PSF.
-
-    Parameters
-    ----------
-    r : float or ndarray
-        Radius, same unit as ``alpha``.
-    alpha, beta : float
-        Moffat width and index.
-
-    Returns
-    -------
-    fraction : float or ndarray
-        EE(r) = 1 - (1 + r²/α²)^(1-β), integrating I(r) ∝ (1 + r²/α²)^(-β) over the disc
-        (Moffat 1969, A&A 3, 455).
-
-    Examples
-    --------
-    >>> round(float(moffat_encircled(1.0, 1.0, 3.0)), 4)   # 1 - 2^-2
-    0.75
-    """
-    r = np.asarray(r, dtype=float)
-    return 1.0 - (1.0 + (r / alpha) ** 2) ** (1.0 - beta)
 
 
 def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess, beta_range=(1.5, 10.0),
@@ -165,7 +141,7 @@ def fit_moffat_growth(radii, fluxes, *, annulus, fwhm_guess, beta_range=(1.5, 10
         return g[:-1] / g[-1] - target
 
     beta0 = 3.0
-    alpha0 = fwhm_guess / (2.0 * np.sqrt(2.0 ** (1.0 / beta0) - 1.0))
+    alpha0 = moffat_alpha(fwhm_guess, beta0)
     try:
         fit = least_squares(model, [np.log(alpha0), np.log(beta0 - 1.0)],
                             bounds=([np.log(0.05 * alpha0), np.log(0.2)],
@@ -187,7 +163,7 @@ def _pixel_stamp(psf, dx, dy, half=7, oversample=5):
     n = 2 * half + 1
     sub = (np.arange(n * oversample) + 0.5) / oversample - 0.5 - half
     yy, xx = np.meshgrid(sub - dy, sub - dx, indexing="ij")
-    img = (1.0 + (xx**2 + yy**2) / psf.alpha**2) ** (-psf.beta)
+    img = moffat_shape(xx**2 + yy**2, psf.alpha, psf.beta)
     return img.reshape(n, oversample, n, oversample).mean(axis=(1, 3))
 
 
@@ -222,7 +198,7 @@ def moffat_from_measured_fwhm(fwhm, beta):
     from .detection import measure_fwhm
 
     def measured(true_fwhm):
-        psf = MoffatGrowth(true_fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / beta) - 1.0)), beta)
+        psf = MoffatGrowth(moffat_alpha(true_fwhm, beta), beta)
         half = max(7, int(np.ceil(3 * fwhm)))
         values = [measure_fwhm(_pixel_stamp(psf, dx, dy, half=half), [half + dx], [half + dy],
                                sky=0.0, local_sky=False)
@@ -237,7 +213,7 @@ def moffat_from_measured_fwhm(fwhm, beta):
         else:
             lo = mid
     true_fwhm = 0.5 * (lo + hi)
-    return MoffatGrowth(true_fwhm / (2.0 * np.sqrt(2.0 ** (1.0 / beta) - 1.0)), beta)
+    return MoffatGrowth(moffat_alpha(true_fwhm, beta), beta)
 
 
 def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=False):
@@ -267,7 +243,7 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=Fal
     Notes
     -----
     With Σ = 1/ρ the true flux inside ρ is 2πρ. The coma is integrated exactly over the
-    sub-pixels of an oversampled grid (:func:`photpipe.nucleus.coma.inverse_rho_pixel_integral`),
+    sub-pixels of an oversampled grid (:func:`photpipe.models.coma.inverse_rho_pixel_integral`),
     convolved with the sampled PSF by FFT, and both images are summed in the same apertures
     (photutils, exact overlap), so the sub-pixel sampling cancels in the ratio
     F_coma / F_blurred. That ratio is multiplied by the fraction of a star's light that the

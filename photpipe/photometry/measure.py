@@ -72,8 +72,7 @@ def measure_frame(frame, reference_stars, geometry_row, options=None):
 def measure_comet_frame(frame, reference_stars, geometry_row, **options):
     """Measure the comet in one calibrated frame against the field stars.
 
-    The options are the fields of the groups of `MeasureOptions`, given by name; each is
-    described below with its default.
+    The options are the fields of the groups of `MeasureOptions`, given by name.
 
     Parameters
     ----------
@@ -86,66 +85,15 @@ def measure_comet_frame(frame, reference_stars, geometry_row, **options):
         ``r_h`` (AU), ``delta`` (AU), ``phase`` (deg), ``ra``, ``dec`` (deg, predicted comet
         position); optional ``elong``, ``pa_sun``, ``pa_neg_velocity`` (deg). Bare numbers are read
         in those units.
-    band : str, optional
-        Catalogue band the frame is calibrated to (also selects the solar magnitude).
-    colour : str, optional
-        Catalogue colour column for the colour term and the star table.
-    fit_colour_term : bool, optional
-        Fit a colour term in the zero point.
-    comet_colour : float, optional
-        The comet's colour in ``colour`` (mag) for the colour term; default the Sun's
-        (``SOLAR_COLOURS``).
-    mag_system : {"Vega", "AB"}, optional
-        System of the catalogue magnitudes (for the solar magnitude).
-    apertures_km : `~astropy.units.Quantity` ['length'], optional
-        Aperture radii at the comet.
-    apertures_arcsec : `~astropy.units.Quantity` ['angle'], optional
-        Aperture radii on the sky.
-    annulus : tuple of `~astropy.units.Quantity`, optional
-        (inner, outer) sky-annulus radii in km, arcsec or pix; default 4 and 8 times the largest
-        aperture.
-    sky_method : {"coma-fit", "median"}, optional
-        Sky estimator in the annulus (see :mod:`photpipe.photometry.sky`).
-    dust_phase_function : {"schleicher-marcus", "linear", "table"}, optional
-        Phase function for A(0°)fρ.
-    phase_function_table : tuple of array-like, optional
-        ``(phase_deg, value)`` replacing the named function.
-    phase_coefficient : `~astropy.units.Quantity` [mag / deg], optional
-        Coefficient of the ``"linear"`` phase law.
-    profile_slope_range_km : `~astropy.units.Quantity` ['length'], optional
-        (min, max) ρ of the log-log slope fit.
-    profile_bins : int, optional
-        Number of log-spaced profile annuli.
-    sector_half_width : `~astropy.units.Quantity` ['angle'], optional
-        Half opening of the sunward and tailward sectors.
-    min_stars : int, optional
-        Fewer stars in the zero point than this flags the frame ``few_stars``.
-    centroid_box : `~astropy.units.Quantity`, optional
-        Comet centroid box (arcsec or pix); default 4 FWHM.
-    max_centroid_shift : `~astropy.units.Quantity`, optional
-        Largest centroid move from the predicted position (arcsec or pix).
-    max_wcs_offset : `~astropy.units.Quantity`, optional
-        Largest header-WCS error searched when matching stars (arcsec or pix).
-    wcs_shift_limit : `~astropy.units.Quantity`, optional
-        WCS corrections larger than this (at the frame corners) flag ``wcs_refined_large``.
-    detect_threshold : float, optional
-        Detection threshold, signal-to-noise of the binned image.
-    detect_binning : int, optional
-        Binning factor for detection.
-    star_aperture_fwhm : float, optional
-        Star photometry radius in units of the FWHM (corrected to total by the curve of growth).
-    max_zp_stars : int, optional
-        Measure at most this many matched stars (brightest catalogue magnitudes first, which
-        includes saturated ones that are then rejected).
-    min_elongation : `~astropy.units.Quantity` ['angle'], optional
-        Below this solar elongation the rows carry ``low_elongation`` and a caution.
-    coma_correction : bool, optional
-        Correct the comet's aperture sums for the coma light the PSF spreads out of them
-        (column ``coma_apcorr_mag``; see :mod:`photpipe.photometry.coma_apcorr`).
-    site : `~astropy.coordinates.EarthLocation`, optional
-        The observing site; used to compute the airmass when the header has no AIRMASS.
-    airmass_formula : str, optional
-        Key of `~photpipe.photometry.airmass.AIRMASS_FORMULAS` for a computed airmass.
+    **options
+        The fields of the option groups, by name, each described there with its default:
+        `StarOptions` (``detect_threshold, detect_binning, max_wcs_offset, wcs_shift_limit``),
+        `CalibrationOptions` (``band, colour, fit_colour_term, comet_colour, mag_system,
+        min_stars, max_zp_stars, star_aperture_fwhm, coma_correction``), `ApertureOptions`
+        (``apertures_km, apertures_arcsec, annulus, sky_method, centroid_box,
+        max_centroid_shift``), `ProfileOptions` (``profile_slope_range_km, profile_bins,
+        sector_half_width, dust_phase_function, phase_function_table, phase_coefficient``) and
+        `SiteOptions` (``site, airmass_formula, min_elongation``).
 
     Returns
     -------

@@ -47,17 +47,21 @@ class CalibrationOptions:
     fit_colour_term : bool
         Fit a colour term in the zero point.
     comet_colour : float or None
-        The comet's colour (mag) for the colour term; default the Sun's.
+        The comet's colour in ``colour`` (mag) for the colour term; default the Sun's
+        (``SOLAR_COLOURS``).
     mag_system : {"Vega", "AB"}
         System of the catalogue magnitudes (for the solar magnitude).
     min_stars : int
         Fewer stars in the zero point than this flags the frame ``few_stars``.
     max_zp_stars : int
-        Measure at most this many matched stars (brightest catalogue magnitudes first).
+        Measure at most this many matched stars (brightest catalogue magnitudes first, which
+        includes saturated ones that are then rejected).
     star_aperture_fwhm : float
-        Star photometry radius in units of the FWHM.
+        Star photometry radius in units of the FWHM (corrected to total by the curve of growth).
     coma_correction : bool
-        Fit the PSF's curve of growth and correct the comet's sums for the coma it spreads.
+        Fit the PSF's curve of growth and correct the comet's sums for the coma light the PSF
+        spreads out of them (column ``coma_apcorr_mag``; see
+        :mod:`photpipe.photometry.coma_apcorr`).
     """
 
     band: str = "R"
@@ -83,7 +87,7 @@ class ApertureOptions:
         (inner, outer) sky-annulus radii in km, arcsec or pix; default 4 and 8 times the
         largest aperture.
     sky_method : {"coma-fit", "median"}
-        Sky estimator in the annulus.
+        Sky estimator in the annulus (see :mod:`photpipe.photometry.sky`).
     centroid_box : `~astropy.units.Quantity` or None
         Comet centroid box (arcsec or pix); default 4 FWHM.
     max_centroid_shift : `~astropy.units.Quantity`
@@ -137,7 +141,7 @@ class SiteOptions:
     airmass_formula : str
         Key of `~photpipe.photometry.airmass.AIRMASS_FORMULAS`.
     min_elongation : `~astropy.units.Quantity`
-        Below this solar elongation the rows carry ``low_elongation``.
+        Below this solar elongation the rows carry ``low_elongation`` and a caution.
     """
 
     site: object = None

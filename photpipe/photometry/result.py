@@ -5,17 +5,16 @@ from dataclasses import dataclass, field
 from astropy.table import QTable
 from astropy.wcs import WCS
 
+from photpipe import schema
+
 from .zeropoint import ZeroPoint
 
 __all__ = ["MEASUREMENT_COLUMNS", "FramePhotometry"]
 
-#: The columns of ``measurements.ecsv``, in order (the stage contract, see DEVELOPERS.md).
-MEASUREMENT_COLUMNS = (
-    "frame", "mjd_utc_mid", "filter", "exptime_s", "airmass", "zp_mag", "zp_err_mag", "n_stars",
-    "x_pix", "y_pix", "ra_deg", "dec_deg", "r_h_au", "delta_au", "phase_deg", "elong_deg",
-    "rho_km", "rho_arcsec", "mag", "mag_err", "afrho_cm", "afrho_err_cm", "a0frho_cm",
-    "a0frho_err_cm", "coma_slope", "coma_apcorr_mag", "flags",
-)
+#: The columns of ``measurements.ecsv`` this stage makes, in order (the stage contract, see
+#: DEVELOPERS.md), from the schema (`photpipe.schema.MEASUREMENT_COLUMNS`).
+MEASUREMENT_COLUMNS = ("frame",) + schema.column_names(schema.MEASUREMENT_COLUMNS,
+                                                      stage="photometry")
 
 
 @dataclass(frozen=True)

@@ -8,8 +8,8 @@
 - `photpipe.report.headline`: the headline lines printed at the end of a run.
 """
 
-from photpipe.report.headline import headline_lines
+from photpipe.report.headline import headline_lines, size_line
 from photpipe.report.page import SUN_CAUTION, figure_to_data_uri, render_report, write_report
 
 __all__ = ["write_report", "render_report", "figure_to_data_uri", "SUN_CAUTION",
-           "headline_lines"]
+           "headline_lines", "size_line"]

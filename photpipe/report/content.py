@@ -274,8 +274,11 @@ def draw_figures(measurements, nucleus, analysis, settings, notes, *, extra=None
     left out and the reason appended to ``notes``.
     """
     figures, captions = {}, {}
+    from photpipe.report.frame_figures import frame_figure_jobs
+
     jobs = {**_cutout_jobs(measurements, out_dir),
-            **_figure_jobs(measurements, nucleus, analysis, settings)}
+            **_figure_jobs(measurements, nucleus, analysis, settings),
+            **frame_figure_jobs(nucleus, out_dir)}
     for name, (caption, build) in jobs.items():
         try:
             with warnings.catch_warnings():

@@ -12,7 +12,7 @@ from astropy.time import Time
 from photpipe.flags import INFORMATIONAL, split_flags
 from photpipe.report.numbers import value_range, with_error
 
-__all__ = ["headline_lines", "nightly_afrho", "night_date", "REFERENCE_RHO"]
+__all__ = ["headline_lines", "nightly_afrho", "night_date", "size_line", "REFERENCE_RHO"]
 
 #: Aperture radius at which A(0)fρ is quoted (the aperture nearest to it is used).
 REFERENCE_RHO = 10_000 * u.km
@@ -140,6 +140,29 @@ def _size_line(size):
     if size.get("radius_km") is not None and size.get("status") not in (None, "radius"):
         line += f"; {str(size['status']).upper()}: {size.get('reason') or 'see size.json'}"
     return [line]
+
+
+def size_line(size):
+    """One line for the size result: the radius or its upper limit, with its status.
+
+    Parameters
+    ----------
+    size : dict
+        The size result as in ``size.json``.
+
+    Returns
+    -------
+    line : str
+        For example ``"nucleus radius: 4.6 km (68 % interval 3.8-5.5 km) for an assumed
+        albedo 0.04"``.
+
+    Examples
+    --------
+    >>> size_line({"radius_km": 4.6, "albedo": 0.04, "status": "radius"})
+    'nucleus radius: 4.6 km for an assumed albedo 0.04'
+    """
+    lines = _size_line(size)
+    return lines[0] if lines else "nucleus radius: not given (no result)"
 
 
 def _activity_lines(measurements, activity):

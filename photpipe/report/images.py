@@ -172,7 +172,8 @@ def profile_figure(profile, *, title="Coma surface-brightness profile Σ(ρ)",
         ref = s[mid] * (r / r[mid]) ** steady_state
         ax.plot(r, ref, color="0.5", ls="--", lw=1, label=f"Σ ∝ ρ^{steady_state:g} (steady)")
     log_axis(ax, "xy")
-    ylabel = "surface brightness Σ" + (f" ({unit.to_string()})" if unit is not None else "")
+    ylabel = "surface brightness Σ" + (f" ({unit.to_string('unicode')})" if unit is not None
+                                       else "")
     label_axes(ax, xlabel="ρ at the comet (km)", ylabel=ylabel, title=title)
     return fig
 

@@ -293,12 +293,19 @@ def _figure_html(name, fig, captions):
             f"<figcaption>{cap}</figcaption></figure>")
 
 
+def _longer_stem(name, stem):
+    """Whether ``name`` belongs to a longer stem of the page ("nucleus_images", not "nucleus")."""
+    return any(len(other) > len(stem) and (name == other or name.startswith(other + "_"))
+               for _, _, stems, _ in SECTIONS for other in stems)
+
+
 def _sections_html(figures, tables, captions, reasons, max_rows):
     parts, used_f, used_t = [], set(), set()
     for key, title, fig_names, table_names in SECTIONS:
         body = []
         for stem in fig_names:
-            for name in [n for n in figures if n == stem or n.startswith(stem + "_")]:
+            for name in [n for n in figures if (n == stem or n.startswith(stem + "_"))
+                         and n not in used_f and not _longer_stem(n, stem)]:
                 body.append(_figure_html(name, figures[name], captions))
                 used_f.add(name)
         for name in table_names:

@@ -41,7 +41,7 @@ def gather_evidence(points, fit, periodograms, grid, *, alias_delta_chi2, n_cand
     if len(aliases) and float(aliases["delta_chi2"][0]) < alias_delta_chi2:
         flags.append("alias_ambiguous")
         warnings.warn(
-            f"the alias '{aliases['name'][0]}' ({aliases['period'][0].to_value(u.h):.4f} h) "
+            f"the alias '{aliases['name'][0]}' ({aliases['period_h'][0].to_value(u.h):.4f} h) "
             f"fits nearly as well (Δχ² = {float(aliases['delta_chi2'][0]):.1f}): more nights "
             f"or another site are needed to decide", RotationWarning, stacklevel=3)
     tolerance = max(3 * fit.frequency_err, 0.5 / grid.baseline_d)
@@ -70,11 +70,11 @@ def _candidates(periodograms, adopted, tolerance, window, n_candidates, distance
             f = float(pg.frequency[i])
             rows.append((name, rank, f, 24.0 / f, float(pg.statistic[i]), float(pg.fap[i]),
                          describe_relation(f, adopted, tolerance=tolerance, window=window)))
-    names = ["method", "rank", "frequency", "period", "statistic", "fap", "relation"]
+    names = ["method", "rank", "frequency_per_day", "period_h", "statistic", "fap", "relation"]
     cols = list(zip(*rows)) if rows else [[] for _ in names]
     table = QTable(dict(zip(names, [np.array(c) for c in cols])))
-    table["frequency"] = np.asarray(table["frequency"], dtype=float) / u.day
-    table["period"] = np.asarray(table["period"], dtype=float) * u.h
+    table["frequency_per_day"] = np.asarray(table["frequency_per_day"], dtype=float) / u.day
+    table["period_h"] = np.asarray(table["period_h"], dtype=float) * u.h
     return table
 
 
@@ -91,11 +91,11 @@ def _aliases(t, y, dy, fit, window, f_min, f_max, half_width):
             rows.append((f"adopted {text} {row['name']}", alt.frequency, 24 / alt.frequency,
                          (alt.chi2 - fit.chi2) / scale2))
     rows.sort(key=lambda r: r[3])
-    names = ["name", "frequency", "period", "delta_chi2"]
+    names = ["name", "frequency_per_day", "period_h", "delta_chi2"]
     cols = list(zip(*rows)) if rows else [[] for _ in names]
     table = QTable(dict(zip(names, [np.array(c) for c in cols])))
     table["name"] = np.asarray(table["name"], dtype=str)
-    table["frequency"] = np.asarray(table["frequency"], dtype=float) / u.day
-    table["period"] = np.asarray(table["period"], dtype=float) * u.h
+    table["frequency_per_day"] = np.asarray(table["frequency_per_day"], dtype=float) / u.day
+    table["period_h"] = np.asarray(table["period_h"], dtype=float) * u.h
     table["delta_chi2"] = np.asarray(table["delta_chi2"], dtype=float)
     return table

@@ -76,8 +76,7 @@ def _mark_aliases(ax, result, shown):
     """Numbered marks along the top for the adopted period's named aliases."""
     rows = list(result.aliases[:4])
     for n, row in enumerate(rows, start=1):
-        p = float(row["period"].to_value(u.h)) if "period" in row.colnames \
-            else 24.0 / float(row["frequency"].to_value(1 / u.day))
+        p = float(row["period_h"].to_value(u.h))
         if not (shown[0] <= p <= shown[1]):
             continue
         ax.axvline(p, color="#56B4E9", ls=":", lw=1)

@@ -183,7 +183,7 @@ class RotationResult:
             "mean_phase_deg": float(self.mean_phase_deg),
             "coma_free": bool(self.lightcurve.coma_free),
             "shape": self.shape,
-            "aliases": [{"name": str(r["name"]), "period_h": float(r["period"].to_value(u.h)),
+            "aliases": [{"name": str(r["name"]), "period_h": float(r["period_h"].to_value(u.h)),
                          "delta_chi2": float(r["delta_chi2"])} for r in self.aliases],
             "window_peaks": [{"name": str(r["name"]),
                               "frequency_per_day": float(r["frequency"].to_value(1 / u.day)),

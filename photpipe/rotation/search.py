@@ -165,7 +165,8 @@ def _false_alarm(points, fit, grid, flags):
 
 
 def _warn(message):
-    warnings.warn(message, RotationWarning, stacklevel=4)
+    # _warn <- a step <- _search <- search_rotation <- the caller
+    warnings.warn(message, RotationWarning, stacklevel=5)
 
 
 def _settings(points, grid, lc, *, n_bootstrap, slope, coma_fraction, fap_limit,
@@ -280,45 +281,100 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
     """
     rng, pmin_h, pmax_h, slope = _checked_inputs(reduced, methods, rng, min_period, max_period,
                                                  amplitude_phase_slope)
-    opt = MethodOptions(tuple(methods), oversample, max_order, order_criterion, ls_nterms,
-                        pdm_bins, pdm_covers)
+    opts = SearchOptions(
+        min_period_h=pmin_h, max_period_h=pmax_h, slope_per_deg=slope,
+        methods=MethodOptions(tuple(methods), oversample, max_order, order_criterion, ls_nterms,
+                              pdm_bins, pdm_covers),
+        n_bootstrap=n_bootstrap, prefer_double_peaked=prefer_double_peaked,
+        use_points=use_points, coma_fraction=coma_fraction, significance=significance,
+        alias_delta_chi2=alias_delta_chi2, n_candidates=n_candidates, min_points=min_points,
+        fap_limit=fap_limit)
+    return _search(reduced, opts, rng)
 
-    points = prepare_points(reduced, use_points=use_points, min_points=min_points,
-                            min_period_h=pmin_h, max_period_h=pmax_h)
+
+@dataclass(frozen=True)
+class SearchOptions:
+    """The keywords of `search_rotation`, checked, with the ranges in plain hours and 1/deg."""
+
+    min_period_h: float
+    max_period_h: float
+    slope_per_deg: float
+    methods: MethodOptions
+    n_bootstrap: int
+    prefer_double_peaked: bool
+    use_points: str
+    coma_fraction: object
+    significance: float
+    alias_delta_chi2: float
+    n_candidates: int
+    min_points: int
+    fap_limit: float
+
+
+def _search(reduced, opts, rng):
+    """The search as a plan: points, periodograms, shape and fit, errors, evidence, verdict."""
+    points = prepare_points(reduced, use_points=opts.use_points, min_points=opts.min_points,
+                            min_period_h=opts.min_period_h, max_period_h=opts.max_period_h)
     flags = list(points.flags)
-    t, y, dy, lc = points.t, points.y, points.dy, points.lightcurve
-    grid = frequency_grid(t, min_period=pmin_h * u.h, max_period=points.max_period_h * u.h,
-                          oversample=oversample)
-    periodograms = _periodograms(points, grid, opt)
+    grid = frequency_grid(points.t, min_period=opts.min_period_h * u.h,
+                          max_period=points.max_period_h * u.h,
+                          oversample=opts.methods.oversample)
+    periodograms = _periodograms(points, grid, opts.methods)
+    fit, shape, blocks = _adopted_fit(points, grid, periodograms, opts, flags)
+    errors = period_errors(points.t, points.y, points.dy, fit, blocks,
+                           n_bootstrap=opts.n_bootstrap, rng=rng)
+    flags += errors.flags
+    amplitudes = _amplitudes(points.lightcurve, fit, opts.coma_fraction, opts.slope_per_deg,
+                             flags)
+    fap = _false_alarm(points, fit, grid, flags)
+    evidence = gather_evidence(points, fit, periodograms, grid,
+                               alias_delta_chi2=opts.alias_delta_chi2,
+                               n_candidates=opts.n_candidates,
+                               oversample=opts.methods.oversample)
+    flags += evidence.flags
+    verdict = _verdict(points, grid, fit, fap, evidence, shape, errors, opts, flags)
+    return _result(reduced, points, grid, fit, errors, amplitudes, fap, periodograms, evidence,
+                   shape, verdict, flags, opts)
+
+
+def _adopted_fit(points, grid, periodograms, opts, flags):
+    """The Fourier fit at the adopted frequency and order, the shape decision, the nights."""
+    t, y, dy = points.t, points.y, points.dy
     half_width = 1.0 / (2 * grid.baseline_d)
-    blocks = night_blocks(t, lc.site, gap=NIGHT_GAP_D)
-    f_start, order = _start(periodograms, opt)
+    blocks = night_blocks(t, points.lightcurve.site, gap=NIGHT_GAP_D)
+    f_start, order = _start(periodograms, opts.methods)
     f_adopt, m_adopt, shape = decide_shape(
-        t, y, dy, f_start, order, grid.f0, grid.f_max, significance=significance,
-        prefer_double=prefer_double_peaked, half_width=half_width, blocks=blocks)
+        t, y, dy, f_start, order, grid.f0, grid.f_max, significance=opts.significance,
+        prefer_double=opts.prefer_double_peaked, half_width=half_width, blocks=blocks)
     if shape["choice"] == "double-peaked (assumed)":
         flags.append("double_peaked_assumed")
     fit = fit_fourier_series(t, y, dy, f_adopt, m_adopt, search_half_width=half_width / 4)
-    errors = period_errors(t, y, dy, fit, blocks, n_bootstrap=n_bootstrap, rng=rng)
-    flags += errors.flags
-    amp_nucleus, amp0, ratio = _amplitudes(lc, fit, coma_fraction, slope, flags)
-    fap = _false_alarm(points, fit, grid, flags)
-    evidence = gather_evidence(points, fit, periodograms, grid,
-                               alias_delta_chi2=alias_delta_chi2, n_candidates=n_candidates,
-                               oversample=oversample)
-    flags += evidence.flags
-    verdict = judge_period((t, y, dy), fit, fap=fap, aliases=evidence.aliases,
-                           methods_summary=evidence.methods_summary, shape=shape,
-                           f_range=(grid.f0, grid.f_max), baseline_d=grid.baseline_d,
-                           nights=points.nights, period_err_h=errors.period_err_h,
-                           options=VerdictOptions(alias_delta_chi2, fap_limit))
+    return fit, shape, blocks
+
+
+def _verdict(points, grid, fit, fap, evidence, shape, errors, opts, flags):
+    """Whether the data give a period, with its flag and warning when they do not."""
+    verdict = judge_period((points.t, points.y, points.dy), fit, fap=fap,
+                           aliases=evidence.aliases, methods_summary=evidence.methods_summary,
+                           shape=shape, f_range=(grid.f0, grid.f_max),
+                           baseline_d=grid.baseline_d, nights=points.nights,
+                           period_err_h=errors.period_err_h,
+                           options=VerdictOptions(opts.alias_delta_chi2, opts.fap_limit))
     if verdict.status != "period":
         flags.append(f"period_{verdict.status}")
         _warn(verdict.headline)
+    return verdict
 
-    settings = _settings(points, grid, lc, n_bootstrap=n_bootstrap, slope=slope,
-                         coma_fraction=coma_fraction, fap_limit=fap_limit, min_period_h=pmin_h,
-                         oversample=oversample)
+
+def _result(reduced, points, grid, fit, errors, amplitudes, fap, periodograms, evidence, shape,
+            verdict, flags, opts):
+    """The `RotationResult` of the search."""
+    lc = points.lightcurve
+    amp_nucleus, amp0, ratio = amplitudes
+    settings = _settings(points, grid, lc, n_bootstrap=opts.n_bootstrap,
+                         slope=opts.slope_per_deg, coma_fraction=opts.coma_fraction,
+                         fap_limit=opts.fap_limit, min_period_h=opts.min_period_h,
+                         oversample=opts.methods.oversample)
     return RotationResult(
         period=24.0 / fit.frequency * u.h, period_err=errors.period_err_h * u.h,
         period_err_covariance=errors.err_covariance_h * u.h,
@@ -331,7 +387,7 @@ def search_rotation(reduced, *, min_period=2 * u.h, max_period=60 * u.h,
         method="fourier", fit=fit, false_alarm_probability=fap, periodograms=periodograms,
         candidates=evidence.candidates, window=evidence.window, aliases=evidence.aliases,
         shape=shape, methods_summary=evidence.methods_summary,
-        flags=tuple(dict.fromkeys(flags)), lightcurve=lc, magnitudes=y,
+        flags=tuple(dict.fromkeys(flags)), lightcurve=lc, magnitudes=points.y,
         mean_phase_deg=float(np.mean(lc.phase_deg)), settings=settings,
         status=verdict.status, allowed_periods=verdict.allowed_periods,
         headline=verdict.headline, verdict_reasons=verdict.reasons,

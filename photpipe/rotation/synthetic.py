@@ -127,10 +127,32 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
         raise ValueError(msg)
     step_d = as_positive_value(cadence, u.day, "cadence")
     beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
-    r_h = as_positive_value(r_h, u.au, "r_h")
-    delta = as_positive_value(delta, u.au, "delta")
-    alpha = as_value(phase, u.deg, "phase")
+    geometry = (as_positive_value(r_h, u.au, "r_h"), as_positive_value(delta, u.au, "delta"),
+                as_value(phase, u.deg, "phase"))
 
+    coef = _shape_coefficients(asymmetry, symmetric, amp)
+    obs = _observing_times(n_nights, sites, start_mjd, night_hours, step_d, cloud_fraction, rng)
+    rh, dl, ph, light_time = _linear_geometry(obs.mjd, start_mjd, n_nights, *geometry)
+    emission = obs.mjd - light_time / 86400.0
+    truth = SyntheticRotation(period=(p_day * u.day).to(u.h), amplitude=amp * u.mag,
+                              coefficients=coef, t0_mjd=start_mjd, absolute_mag=absolute_mag)
+    err = sigma * rng.uniform(0.8, 1.3, obs.mjd.size)
+    mag = (absolute_mag + 5 * np.log10(rh * dl) + beta * ph + truth.signal(emission)
+           + rng.normal(0.0, err))
+    if zp_sigma > 0 and mag.size:
+        mag = mag + rng.normal(0.0, zp_sigma, obs.n_blocks)[obs.block]
+    n = obs.mjd.size
+    table = QTable({
+        "frame": obs.frames, "mjd_utc_mid": obs.mjd, "nucleus_mag": mag, "nucleus_mag_err": err,
+        "r_h_au": rh, "delta_au": dl, "phase_deg": ph, "light_time_s": light_time,
+        "site": obs.site, "filter": np.full(n, filter_name),
+        "source": np.full(n, source), "flags": np.full(n, "", dtype="<U64"),
+    }, meta={"synthetic": True, "period_h": float(p_day * 24), "amplitude_mag": amp})
+    return table, truth
+
+
+def _shape_coefficients(asymmetry, symmetric, amp):
+    """Fourier coefficients of the rotational signal, scaled to ``amp`` peak to peak."""
     shape = np.array([0.0,
                       asymmetry * np.cos(0.7), asymmetry * np.sin(0.7),
                       1.0, 0.0,
@@ -138,8 +160,22 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
                       0.08, 0.05])
     if symmetric:
         shape[[1, 2, 5, 6]] = 0.0
-    coef = shape * amp / peak_to_peak(shape)
+    return shape * amp / peak_to_peak(shape)
 
+
+@dataclass(frozen=True)
+class _Observations:
+    """Exposure times in time order, with site, frame name and site-night index of each."""
+
+    mjd: np.ndarray
+    site: np.ndarray
+    frames: np.ndarray
+    block: np.ndarray
+    n_blocks: int
+
+
+def _observing_times(n_nights, sites, start_mjd, night_hours, step_d, cloud_fraction, rng):
+    """The exposures of every site-night that is not clouded out."""
     epochs, site_col, frames, block = [], [], [], []
     for night in range(n_nights):
         for name, lon in sites.items():
@@ -156,30 +192,17 @@ def synthetic_lightcurve(*, period=7.3 * u.h, amplitude=0.4 * u.mag, asymmetry=0
             block += [len(epochs) - 1] * times.size
     mjd = np.concatenate(epochs) if epochs else np.empty(0)
     order = np.argsort(mjd)
-    mjd = mjd[order]
-    site_col = np.array(site_col, dtype=str)[order]
-    frames = np.array(frames, dtype=str)[order]
-    block = np.array(block, dtype=int)[order]
+    return _Observations(mjd[order], np.array(site_col, dtype=str)[order],
+                         np.array(frames, dtype=str)[order], np.array(block, dtype=int)[order],
+                         len(epochs))
 
+
+def _linear_geometry(mjd, start_mjd, n_nights, r_h, delta, alpha):
+    """r_h, Δ, phase changing linearly over the campaign, and the light time (s)."""
     span = max(n_nights - 1, 1)
     frac = (mjd - start_mjd) / span
     rh = r_h[0] + (r_h[1] - r_h[0]) * frac
     dl = delta[0] + (delta[1] - delta[0]) * frac
     ph = alpha[0] + (alpha[1] - alpha[0]) * frac
     light_time = dl * (const.au / const.c).to_value(u.s)
-    emission = mjd - light_time / 86400.0
-    t0 = start_mjd
-    truth = SyntheticRotation(period=(p_day * u.day).to(u.h), amplitude=amp * u.mag,
-                              coefficients=coef, t0_mjd=t0, absolute_mag=absolute_mag)
-    err = sigma * rng.uniform(0.8, 1.3, mjd.size)
-    mag = (absolute_mag + 5 * np.log10(rh * dl) + beta * ph + truth.signal(emission)
-           + rng.normal(0.0, err))
-    if zp_sigma > 0 and mag.size:
-        mag = mag + rng.normal(0.0, zp_sigma, len(epochs))[block]
-    table = QTable({
-        "frame": frames, "mjd_utc_mid": mjd, "nucleus_mag": mag, "nucleus_mag_err": err,
-        "r_h_au": rh, "delta_au": dl, "phase_deg": ph, "light_time_s": light_time,
-        "site": site_col, "filter": np.full(mjd.size, filter_name),
-        "source": np.full(mjd.size, source), "flags": np.full(mjd.size, "", dtype="<U64"),
-    }, meta={"synthetic": True, "period_h": float(p_day * 24), "amplitude_mag": amp})
-    return table, truth
+    return rh, dl, ph, light_time

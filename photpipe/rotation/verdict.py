@@ -77,7 +77,7 @@ def _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width):
     """Every rival period weighed with the adopted fit's number of harmonics."""
     t, y, dy = data
     f_min, f_max = f_range
-    rivals = [{"period_h": float(r["period"].to_value("h")),
+    rivals = [{"period_h": float(r["period_h"].to_value("h")),
                "delta_chi2": float(r["delta_chi2"]), "relation": str(r["name"])}
               for r in aliases]
     assumed = shape.get("choice") == "double-peaked (assumed)"

@@ -1,6 +1,6 @@
 """The synthetic comet: a point-source nucleus plus a K/ρ coma, seen through the PSF.
 
-The coma is integrated exactly over each pixel (:func:`photpipe.nucleus.coma.coma_image`) on a
+The coma is integrated exactly over each pixel (:func:`photpipe.models.coma.coma_image`) on a
 frame padded by the PSF half-width (so light from coma beyond the frame edge spreads in), then
 convolved with the pixel-sampled PSF; the nucleus is a PSF stamp at the sub-pixel position.
 
@@ -18,9 +18,8 @@ from astropy import units as u
 from scipy.signal import fftconvolve
 
 from photpipe._quantity import as_positive_value, as_value
-from photpipe.nucleus.coma import coma_image
-
-from .psf import moffat_stamp
+from photpipe.models.coma import coma_image
+from photpipe.models.moffat import moffat_stamp
 
 __all__ = ["CometSpec", "coma_k_from_afrho", "render_comet"]
 

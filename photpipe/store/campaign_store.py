@@ -305,7 +305,8 @@ class CampaignStore:
                            (frame_id, cal_id))
             sources = {"geometry": record.geometry, "zero_points": record.zero_point,
                        "stars": record.stars, "measurements": record.measurements,
-                       "nucleus": record.nucleus}
+                       "nucleus": record.nucleus, "astrometry": record.astrometry,
+                       "profiles": record.profile}
             # Rows lacking the frame-level facts get them from the record.
             facts = {"mjd_utc_mid": record.mjd_utc_mid, "filter": record.filter,
                      "exptime_s": record.exptime_s}

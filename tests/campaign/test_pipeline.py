@@ -7,6 +7,7 @@ import pytest
 
 from photpipe.campaign.pipeline import night_name, run_campaign
 from photpipe.config import ConfigError, load_config
+from photpipe.orbit import read_ades
 from photpipe.store import CampaignStore, StoreError
 
 from ._nights import assert_same_contents, contents, render_small_night, write_config
@@ -50,6 +51,13 @@ def test_two_nights_are_stored_and_exported(tmp_path, nights):
         assert store.count("calibrations") == 6  # bias, dark, flat per night
         assert set(store.measured("2026-12-01")) == {"sci_0001", "sci_0002", "sci_0003"}
         assert store.count("measurements") > 0
+        # each measured frame keeps its comet position and its coma profile
+        assert store.count("astrometry") == 5
+        assert store.count("profiles") >= 5
+    positions = read_ades([str(results / "astrometry.psv")])
+    assert len(positions.table) == 5 and positions.problems == []
+    assert (results / "2026-12-01" / "2026-12-01_astrometry.xml").is_file()
+    assert len(list((results / "2026-12-01" / "nucleus_images").glob("*.fits"))) == 3
     assert Path(summary.log).is_file()
     assert "run 1 completed" in Path(summary.log).read_text()
     text = summary.format()

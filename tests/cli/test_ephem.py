@@ -235,3 +235,34 @@ def test_predicted_magnitude_from_the_campaign_trend():
     assert "ρ = 10000 km" in note
     none, why = predicted_magnitude(geo, activity=None, size={"H_mag": 14.0})
     assert none is None and "no fitted A(0)fρ trend" in why
+
+
+def test_predicted_magnitude_error_band_against_draws():
+    # the band's 1σ from first-order propagation agrees with the spread of magnitudes drawn
+    # from the trend's parameter covariance plus its scatter (a slow, obviously correct oracle)
+    from photpipe.cli._sky import predicted_magnitude_band
+    from photpipe.photometry.dust_phase import dust_phase
+
+    geo = QTable({"time": Time(["2026-12-01T00:00", "2026-12-09T00:00"]),
+                  "r_h": [1.2, 1.6] * u.au, "delta": [0.9, 1.1] * u.au,
+                  "phase": [20.0, 30.0] * u.deg})
+    branch = {"branch": "post", "k": -2.5, "k_err": 0.3, "log10_afrho_1au_cm": 2.3,
+              "log10_afrho_1au_err": 0.05, "cov_lognorm_k": -0.004, "scatter_dex": 0.06,
+              "r_h_min_au": 1.1, "r_h_max_au": 1.4}
+    activity = {"trend": {"rho_km": 10000.0, "perihelion_time": "2026-11-20T09:30:00.000",
+                          "branches": [branch]}}
+    mag, err, note = predicted_magnitude_band(geo, activity=activity,
+                                              size={"m_sun_mag": -27.15})
+    rng = np.random.default_rng(3)
+    cov = [[0.05**2, -0.004], [-0.004, 0.3**2]]
+    draws = rng.multivariate_normal([2.3, -2.5], cov, size=20000)
+    log_a = (draws[:, :1] + draws[:, 1:] * np.log10([1.2, 1.6])
+             + rng.normal(0, 0.06, (20000, 1)))
+    afrho = 10**log_a * dust_phase([20.0, 30.0] * u.deg)
+    # A'Hearn et al. (1984, AJ 89, 579): m = m_sun - 2.5 log10(Afρ ρ / (4 r_h² Δ²))
+    m = -27.15 - 2.5 * np.log10(afrho * 1e9 / (4 * np.array([1.2, 1.6]) ** 2
+                                               * (np.array([0.9, 1.1]) * 1.495978707e13) ** 2))
+    np.testing.assert_allclose(err, m.std(axis=0), rtol=0.03)
+    np.testing.assert_allclose(mag, np.median(m, axis=0), atol=0.01)
+    assert "extrapolated beyond r_h 1.10-1.40 au" in note
+    assert "night-to-night scatter" in note

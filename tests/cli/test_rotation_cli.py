@@ -44,6 +44,13 @@ def test_command_writes_outputs(tmp_path, capsys):
     for name in ("rotation_candidates.ecsv", "rotation_periodograms.png", "rotation_phased.png",
                  "rotation_residuals.png"):
         assert (tmp_path / "results" / name).stat().st_size > 0
+    from astropy.table import QTable
+
+    candidates = QTable.read(tmp_path / "results" / "rotation_candidates.ecsv")
+    # one naming rule for every result file: a quantity's name ends in its unit
+    assert {"period_h", "frequency_per_day"} <= set(candidates.colnames)
+    assert "period" not in candidates.colnames
+    assert candidates["period_h"].unit == u.h
 
 
 def test_unknown_key_is_reported(tmp_path, capsys):

@@ -9,8 +9,8 @@ from photutils.aperture import CircularAperture
 from scipy.signal import fftconvolve
 
 from photpipe.frames.types import CalibratedFrame, FrameInfo
-from photpipe.nucleus.coma import coma_image
-from photpipe.nucleus.moffat import moffat_kernel, moffat_surface
+from photpipe.models.coma import coma_image
+from photpipe.models.moffat import moffat_kernel, moffat_surface
 
 READ_NOISE = 5.0
 

@@ -3,9 +3,11 @@ import re
 
 import numpy as np
 import pytest
+from _schema_check import assert_in_schema
 from astropy import units as u
 from matplotlib.figure import Figure
 
+from photpipe import schema
 from photpipe._warnings import PoorResultWarning
 from photpipe.frames.types import Quality
 from photpipe.nucleus import (
@@ -155,6 +157,7 @@ def test_table_and_figure(oracle, make_frame):
                       zero_point=25.0)
     t = nucleus_table([fit, fit])
     assert t.colnames == list(NUCLEUS_COLUMNS)
+    assert_in_schema(t, schema.NUCLEUS_COLUMNS, "nucleus")  # every column with its unit
     assert t["nucleus_flux_e_s"].unit == u.electron / u.s and t["fwhm_arcsec"].unit == u.arcsec
     assert t["fwhm_arcsec"][0].value == pytest.approx(3.0, rel=1e-12)
     fig = plot_nucleus_fit(fit)

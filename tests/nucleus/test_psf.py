@@ -3,8 +3,8 @@ import pytest
 from astropy import units as u
 
 from photpipe._warnings import PoorResultWarning
+from photpipe.models.moffat import moffat_pixel_image
 from photpipe.nucleus import SHARED_RESIDUAL_SIGMA, PSFModel, measure_psf
-from photpipe.nucleus.moffat import moffat_pixel_image
 
 
 @pytest.mark.slow

@@ -5,11 +5,11 @@ import pytest
 from astropy import units as u
 from scipy import integrate, special
 
+from photpipe.models import moffat_encircled
 from photpipe.photometry.coma_apcorr import (
     MoffatGrowth,
     coma_aperture_correction,
     fit_moffat_growth,
-    moffat_encircled,
 )
 
 from ._synthetic import measure_recording

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from photpipe.nucleus.coma import coma_image
+from photpipe.models.coma import coma_image
 from photpipe.photometry import azimuthal_median_model, measure_star_fluxes
 from photpipe.scenario import moffat_stamp
 
@@ -38,7 +38,7 @@ def test_median_of_a_ring_across_a_coma():
 
 
 def test_model_follows_a_noise_free_coma():
-    # truth: the exact pixel integral of K/ρ (photpipe.nucleus.coma.coma_image) on a flat sky
+    # truth: the exact pixel integral of K/ρ (photpipe.models.coma.coma_image) on a flat sky
     img = _SKY + coma_image(_SHAPE, *_COMET, _K)
     model = azimuthal_median_model(img, np.ones(_SHAPE, bool), *_COMET, width=1.0)
     yy, xx = np.mgrid[:_SHAPE[0], :_SHAPE[1]]

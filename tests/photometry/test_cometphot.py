@@ -2,7 +2,7 @@ import numpy as np
 import pytest
 from photutils.aperture import CircularAperture, aperture_photometry
 
-from photpipe.nucleus.coma import coma_image
+from photpipe.models.coma import coma_image
 from photpipe.photometry import comet_aperture_fluxes, fill_from_rings
 
 

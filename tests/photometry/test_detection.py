@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from photutils.psf import fit_fwhm
 
-from photpipe.nucleus.coma import coma_image
+from photpipe.models.coma import coma_image
 from photpipe.photometry import detect_sources, measure_fwhm, sky_statistics
 
 
@@ -47,7 +47,7 @@ def test_detects_the_stars():
 
 
 def test_no_false_peaks_on_a_coma():
-    # a bright smooth 1/ρ coma (exact pixel integral, photpipe.nucleus.coma) with noise gives one
+    # a bright smooth 1/ρ coma (exact pixel integral, photpipe.models.coma) with noise gives one
     # detection, the coma's centre
     rng = np.random.default_rng(4)
     shape = (300, 300)
@@ -88,7 +88,7 @@ def test_too_few_sky_pixels():
 
 
 def test_fwhm_of_stars_on_a_coma_uses_their_own_sky():
-    # oracle: the same stars on a flat sky. On a K/ρ coma (photpipe.nucleus.coma.coma_image) at
+    # oracle: the same stars on a flat sky. On a K/ρ coma (photpipe.models.coma.coma_image) at
     # 25-60 pixels from the nucleus the frame's sky misses a pedestal of 170-400 e-, which
     # widens a Gaussian fit to the log-core: measured +67 % with the frame's sky, +0.9 % with
     # each star's ring sky (the coma's gradient across the box is left).

@@ -1,7 +1,7 @@
 import numpy as np
 import pytest
 
-from photpipe.nucleus.coma import coma_image
+from photpipe.models.coma import coma_image
 from photpipe.photometry import refine_comet_centre
 
 

@@ -293,3 +293,16 @@ def test_unknown_option_is_named():
     opts = MeasureOptions.from_keywords(band="V", sky_method="median", min_stars=3)
     assert (opts.calibration.band, opts.apertures.sky_method, opts.calibration.min_stars) == \
         ("V", "median", 3)
+
+
+def test_every_emitted_column_is_in_the_schema_with_its_unit(standard):
+    _, r, _ = standard
+    from _schema_check import assert_in_schema
+
+    from photpipe import schema
+
+    assert_in_schema(r.comet, schema.MEASUREMENT_COLUMNS, "measurements")
+    stars = r.stars[[n for n in r.stars.colnames if n in schema.stage_names("stars")]]
+    stars = stars.__class__({schema.stage_names("stars")[n]: stars[n] for n in stars.colnames})
+    assert len(stars.colnames) == len(schema.STAR_COLUMNS)
+    assert_in_schema(stars, schema.STAR_COLUMNS, "stars")

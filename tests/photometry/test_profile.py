@@ -1,12 +1,12 @@
 import numpy as np
 import pytest
 
-from photpipe.nucleus.coma import coma_image
+from photpipe.models.coma import coma_image
 from photpipe.photometry import annulus_means, profile_slope, sector_selection
 
 
 def test_exact_coma_has_slope_minus_one():
-    # an exactly pixel-integrated K/ρ coma (photpipe.nucleus.coma, Gradshteyn & Ryzhik 2.271)
+    # an exactly pixel-integrated K/ρ coma (photpipe.models.coma, Gradshteyn & Ryzhik 2.271)
     # has d log Σ / d log ρ = -1 (steady state, Jewitt & Meech 1987, AJ 93, 1542)
     shape = (401, 401)
     img = coma_image(shape, 200.3, 199.8, 500.0)

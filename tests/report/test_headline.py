@@ -57,3 +57,18 @@ def test_headline_follows_the_activity_column_and_names_an_uncertain_radius():
     # half of the total-light case above: 102.0 ± 4.47 cm scaled by 0.5 (exact)
     assert "A(0°)fρ of the coma 2026-12-01 (ρ = 10000 km, 2 frames): 51.0 ± 2.2 cm" in text
     assert "nucleus radius: 5.1 km; UNCERTAIN: the H error exceeds the limit" in text
+
+
+def test_run_screen_size_line_carries_radius_and_status():
+    # the in-run line says what the end headline says, not only the step's title
+    from photpipe.campaign.pipeline import _step_line
+
+    size = {"radius_km": 3.1, "radius_lo_km": 2.6, "radius_hi_km": 3.7, "albedo": 0.04,
+            "status": "insecure", "reason": "H rests on 12 points", "summary": "Nucleus size"}
+    line = _step_line("size", size, size["summary"])
+    assert line.startswith("size: nucleus radius: 3.1 km (68 % interval")
+    assert "INSECURE: H rests on 12 points" in line
+    limit = {"radius_upper_limit_km": 1.2, "status": "upper_limit", "summary": "limit"}
+    assert "below 1.2 km (upper limit)" in _step_line("size", limit, "limit")
+    assert _step_line("rotation", {}, "Rotation\nmore") == \
+        "rotation: Rotation (full text in the log)"

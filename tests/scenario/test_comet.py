@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 from scipy.signal import fftconvolve
 
+from photpipe.models.moffat import moffat_alpha, moffat_stamp
 from photpipe.scenario.comet import render_comet
-from photpipe.scenario.psf import moffat_alpha, moffat_stamp
 
 
 def plain_coma(shape, x0, y0, k, fwhm, beta, *, n=9, pad=26):

@@ -5,7 +5,7 @@ import pytest
 from astropy.modeling.functional_models import Moffat2D
 from scipy import integrate
 
-from photpipe.nucleus.moffat import (
+from photpipe.models.moffat import (
     moffat_alpha,
     moffat_fwhm,
     moffat_kernel,

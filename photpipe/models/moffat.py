@@ -6,7 +6,10 @@ The Moffat (1969, A&A 3, 455) point-spread function normalised to unit flux over
 
 with (u, v) along the major and minor axes, α_b = (1 - e) α_a for ellipticity e = 1 - b/a, and
 FWHM_a = 2 α_a sqrt(2^(1/β) - 1) along the major axis (Trujillo et al. 2001, MNRAS 328, 977,
-eq. 3 and 5).
+eq. 3 and 5). Its encircled energy is EE(r) = 1 - (1 + r²/α²)^(1-β) for the circular profile.
+The stages share these functions: the nucleus fit renders its PSF with `moffat_pixel_image` and
+`moffat_kernel`, the photometry's coma aperture correction uses `moffat_shape` and
+`moffat_encircled`, and the synthetic sky renders its stars with `moffat_stamp`.
 """
 
 from functools import lru_cache
@@ -14,7 +17,8 @@ from functools import lru_cache
 import numpy as np
 from numpy.polynomial.legendre import leggauss
 
-__all__ = ["moffat_alpha", "moffat_fwhm", "moffat_surface", "moffat_pixel_image", "moffat_kernel"]
+__all__ = ["moffat_alpha", "moffat_fwhm", "moffat_shape", "moffat_surface", "moffat_pixel_image",
+           "moffat_kernel", "moffat_stamp", "moffat_encircled"]
 
 
 def moffat_alpha(fwhm, beta):
@@ -37,6 +41,29 @@ def moffat_fwhm(alpha, beta):
     3.3
     """
     return 2.0 * alpha * np.sqrt(2.0 ** (1.0 / beta) - 1.0)
+
+
+def moffat_shape(r2, alpha, beta):
+    """The Moffat profile (1 + r²/α²)^(-β), not normalised, at squared radii ``r2``.
+
+    Parameters
+    ----------
+    r2 : float or ndarray
+        Squared distance from the centre, in the square of ``alpha``'s unit.
+    alpha, beta : float
+        Core width and index.
+
+    Returns
+    -------
+    value : float or ndarray
+        1 at the centre.
+
+    Examples
+    --------
+    >>> float(moffat_shape(1.0, 1.0, 3.0))   # 2^-3
+    0.125
+    """
+    return (1.0 + r2 / alpha**2) ** (-beta)
 
 
 def moffat_surface(x, y, *, fwhm, beta, ellipticity=0.0, angle=0.0):
@@ -171,3 +198,80 @@ def moffat_kernel(size, *, fwhm, beta, ellipticity=0.0, angle=0.0, oversample=1)
     k = moffat_surface(c[None, :], c[:, None], fwhm=fwhm, beta=beta, ellipticity=ellipticity,
                        angle=angle)
     return k / k.sum()
+
+
+def moffat_stamp(size, dx, dy, fwhm, beta, *, ellipticity=0.0, angle=0.0, oversample=5):
+    """Pixel-integrated Moffat PSF on a square stamp, unit sum (slow and plain on purpose).
+
+    The synthetic sky renders its stars with it: each pixel is the mean of an oversampled grid
+    inside it, and the stamp is renormalised to unit sum, so "total flux" in the truth means the
+    flux a large aperture would collect.
+
+    Parameters
+    ----------
+    size : int
+        Stamp side in pixels (odd); the stamp centre pixel is ``size // 2``.
+    dx, dy : float
+        Offset of the PSF centre from the centre pixel, in pixels.
+    fwhm : float
+        FWHM along the major axis, in pixels.
+    beta : float
+        Moffat β (> 1).
+    ellipticity : float, optional
+        1 - b/a.
+    angle : float, optional
+        Position of the major axis, radians counter-clockwise from +x.
+    oversample : int, optional
+        Sub-pixels per pixel side.
+
+    Returns
+    -------
+    stamp : ndarray, shape (size, size)
+        Normalised to unit sum.
+
+    Examples
+    --------
+    >>> s = moffat_stamp(21, 0.0, 0.0, 3.0, 3.0)
+    >>> round(float(s.sum()), 12), int(s.argmax()) == 21 * 10 + 10
+    (1.0, True)
+    """
+    if size % 2 != 1:
+        msg = f"stamp 'size' must be odd, got {size}"
+        raise ValueError(msg)
+    if beta <= 1:
+        msg = f"Moffat 'beta' must exceed 1, got {beta}"
+        raise ValueError(msg)
+    half = size // 2
+    sub = (np.arange(size * oversample) + 0.5) / oversample - 0.5 - half
+    yy, xx = np.meshgrid(sub - dy, sub - dx, indexing="ij")
+    c, s = np.cos(angle), np.sin(angle)
+    u_ = xx * c + yy * s
+    v_ = (-xx * s + yy * c) / (1.0 - ellipticity)
+    img = moffat_shape(u_**2 + v_**2, moffat_alpha(fwhm, beta), beta)
+    img = img.reshape(size, oversample, size, oversample).mean(axis=(1, 3))
+    return img / img.sum()
+
+
+def moffat_encircled(r, alpha, beta):
+    """Encircled-energy fraction of a circular Moffat PSF.
+
+    Parameters
+    ----------
+    r : float or ndarray
+        Radius, same unit as ``alpha``.
+    alpha, beta : float
+        Moffat width and index.
+
+    Returns
+    -------
+    fraction : float or ndarray
+        EE(r) = 1 - (1 + r²/α²)^(1-β), integrating I(r) ∝ (1 + r²/α²)^(-β) over the disc
+        (Moffat 1969, A&A 3, 455).
+
+    Examples
+    --------
+    >>> round(float(moffat_encircled(1.0, 1.0, 3.0)), 4)   # 1 - 2^-2
+    0.75
+    """
+    r = np.asarray(r, dtype=float)
+    return 1.0 - (1.0 + (r / alpha) ** 2) ** (1.0 - beta)

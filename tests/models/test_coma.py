@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from photpipe.nucleus.coma import (
+from photpipe.models.coma import (
     azimuthal_term_image,
     coma_image,
     inverse_rho_pixel_integral,
@@ -61,7 +61,7 @@ def test_centred_pixel_of_power_law_in_closed_form():
 def test_gamma_one_matches_asinh_form_everywhere():
     e = np.arange(-20.5, 21.0) + 0.13
     a = power_law_antiderivative(e[None, :], e[:, None], 1.0)
-    from photpipe.nucleus.coma import inverse_rho_antiderivative
+    from photpipe.models.coma import inverse_rho_antiderivative
     b = inverse_rho_antiderivative(e[None, :], e[:, None])
     np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-12)
     np.testing.assert_allclose(power_law_coma_image((41, 41), 20.3, 19.6, 2.0, 1.0),
