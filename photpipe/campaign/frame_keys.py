@@ -3,7 +3,8 @@
 A frame is keyed by its file's stem (``sci_0003``) when no other file of the night shares it,
 else by its file name (``sci_0003.fits`` beside ``sci_0003.fits.fz``), else by its path below the
 night's folders; so two files never overwrite each other's results. Files of equal content are
-measured once.
+measured once; across runs the store follows a file's content and full path
+(`~photpipe.store.CampaignStore.claim_frame`).
 """
 
 import os
@@ -44,14 +45,18 @@ def frame_keys(infos):
 
 
 def calibrated_name(key):
-    """The file name of a frame's calibrated FITS in ``calibrated/``.
+    """The file name of a frame's calibrated FITS in ``calibrated/``, one for each key.
+
+    ``%`` and ``/`` are written ``%25`` and ``%2F``, so two keys never share a file.
 
     Examples
     --------
     >>> calibrated_name("sci_0003"), calibrated_name("sci_0003.fits.fz")
-    ('sci_0003.fits', 'sci_0003_fits_fz.fits')
+    ('sci_0003.fits', 'sci_0003.fits.fz.fits')
+    >>> calibrated_name("b/sci_0003.fits"), calibrated_name("b%2Fsci_0003.fits")
+    ('b%2Fsci_0003.fits.fits', 'b%252Fsci_0003.fits.fits')
     """
-    return f"{key.replace('/', '__').replace('.', '_')}.fits"
+    return f"{key.replace('%', '%25').replace('/', '%2F')}.fits"
 
 
 def duplicates(infos, hashes, keys):

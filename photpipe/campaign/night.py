@@ -117,12 +117,13 @@ class NightRun:
             return
         keys = frame_keys(inventory.frames)
         hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
+        same = self._claim(night, inventory, keys, hashes)
         self._add_frames(entry, night, inventory, keys, hashes)
         plan = frames.plan_calibrations(inventory,
                                         require_dark=self.run.settings.frames.require_dark)
         for s in plan.skipped:
             self.skip(night, keys.get(s.item, s.item), s.stage, s.reason)
-        todo = self._to_measure(night, plan, keys, hashes)
+        todo = self._to_measure(night, plan, keys, hashes, same)
         if todo:
             self._measure(entry, night, plan, todo, keys, hashes)
         self._export(night)
@@ -166,9 +167,46 @@ class NightRun:
              "exptime_s": info.exptime, "site": entry.get("site")}
             for info in inventory.frames)
 
-    def _to_measure(self, night, plan, keys, hashes):
+    def _claim(self, night, inventory, keys, hashes):
+        """Science files claim their results by content and full path (`claim_frame`).
+
+        Results follow a renamed or moved file, and their calibrated file with them; another
+        file's results under a reused name are kept under that file's name. Returns
+        ``path -> "night/frame"`` of files whose content was measured from another file that
+        still holds it.
+        """
+        calibrated = self.run.results
+
+        def calibrated_for(night_name, key):
+            return calibrated / night_name / "calibrated" / calibrated_name(key)
+
+        def holds_content(path, digest):
+            if path in hashes:
+                return hashes[path] == digest
+            return os.path.isfile(path) and file_sha256(path) == digest
+
+        same = {}
+        for info in inventory.of_kind("science"):
+            key = keys[info.path]
+            claim = self.run.store.claim_frame(
+                night.name, key, info.path, hashes[info.path], holds_content=holds_content,
+                calibrated_for=calibrated_for)
+            for old, new in claim.calibrated_moves:
+                _move_file(old, new)
+            if claim.same_as:
+                same[info.path] = claim.same_as
+            if claim.moved_from:
+                log.info("%s/%s: the results of %s (same content) go by this name now",
+                         night.name, key, claim.moved_from)
+            if claim.set_aside:
+                self.run.echo(f"night {night.name}: {key} is a new file; the results of the "
+                              f"earlier file of that name are kept as {claim.set_aside}")
+        return same
+
+    def _to_measure(self, night, plan, keys, hashes, same):
         """Science frames not measured yet with this content and configuration."""
-        same = duplicates(plan.science, hashes, keys)
+        fresh = [info for info in plan.science if info.path not in same]
+        same = {**same, **duplicates(fresh, hashes, keys)}
         todo = []
         for info in plan.science:
             key = keys[info.path]
@@ -295,6 +333,17 @@ class NightRun:
         from .astrometry_files import write_night_positions
 
         night.outputs.extend(write_night_positions(self.run.store, folder, night.name))
+
+
+def _move_file(old, new):
+    """Rename a calibrated file to follow its results (nothing to do when it is not there)."""
+    try:
+        Path(new).parent.mkdir(parents=True, exist_ok=True)
+        os.replace(old, new)
+    except FileNotFoundError:
+        pass
+    except OSError as exc:
+        log.warning("%s: could not be renamed to %s (%s)", old, new, exc)
 
 
 def _stem(path):

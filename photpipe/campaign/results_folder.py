@@ -2,6 +2,7 @@
 
 import os
 import re
+import secrets
 from pathlib import Path
 
 __all__ = ["ResultsError", "prepare_results", "clean_leftovers"]
@@ -20,7 +21,8 @@ def prepare_results(path):
     Raises
     ------
     ResultsError
-        The path is a file, or the folder cannot be made (read-only parent, full disk).
+        The path is a file, or the folder cannot be made (read-only parent, a file on the
+        way, full disk) or cannot be written (read-only folder).
     """
     path = Path(path)
     if path.exists() and not path.is_dir():
@@ -31,7 +33,23 @@ def prepare_results(path):
     except OSError as exc:
         msg = f"{path}: cannot make the results folder ({exc.strerror or exc})"
         raise ResultsError(msg) from exc
+    _check_writable(path)
     return path
+
+
+def _check_writable(folder):
+    """Make and remove one empty file in ``folder``; a read-only folder stops the run here.
+
+    This runs before the store or any result is touched; the file's name is one that
+    `clean_leftovers` removes, should the run be killed in between.
+    """
+    probe = folder / f".write_check.{secrets.token_hex(4)}.part"
+    try:
+        os.close(os.open(probe, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+        os.remove(probe)
+    except OSError as exc:
+        msg = f"{folder}: the results folder cannot be written ({exc.strerror or exc})"
+        raise ResultsError(msg) from exc
 
 
 def clean_leftovers(folder):

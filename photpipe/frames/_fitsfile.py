@@ -115,9 +115,9 @@ def _image_data(hdu, path):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             data = hdu.data
-    except (OSError, ValueError, TypeError, EOFError) as exc:
+    except Exception as exc:  # noqa: BLE001 - the decoder's own errors (damaged tiles) too
         raise FrameError(path, f"image data cannot be read, file damaged or truncated "
-                               f"({exc})") from exc
+                               f"({type(exc).__name__}: {exc})") from exc
     return _as_2d(data, path)
 
 
@@ -272,8 +272,9 @@ class RowReader:
             cols = trim[1]
         try:
             block = self._section(hdu, (rows, cols))
-        except (OSError, ValueError, TypeError, EOFError) as exc:
-            raise FrameError(self.paths[i], f"rows {r0}:{r1} cannot be read ({exc})") from exc
+        except Exception as exc:  # noqa: BLE001 - the decoder's own errors (damaged tiles) too
+            msg = f"rows {r0}:{r1} cannot be read, file damaged ({type(exc).__name__}: {exc})"
+            raise FrameError(self.paths[i], msg) from exc
         block = np.asarray(block, dtype=dtype)
         return block - dtype(level) if level else block
 

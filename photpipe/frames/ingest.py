@@ -7,6 +7,7 @@ of files), keeps the frames it can use and records one line for each file it can
 import glob
 import math
 import os
+import warnings
 from collections import Counter
 from dataclasses import dataclass, field
 
@@ -178,16 +179,20 @@ def read_frame_info(path, *, kind_map=None, defaults=None, profile=None, profile
     if kind_map is not None and not isinstance(kind_map, KindMap):
         msg = f"'kind_map' must be a KindMap, got {type(kind_map).__name__}"
         raise TypeError(msg)
-    with open_image(path) as (hdul, index):
-        header = merged_header(hdul, index)
-        shape = tuple(int(n) for n in hdul[index].shape[-2:])
-    try:
-        return _frame_info(path, header, shape, kind_map=kind_map, defaults=defaults,
-                           profile=profile, profiles=profiles, night_profile=night_profile)
-    except FrameError:
-        raise
-    except Exception as exc:  # noqa: BLE001 - one bad header must never stop the night
-        raise FrameError(path, f"header cannot be read ({type(exc).__name__}: {exc})") from exc
+    with warnings.catch_warnings():
+        # astropy's notes on cards it fixes, ERFA's on odd dates: the checks below say it once
+        warnings.simplefilter("ignore")
+        try:
+            with open_image(path) as (hdul, index):
+                header = merged_header(hdul, index)
+                shape = tuple(int(n) for n in hdul[index].shape[-2:])
+            return _frame_info(path, header, shape, kind_map=kind_map, defaults=defaults,
+                               profile=profile, profiles=profiles, night_profile=night_profile)
+        except FrameError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - one bad header must never stop the night
+            msg = f"header cannot be read ({type(exc).__name__}: {exc})"
+            raise FrameError(path, msg) from exc
 
 
 def _frame_info(path, header, shape, *, kind_map, defaults, profile, profiles, night_profile):

@@ -19,6 +19,7 @@ from astropy import units as u
 from photpipe import __version__
 from photpipe.campaign._schema import RESULT_TABLES, SCHEMA_VERSION, schema_sql
 
+from ._claims import claim_frame
 from ._values import plain_value, table_rows
 from .export import EXPORTABLE, export_table, lightcurve, write_table_atomic
 
@@ -117,6 +118,8 @@ class CampaignStore:
         with self._write():
             for statement in schema_sql():
                 self._db.execute(statement)
+            # frames are found by their content (`claim_frame`); an older store gains it here
+            self._db.execute("CREATE INDEX IF NOT EXISTS frames_content ON frames (content_hash)")
             row = self._db.execute("SELECT max(version) FROM schema_version").fetchone()
             if row[0] is None:
                 self._db.execute("INSERT INTO schema_version VALUES (?)", (SCHEMA_VERSION,))
@@ -229,7 +232,7 @@ class CampaignStore:
 
     @staticmethod
     def _upsert_frame(db, row):
-        values = (row["night"], row["frame"], str(row["path"]), row["content_hash"],
+        values = (row["night"], row["frame"], os.path.abspath(row["path"]), row["content_hash"],
                   row.get("kind", "science"), plain_value(row.get("mjd_utc_mid"), None, "mjd"),
                   row.get("filter"), plain_value(row.get("exptime_s"), u.s, "exptime_s"),
                   row.get("site"))
@@ -242,6 +245,38 @@ class CampaignStore:
             "exptime_s = excluded.exptime_s, site = excluded.site", values)
         return db.execute("SELECT id FROM frames WHERE night = ? AND name = ?",
                           (row["night"], row["frame"])).fetchone()[0]
+
+    def claim_frame(self, night, frame, path, content_hash, *, holds_content, calibrated_for):
+        """Decide, by content and full path, whose results the science file ``path`` continues.
+
+        Call before the night's frames are listed (`add_frames`): results measured from the
+        same content under another name follow a renamed or moved file (nothing is measured
+        again), a second file of the same content is left out, and another file's results
+        that hold ``frame`` are kept under that file's own name, never overwritten. One
+        transaction.
+
+        Parameters
+        ----------
+        night, frame : str
+            The night and the name the file goes by in this run.
+        path : str or path-like
+            The file (stored as its full path).
+        content_hash : str
+            sha256 of the file's bytes.
+        holds_content : callable
+            ``holds_content(path, content_hash) -> bool``: whether a file still holds it.
+        calibrated_for : callable
+            ``calibrated_for(night, frame) -> path`` of a frame's calibrated file.
+
+        Returns
+        -------
+        FrameClaim
+            ``same_as``, ``moved_from``, ``set_aside`` and the calibrated files to rename
+            (``calibrated_moves``, in order).
+        """
+        with self._write() as db:
+            return claim_frame(db, night, frame, os.path.abspath(path), content_hash,
+                               holds_content=holds_content, calibrated_for=calibrated_for)
 
     def add_calibrations(self, calibrations):
         """Insert or update master-calibration rows (keyed by path); return ``path -> id``."""
