@@ -47,7 +47,7 @@ from photpipe.frames import (
     scan_night,
 )
 from photpipe.frames._fitsfile import RowReader
-from photpipe.scenario import Instrument, make_star_field, render_frame
+from photpipe.scenario import Instrument, SceneSpec, make_star_field, render_frame
 from photpipe.scenario.night import write_frame
 
 
@@ -62,9 +62,9 @@ def _render(folder, inst, n_bias, n_science, compress, rng):
     for kind, exptime, n in plan:
         for i in range(n):
             name = f"{kind}_{i:03d}{ext}"
-            hdul, truth = render_frame(kind, inst, time=t, exptime=exptime * u.s,
-                                       pointing=pointing,
-                                       stars=stars if kind == "science" else None, rng=rng)
+            scene = SceneSpec(pointing=pointing, stars=stars if kind == "science" else None)
+            hdul, truth = render_frame(kind, inst, time=t, exptime=exptime * u.s, scene=scene,
+                                       rng=rng)
             write_frame(hdul, os.path.join(folder, name), compress=compress)
             if kind == "science":
                 truths[name] = truth

@@ -24,7 +24,7 @@ from photpipe.frames.types import CalibratedFrame, FrameInfo
 from photpipe.nucleus import PSFModel, fit_nucleus, measure_psf, nucleus_coma_image
 from photpipe.nucleus._render import ComponentRenderer
 from photpipe.nucleus._stamps import cut_star_stamps, fit_profile_to_stamp
-from photpipe.scenario import Instrument, make_star_field, render_frame
+from photpipe.scenario import DetectorSpec, Instrument, SceneSpec, make_star_field, render_frame
 
 N_FRAMES = 15
 REPEATS = 3
@@ -49,8 +49,8 @@ def star_field(rng, brightest, size=512):
     stars = make_star_field(pointing, 0.15 * u.deg, n_stars=300, mag_range=(19.0, brightest),
                             rng=rng)
     _, truth = render_frame("science", inst, time=Time("2026-12-01T03:00:00"),
-                            exptime=60 * u.s, pointing=pointing, stars=stars, cosmic_rays=False,
-                            rng=rng)
+                            exptime=60 * u.s, scene=SceneSpec(pointing=pointing, stars=stars),
+                            detector=DetectorSpec(cosmic_rays=False), rng=rng)
     var = np.clip(truth.signal, 0, None) + 25.0
     data = truth.signal + rng.normal(size=var.shape) * np.sqrt(var)
     info = FrameInfo("bench_stars.fits", "science", Time("2026-12-01T03:00:00"), 60 * u.s, "R",

@@ -22,7 +22,15 @@ from astropy.wcs import WCS
 
 from photpipe.frames.types import CalibratedFrame, FrameInfo, Quality
 from photpipe.photometry import MoffatGrowth, coma_aperture_correction, measure_comet_frame
-from photpipe.scenario import CometSpec, Instrument, make_star_field, render_frame
+from photpipe.scenario import (
+    CometSpec,
+    DetectorSpec,
+    HeaderSpec,
+    Instrument,
+    SceneSpec,
+    make_star_field,
+    render_frame,
+)
 
 SHAPE = (2048, 2048)
 REPEATS = 7
@@ -35,9 +43,10 @@ def build(rng):
     comet = CometSpec(ra=pointing.ra, dec=pointing.dec, nucleus_mag=17.0 * u.mag,
                       afrho=200 * u.cm, r_h=1.5 * u.au, delta=1.0 * u.au, m_sun=-27.15)
     time_mid = Time("2026-11-30T04:00:00")
-    hdul, truth = render_frame("science", inst, time=time_mid, exptime=60 * u.s, filter="R",
-                               pointing=pointing, stars=stars, comet=comet, zero_point=25.0,
-                               cosmic_rays=False, wcs_offset_pix=(2.5, -1.5), rng=rng)
+    scene = SceneSpec(pointing=pointing, stars=stars, comet=comet, filter="R", zero_point=25.0)
+    hdul, truth = render_frame("science", inst, time=time_mid, exptime=60 * u.s, scene=scene,
+                               detector=DetectorSpec(cosmic_rays=False),
+                               header=HeaderSpec(wcs_offset_pix=(2.5, -1.5)), rng=rng)
     pat = inst.patterns
     gain = inst.gain.to_value(u.electron / u.adu)
     rn = inst.read_noise.to_value(u.electron)

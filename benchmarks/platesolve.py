@@ -17,7 +17,7 @@ from astropy.time import Time
 
 from photpipe.frames.types import CalibratedFrame, FrameInfo, Quality
 from photpipe.photometry import solve_frame
-from photpipe.scenario import Instrument, make_star_field, render_frame
+from photpipe.scenario import DetectorSpec, Instrument, SceneSpec, make_star_field, render_frame
 
 SHAPE = (2048, 2048)
 REPEATS = 7
@@ -29,9 +29,10 @@ def build(rng):
     stars = make_star_field(pointing, 0.75 * u.deg, n_stars=2500, mag_range=(12.0, 19.0),
                             rng=rng)
     time_mid = Time("2026-11-30T04:00:00")
-    hdul, truth = render_frame("science", inst, time=time_mid, exptime=60 * u.s, filter="R",
-                               pointing=pointing, stars=stars, zero_point=25.0,
-                               cosmic_rays=False, wcs_rotation=137 * u.deg, rng=rng)
+    scene = SceneSpec(pointing=pointing, stars=stars, filter="R", zero_point=25.0,
+                      wcs_rotation=137 * u.deg)
+    hdul, truth = render_frame("science", inst, time=time_mid, exptime=60 * u.s, scene=scene,
+                               detector=DetectorSpec(cosmic_rays=False), rng=rng)
     rn = inst.read_noise.to_value(u.electron)
     var = truth.signal + rn**2
     data = (truth.signal + rng.normal(0.0, 1.0, SHAPE) * np.sqrt(var)).astype(np.float32)

@@ -26,8 +26,8 @@ def execute(args):
     """Run the command; return the exit code.
 
     Returns 0 when a result was written, 2 for a configuration problem, 4 when there is no
-    lightcurve yet, 1 when the lightcurve cannot be read or cannot constrain a period, or the
-    results cannot be written.
+    lightcurve yet, 1 when the lightcurve cannot be read or lacks a column, or the results cannot
+    be written. Data too few to constrain a period give 0 and a result of status "none".
     """
     with Failures("rotation", CONFIG, Problem(ValueError, FAILED)) as outcome:
         config = load_config(args.config)

@@ -11,7 +11,7 @@ from astropy.table import QTable, Table
 from astropy.time import Time
 
 from photpipe._quantity import as_value
-from photpipe.rotation.errors import LightcurveError, RotationWarning
+from photpipe.rotation.errors import LightcurveError, NoUsablePointsError, RotationWarning
 from photpipe.rotation.phase_laws import PHASE_LAWS
 
 __all__ = ["ReducedLightcurve", "reduce_lightcurve", "SOURCES"]
@@ -186,8 +186,11 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
     Raises
     ------
     LightcurveError
-        If a column is missing, a value is not finite, an error is not positive, a distance is
-        not positive, or a ``source`` is unknown; the message names the frames.
+        If a column is missing or a ``source`` is unknown; the message names the frames.
+    NoUsablePointsError
+        (a `LightcurveError`) If there are no rows, or none can be used (rows with a value that
+        is not finite, an error that is not positive, a distance that is not positive, are set
+        aside with their reason, see ``set_aside``).
     TypeError
         If ``table_or_arrays`` is neither a table nor a mapping.
 
@@ -219,60 +222,73 @@ def reduce_lightcurve(table_or_arrays, *, phase_law="linear",
         msg = f"unknown phase_law {phase_law!r}; choose one of {sorted(PHASE_LAWS)}"
         raise ValueError(msg)
     beta = as_value(phase_coefficient, u.mag / u.deg, "phase_coefficient")
-    data = table_or_arrays
+    cols, set_aside = _read_usable(table_or_arrays)
+    source, contaminated = _sources(cols)
+    params = ({"coefficient_mag_per_deg": beta} if phase_law == "linear"
+              else {"slope_g": float(H_G_slope)})
+    flags = _point_flags(cols["flags"], contaminated, cols["alpha"], phase_law)
+    excess = PHASE_LAWS[phase_law](cols["alpha"], **params)
+    reduced = cols["mag"] - 5 * np.log10(cols["r_h"] * cols["delta"]) - excess
+    return ReducedLightcurve(
+        frame=cols["frame"], epoch_mjd=_emission_epochs(cols), mag=reduced, mag_err=cols["err"],
+        observed_mag=cols["mag"], phase_deg=cols["alpha"], r_h_au=cols["r_h"],
+        delta_au=cols["delta"], site=cols["site"], filter=cols["filter"], source=source,
+        coma_contaminated=contaminated, flags=flags, phase_law=phase_law,
+        phase_parameters=params, set_aside=tuple(set_aside))
+
+
+def _read_usable(data):
+    """The lightcurve's columns as plain arrays, restricted to the usable rows.
+
+    Returns the columns (a dict) and ``(frame, reason)`` of every row set aside.
+    """
     mjd = _get(data, "mjd_utc_mid", u.day)
     n = mjd.size
     if n == 0:
         msg = "the lightcurve has no rows: there is nothing to reduce"
-        raise LightcurveError(msg)
-    frames = _strings(data, "frame", n, "?")
-    mag = _get(data, "nucleus_mag", u.mag)
-    err = _get(data, "nucleus_mag_err", u.mag)
-    r_h = _get(data, "r_h_au", u.au)
-    delta = _get(data, "delta_au", u.au)
-    alpha = _get(data, "phase_deg", u.deg)
-    light_time = _get(data, "light_time_s", u.s, required=False)
+        raise NoUsablePointsError(msg)
+    cols = {"frame": _strings(data, "frame", n, "?"), "mjd": mjd,
+            "mag": _get(data, "nucleus_mag", u.mag), "err": _get(data, "nucleus_mag_err", u.mag),
+            "r_h": _get(data, "r_h_au", u.au), "delta": _get(data, "delta_au", u.au),
+            "alpha": _get(data, "phase_deg", u.deg),
+            "light_time": _get(data, "light_time_s", u.s, required=False),
+            "flags": _strings(data, "flags", n, ""),
+            "source": _strings(data, "source", n, "nucleus_fit"),
+            "site": _strings(data, "site", n, ""), "filter": _strings(data, "filter", n, "")}
+    if cols["light_time"] is None:
+        cols["light_time"] = np.full(n, np.nan)
+    keep, set_aside = _usable_rows(cols["frame"], cols["flags"], cols["mjd"], cols["mag"],
+                                   cols["err"], cols["r_h"], cols["delta"], cols["alpha"])
+    return {k: v[keep] for k, v in cols.items()}, set_aside
 
-    flags_in = _strings(data, "flags", n, "")
-    keep, set_aside = _usable_rows(frames, flags_in, mjd, mag, err, r_h, delta, alpha)
-    (frames, mjd, mag, err, r_h, delta, alpha, flags_in) = (
-        a[keep] for a in (frames, mjd, mag, err, r_h, delta, alpha, flags_in))
-    data_keep = keep
-    if light_time is not None:
-        light_time = light_time[keep]
 
-    if light_time is None:
-        light_time = delta * _AU_LIGHT_S
-    else:
-        light_time = np.where(np.isfinite(light_time), light_time, delta * _AU_LIGHT_S)
-    epoch = mjd - light_time / 86400.0
+def _emission_epochs(cols):
+    """Emission epochs, MJD: mid-exposure minus the light time (from Δ where not given)."""
+    from_delta = cols["delta"] * _AU_LIGHT_S
+    light_time = np.where(np.isfinite(cols["light_time"]), cols["light_time"], from_delta)
+    return cols["mjd"] - light_time / 86400.0
 
-    source = _strings(data, "source", n, "nucleus_fit")[data_keep]
+
+def _sources(cols):
+    """The ``source`` of each point and whether it holds coma light (unknown ones refused)."""
+    source = cols["source"]
     unknown = ~np.isin(source, list(SOURCES))
     if np.any(unknown):
         msg = (f"unknown 'source' {sorted(set(source[unknown]))} in rows "
-               f"{_name_rows(frames, unknown)}; expected one of {sorted(SOURCES)}")
+               f"{_name_rows(cols['frame'], unknown)}; expected one of {sorted(SOURCES)}")
         raise LightcurveError(msg)
-    contaminated = np.array([not SOURCES[s] for s in source], dtype=bool)
-    flags = flags_in
-    flags = np.array([",".join([f for f in (fl, "coma_contaminated" if c else "") if f])
-                      for fl, c in zip(flags, contaminated)], dtype=object)
+    return source, np.array([not SOURCES[s] for s in source], dtype=bool)
 
-    params = ({"coefficient_mag_per_deg": beta} if phase_law == "linear"
-              else {"slope_g": float(H_G_slope)})
-    if phase_law == "hg" and np.any(alpha > 120):
-        far = alpha > 120
-        flags = np.array([",".join([f for f in (fl, "phase_beyond_hg") if f]) if b else fl
-                          for fl, b in zip(flags, far)], dtype=object)
-    excess = PHASE_LAWS[phase_law](alpha, **params)
-    reduced = mag - 5 * np.log10(r_h * delta) - excess
-    return ReducedLightcurve(
-        frame=frames, epoch_mjd=epoch, mag=reduced, mag_err=err, observed_mag=mag,
-        phase_deg=alpha, r_h_au=r_h, delta_au=delta,
-        site=_strings(data, "site", n, "")[data_keep],
-        filter=_strings(data, "filter", n, "")[data_keep],
-        source=source, coma_contaminated=contaminated, flags=flags,
-        phase_law=phase_law, phase_parameters=params, set_aside=tuple(set_aside))
+
+def _point_flags(flags_in, contaminated, alpha, phase_law):
+    """The input flags plus ``coma_contaminated`` and, for H,G beyond 120°, ``phase_beyond_hg``."""
+    extra = [["coma_contaminated"] if c else [] for c in contaminated]
+    if phase_law == "hg":
+        for words, a in zip(extra, alpha):
+            if a > 120:
+                words.append("phase_beyond_hg")
+    return np.array([",".join([f for f in (fl, *words) if f])
+                     for fl, words in zip(flags_in, extra)], dtype=object)
 
 
 def _usable_rows(frames, flags, mjd, mag, err, r_h, delta, alpha):
@@ -295,7 +311,7 @@ def _usable_rows(frames, flags, mjd, mag, err, r_h, delta, alpha):
         msg = (f"none of the {n} lightcurve rows can be used ({'; '.join(reasons)}): "
                f"{_name_rows(frames, ~keep)}. Repair them; a period cannot be weighed on such "
                f"points")
-        raise LightcurveError(msg)
+        raise NoUsablePointsError(msg)
     if set_aside:
         warnings.warn(f"{len(set_aside)} of {n} lightcurve rows set aside: "
                       + "; ".join(f"{c} with {r}" for r, c in _count(set_aside).items()),

@@ -26,14 +26,10 @@ from photutils.aperture import CircularAperture
 from photpipe.frames.types import CalibratedFrame, FrameInfo
 
 from .comet import add_stamp, render_comet
-from .psf import moffat_stamp
+from .psf import TrailedMoffat
 
 __all__ = ["NightCase", "CaseFrame", "NIGHT_CASES", "render_case", "case_night_size",
            "trail_vector"]
-
-#: Trail steps of at most this many pixels (midpoint rule along the segment).
-_TRAIL_STEP = 0.2
-
 
 @dataclass(frozen=True)
 class NightCase:
@@ -203,35 +199,6 @@ class CaseFrame:
     pixel_scale_arcsec: float
 
 
-def _trail_points(trail):
-    length = float(np.hypot(*trail))
-    n = max(1, int(np.ceil(length / _TRAIL_STEP)))
-    t = (np.arange(n) + 0.5) / n - 0.5
-    return np.column_stack([t * trail[0], t * trail[1]])
-
-
-class _TrailedMoffat:
-    """Stamps and kernels of a Moffat PSF averaged along a trail (plain, oversampled)."""
-
-    def __init__(self, fwhm, beta, ellipticity, angle, trail):
-        self.args = (fwhm, beta)
-        self.kw = {"ellipticity": ellipticity, "angle": angle}
-        self.points = _trail_points(trail)
-        reach = int(np.ceil(0.5 * np.hypot(*trail)))
-        self.size = int(2 * (np.ceil(6 * fwhm) + reach) + 1)
-
-    def stamp(self, dx, dy, *, oversample=5):
-        out = sum(moffat_stamp(self.size, dx + ox, dy + oy, *self.args, oversample=oversample,
-                               **self.kw) for ox, oy in self.points)
-        return out / out.sum()
-
-    def fine_kernel(self, n):
-        fwhm, beta = self.args
-        out = sum(moffat_stamp(self.size * n, ox * n, oy * n, fwhm * n, beta, oversample=1,
-                               **self.kw) for ox, oy in self.points)
-        return out / out.sum()
-
-
 def _aperture_sum(image, x, y, radius):
     w = CircularAperture((x, y), r=radius).to_mask(method="exact").to_image(image.shape)
     return float(np.sum(w * image))
@@ -302,7 +269,7 @@ def render_case(case, seed, *, shape=(161, 161), n_catalogued=12, oversample=9,
     t = case.exptime_s
     sky = case.sky_e_s * t
 
-    comet_psf = _TrailedMoffat(fwhm, case.beta, ell, angle, comet_trail)
+    comet_psf = TrailedMoffat(fwhm, case.beta, ell, angle, comet_trail)
     nuc_img = render_comet(shape, x, y, nucleus_flux=1.0, coma_k=0.0,
                            psf_kernel=comet_psf.stamp(0.0, 0.0),
                            stamp_of=lambda dx, dy: comet_psf.stamp(dx, dy, oversample=oversample))
@@ -327,7 +294,7 @@ def render_case(case, seed, *, shape=(161, 161), n_catalogued=12, oversample=9,
         fraction = 0.0
     signal = sky + flux * nuc_img + k * coma_img
 
-    star_psf = _TrailedMoffat(fwhm, case.beta, ell, angle, star_trail)
+    star_psf = TrailedMoffat(fwhm, case.beta, ell, angle, star_trail)
 
     reach = star_psf.size // 2
     bright = _place_stars(rng, shape, x, y, fwhm, n_catalogued, 25.0, reach // 2 + 3)

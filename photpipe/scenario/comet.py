@@ -44,6 +44,9 @@ class CometSpec:
         Direct coma strength (K in Σ = K/ρ, ρ in pixels) when ``afrho`` is None.
     gamma : float
         Power-law index of the coma; the generator renders the steady-state γ = 1 exactly.
+    ra_rate, dec_rate : `~astropy.units.Quantity` [angle / time]
+        Sky-plane rate of the comet (the RA rate including cos δ); it moves by rate × exposure
+        time during a frame, centred on ``ra, dec`` at mid-exposure.
     """
 
     ra: u.Quantity
@@ -55,6 +58,8 @@ class CometSpec:
     m_sun: float = -27.15
     coma_k: u.Quantity | None = None
     gamma: float = 1.0
+    ra_rate: u.Quantity = 0.0 * u.arcsec / u.h
+    dec_rate: u.Quantity = 0.0 * u.arcsec / u.h
 
     def __post_init__(self):
         if self.gamma != 1.0:

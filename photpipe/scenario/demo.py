@@ -77,7 +77,10 @@ def demo_exposures(times, geometry, *, phase_function, rng=None):
     times : `~astropy.time.Time`
         Mid-exposure times.
     geometry : `~astropy.table.QTable`
-        Observing geometry at ``times`` with columns ``ra, dec, r_h, delta, phase``.
+        Observing geometry at ``times`` with columns ``ra, dec, r_h, delta, phase`` and,
+        when given, ``ra_rate, dec_rate``: the comet then moves during each exposure, and
+        trails on the frame (the telescope tracks the stars, re-pointed on the comet between
+        frames).
     phase_function : callable
         ``phase_function(phase) -> float``, the dust phase function normalised at 0°, used to
         turn A(0)fρ into the observed A(θ)fρ.
@@ -102,7 +105,7 @@ def demo_exposures(times, geometry, *, phase_function, rng=None):
             nucleus_mag=demo_nucleus_mag(time, u.Quantity(row["r_h"]),
                                          u.Quantity(row["delta"]), phase),
             afrho=a0 * float(phase_function(phase)), r_h=u.Quantity(row["r_h"]),
-            delta=u.Quantity(row["delta"]), m_sun=t["m_sun"])
+            delta=u.Quantity(row["delta"]), m_sun=t["m_sun"], **_rates(row))
         jitter = rng.normal(0, 20.0, 2) * u.arcsec  # re-pointed on the comet every frame
         pointing = SkyCoord(comet.ra, comet.dec).spherical_offsets_by(jitter[0], jitter[1])
         out.append(ScienceExposure(
@@ -113,14 +116,22 @@ def demo_exposures(times, geometry, *, phase_function, rng=None):
     return out
 
 
+def _rates(row):
+    """The comet's sky-plane rate from a geometry row (none when the geometry has no rates)."""
+    if "ra_rate" not in row.colnames:
+        return {}
+    return {"ra_rate": u.Quantity(row["ra_rate"]), "dec_rate": u.Quantity(row["dec_rate"])}
+
+
 def demo_truth_table(exposures, night):
     """One row per science frame of what the generator put in (for comparing with results)."""
     rows = []
     for path, tr in night.science.items():
         rows.append((path.rsplit("/", 1)[-1].split(".")[0], tr.time.mjd, tr.comet_x, tr.comet_y,
-                     tr.nucleus_flux_e, tr.coma_k_e, tr.afrho_cm, tr.zero_point, tr.fwhm_pix))
+                     tr.nucleus_flux_e, tr.coma_k_e, tr.afrho_cm, tr.zero_point, tr.fwhm_pix,
+                     tr.comet_trail[0], tr.comet_trail[1]))
     names = ("frame", "mjd_utc_mid", "x_pix", "y_pix", "nucleus_flux_e", "coma_k_e",
-             "afrho_cm", "zp_mag", "fwhm_pix")
+             "afrho_cm", "zp_mag", "fwhm_pix", "comet_trail_x_pix", "comet_trail_y_pix")
     table = QTable(rows=rows, names=names)
     table["nucleus_mag"] = u.Quantity([e.comet.nucleus_mag for e in exposures])
     return table

@@ -1,7 +1,7 @@
 """Render a whole synthetic night (calibrations and science frames) into a folder of FITS files."""
 
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from astropy import units as u
@@ -12,7 +12,7 @@ from astropy.time import Time
 from photpipe._files import replacing
 
 from .comet import CometSpec
-from .render import render_frame
+from .render import DetectorSpec, HeaderSpec, SceneSpec, Seeing, render_frame
 
 __all__ = ["ScienceExposure", "NightTruth", "render_night", "write_frame"]
 
@@ -36,6 +36,9 @@ class ScienceExposure:
         Magnitude giving 1 electron/s.
     wcs_offset_pix : tuple of float
         Error of the header WCS.
+    tracking : {"sidereal", "comet"}
+        What the telescope followed: the stars (the moving comet trails) or the comet (the
+        stars trail).
     """
 
     time: Time
@@ -47,6 +50,14 @@ class ScienceExposure:
     sky_rate: u.Quantity = 5.0 * u.electron / u.s
     zero_point: float = 25.0
     wcs_offset_pix: tuple = (0.0, 0.0)
+    tracking: str = "sidereal"
+
+    def scene(self, stars=None):
+        """The `SceneSpec` of this exposure, with ``stars`` in the field."""
+        return SceneSpec(pointing=self.pointing, stars=stars, comet=self.comet,
+                         filter=self.filter, zero_point=self.zero_point,
+                         sky_rate=self.sky_rate, seeing=Seeing(fwhm=self.fwhm),
+                         tracking=self.tracking)
 
 
 @dataclass
@@ -122,7 +133,8 @@ def render_night(folder, instrument, science, *, stars=None, n_bias=5, n_dark=5,
     t0 = min(s.time for s in science) - 1 * u.h
     dark_t = dark_exptime if dark_exptime is not None else science[0].exptime
     filters = sorted({s.filter for s in science})
-    common = dict(object_name="", header_extra=header_extra, kind_values=kind_values)
+    calib_header = HeaderSpec(extra=header_extra, kind_values=kind_values)
+    sci_header = HeaderSpec(object_name=object_name, extra=header_extra, kind_values=kind_values)
 
     def emit(kind, name, **kw):
         hdul, tr = render_frame(kind, instrument, rng=rng, **kw)
@@ -131,20 +143,19 @@ def render_night(folder, instrument, science, *, stars=None, n_bias=5, n_dark=5,
         return path, tr
 
     for i in range(n_bias):
-        emit("bias", f"bias_{i + 1:03d}", time=t0 + i * 10 * u.s, exptime=0 * u.s, **common)
+        emit("bias", f"bias_{i + 1:03d}", time=t0 + i * 10 * u.s, exptime=0 * u.s,
+             header=calib_header)
     dark_s = int(round(dark_t.to_value(u.s)))
     for i in range(n_dark):
         emit("dark", f"dark_{dark_s}s_{i + 1:03d}", time=t0 + (5 + i) * u.min, exptime=dark_t,
-             **common)
+             header=calib_header)
     for f in filters:
         for i in range(n_flat):
             emit("flat", f"flat_{f}_{i + 1:03d}", time=t0 + (30 + i) * u.min,
-                 exptime=flat_exptime, filter=f, **common)
+                 exptime=flat_exptime, scene=SceneSpec(filter=f), header=calib_header)
     for i, s in enumerate(science):
-        path, tr = emit(
-            "science", f"sci_{i + 1:04d}", time=s.time, exptime=s.exptime, filter=s.filter,
-            pointing=s.pointing, stars=stars, comet=s.comet, zero_point=s.zero_point,
-            sky_rate=s.sky_rate, fwhm=s.fwhm, wcs_offset_pix=s.wcs_offset_pix,
-            object_name=object_name, header_extra=header_extra, kind_values=kind_values)
+        path, tr = emit("science", f"sci_{i + 1:04d}", time=s.time, exptime=s.exptime,
+                        scene=s.scene(stars), detector=DetectorSpec(),
+                        header=replace(sci_header, wcs_offset_pix=s.wcs_offset_pix))
         truth.science[path] = tr
     return truth

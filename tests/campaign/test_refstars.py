@@ -2,6 +2,7 @@
 
 import logging
 import os
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -13,6 +14,7 @@ from photpipe.campaign.pipeline import run_campaign
 from photpipe.campaign.refstars import DEFAULT_STORE_NAME, campaign_reference_store
 from photpipe.campaign.tasks import frame_reference_stars
 from photpipe.config import load_config
+from photpipe.photometry.errors import PhotometryWarning
 from photpipe.store import CampaignStore
 
 from ._nights import render_small_night, write_config
@@ -37,8 +39,15 @@ def _measure_both_ways(frame_path, catalogue, store_path, geometry_row, options)
     whole = read_reference_stars(catalogue, bands=["R"], colour="B-V")
     cut = frame_reference_stars(frame, store_path)
     assert 0 < len(cut) < len(whole)  # a real cut of the catalogue
-    a = measure_comet_frame(frame, whole, geometry_row, **options)
-    b = measure_comet_frame(frame, cut, geometry_row, **options)
+    # a frame's cautions (a PSF fallback, ...) are kept, and must be the same both ways
+    said = []
+    for stars in (whole, cut):
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", PhotometryWarning)
+            said.append((measure_comet_frame(frame, stars, geometry_row, **options),
+                         [str(w.message) for w in caught]))
+    (a, said_a), (b, said_b) = said
+    assert said_a == said_b
     return a, b
 
 

@@ -63,13 +63,48 @@ def test_unknown_key_is_reported(tmp_path, capsys):
         capsys.readouterr().err
 
 
-def test_too_few_points_message(tmp_path, capsys):
+def test_too_few_points_is_no_period(tmp_path, capsys):
+    # too few detections are no error: status "none" with the reason, on screen and in the file
     table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
     path = tmp_path / "lc.ecsv"
     table[:5].write(path, format="ascii.ecsv")
     args = type("A", (), {"config": str(_config(tmp_path)), "table": str(path)})()
-    assert cli.execute(args) == 1
-    assert "no rotation period" in capsys.readouterr().err
+    assert cli.execute(args) == 0
+    out = capsys.readouterr().out
+    assert "no rotation period: only 5 usable points" in out
+    data = json.loads((tmp_path / "results" / "rotation.json").read_text())
+    assert data["status"] == "none"
+    assert data["period_h"] is None
+    assert "only 5 usable points" in data["reason"]
+
+
+def test_only_upper_limits_is_no_period_and_clears_old_figures(tmp_path):
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    table["flags"] = "upper_limit"
+    (tmp_path / "rotation_phased.png").write_bytes(b"an earlier search's figure")
+    data = run_rotation_stage({"rotation": {}}, table, tmp_path)
+    assert data["status"] == "none"
+    assert data["n_upper_limits_set_aside"] == len(table)
+    assert data["n_points"] == 0
+    assert f"({len(table)} upper limits set aside)" in data["reason"]
+    assert not (tmp_path / "rotation_phased.png").exists()
+
+
+def test_no_usable_row_is_no_period(tmp_path):
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    table["nucleus_mag_err"] = np.nan
+    data = run_rotation_stage({"rotation": {}}, table, tmp_path)
+    assert data["status"] == "none"
+    assert f"none of the {len(table)} lightcurve rows can be used" in data["reason"]
+
+
+def test_missing_column_is_still_an_error(tmp_path):
+    from photpipe.rotation import LightcurveError
+
+    table, _ = synthetic_lightcurve(rng=np.random.default_rng(1))
+    table.remove_column("phase_deg")
+    with pytest.raises(LightcurveError, match="no 'phase_deg' column"):
+        run_rotation_stage({"rotation": {}}, table, tmp_path)
 
 
 def test_missing_table_message(tmp_path, capsys):

@@ -15,7 +15,7 @@ from photpipe.frames import (
     scan_night,
 )
 from photpipe.frames.types import Quality
-from photpipe.scenario import Instrument, render_frame
+from photpipe.scenario import DetectorSpec, Instrument, SceneSpec, render_frame
 
 from . import _synthetic as S
 from .conftest import POINTING
@@ -123,9 +123,10 @@ def test_variance_matches_scatter_of_repeated_frames(tmp_path):
         frames = [("bias", 0.0, i) for i in range(5)] + [("dark", 30.0, i) for i in range(3)]
         frames += [("flat", 2.0, i) for i in range(4)] + [("science", 30.0, 0)]
         for kind, exptime, i in frames:
-            hdul, _ = render_frame(kind, inst, time=t, exptime=exptime * u.s,
-                                   pointing=POINTING, cosmic_rays=False,
-                                   sky_rate=40 * u.electron / u.s, rng=rng)
+            hdul, _ = render_frame(
+                kind, inst, time=t, exptime=exptime * u.s,
+                scene=SceneSpec(pointing=POINTING, sky_rate=40 * u.electron / u.s),
+                detector=DetectorSpec(cosmic_rays=False), rng=rng)
             hdul.writeto(folder / f"{kind}_{i}.fits")
         plan = plan_calibrations(scan_night(folder))
         frame = calibrate_frame(plan.science[0], build_masters(plan, folder / "m"),

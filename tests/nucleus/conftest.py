@@ -68,7 +68,15 @@ def coma_k_for_fraction(fraction, nucleus_flux, fwhm, *, beta=3.0, radius_fwhm=1
 def scenario_comet_frame(*, nucleus_flux_e, coma_k_e, fwhm_pix=4.0, seed=0, n_stars=0,
                          shape=(161, 161), sky_rate=2.0, exptime=100.0):
     """Noise-free signal and truth from the project's synthetic-sky generator."""
-    from photpipe.scenario import CometSpec, Instrument, make_star_field, render_frame
+    from photpipe.scenario import (
+        CometSpec,
+        DetectorSpec,
+        Instrument,
+        SceneSpec,
+        Seeing,
+        make_star_field,
+        render_frame,
+    )
 
     scale = 0.8
     inst = Instrument(shape=shape, pixel_scale=scale * u.arcsec, hot_pixel_fraction=0.0,
@@ -87,10 +95,11 @@ def scenario_comet_frame(*, nucleus_flux_e, coma_k_e, fwhm_pix=4.0, seed=0, n_st
     if n_stars:
         stars = make_star_field(pointing, 0.6 * shape[0] * scale / 3600 * u.deg,
                                 n_stars=n_stars, mag_range=(13.0, 16.0), rng=seed)
-    _, truth = render_frame("science", inst, time=t, exptime=exptime * u.s, pointing=pointing,
-                            stars=stars, comet=comet, zero_point=zp,
-                            sky_rate=sky_rate * u.electron / u.s,
-                            fwhm=fwhm_pix * scale * u.arcsec, cosmic_rays=False, rng=seed)
+    scene = SceneSpec(pointing=pointing, stars=stars, comet=comet, zero_point=zp,
+                      sky_rate=sky_rate * u.electron / u.s,
+                      seeing=Seeing(fwhm=fwhm_pix * scale * u.arcsec))
+    _, truth = render_frame("science", inst, time=t, exptime=exptime * u.s, scene=scene,
+                            detector=DetectorSpec(cosmic_rays=False), rng=seed)
     return truth
 
 

@@ -15,7 +15,16 @@ from astropy.time import Time
 from astropy.wcs import WCS
 
 from photpipe.frames.types import CalibratedFrame, FrameInfo, Quality
-from photpipe.scenario import CometSpec, Instrument, make_star_field, render_frame
+from photpipe.scenario import (
+    CometSpec,
+    DetectorSpec,
+    HeaderSpec,
+    Instrument,
+    SceneSpec,
+    Seeing,
+    make_star_field,
+    render_frame,
+)
 
 POINTING = SkyCoord(52.0 * u.deg, 18.0 * u.deg)
 
@@ -53,11 +62,13 @@ def make_synthetic(*, shape=(640, 640), pixel_scale=1.0 * u.arcsec, afrho=150 * 
     if afrho is not None or nucleus_mag is not None:
         comet = CometSpec(ra=comet_pos.ra, dec=comet_pos.dec, nucleus_mag=nucleus_mag,
                           afrho=afrho, r_h=r_h, delta=delta, m_sun=-27.15)
+    scene = SceneSpec(pointing=POINTING, stars=stars, comet=comet, filter="R",
+                      zero_point=zero_point, sky_rate=sky_rate, seeing=Seeing(fwhm=fwhm),
+                      wcs_rotation=wcs_rotation)
     hdul, truth = render_frame("science", inst, time=Time("2026-11-30T04:00:00"),
-                               exptime=exptime, filter="R", pointing=POINTING, stars=stars,
-                               comet=comet, zero_point=zero_point, sky_rate=sky_rate, fwhm=fwhm,
-                               cosmic_rays=False, wcs_offset_pix=wcs_offset_pix,
-                               wcs_rotation=wcs_rotation, rng=rng)
+                               exptime=exptime, scene=scene,
+                               detector=DetectorSpec(cosmic_rays=False),
+                               header=HeaderSpec(wcs_offset_pix=wcs_offset_pix), rng=rng)
     header = hdul[0].header
     if header_rotation is not None:
         # write a header WCS rotated with respect to the true one (a small pointing-model error)

@@ -13,7 +13,7 @@ from astropy import units as u
 from astropy.time import Time
 from photutils.aperture import CircularAperture, aperture_photometry
 
-from photpipe.scenario import CometSpec, Instrument, render_frame
+from photpipe.scenario import CometSpec, DetectorSpec, Instrument, SceneSpec, Seeing, render_frame
 
 from ._synthetic import POINTING, make_synthetic, measure_recording
 
@@ -30,10 +30,11 @@ def _true_coma_correction(radii_pix):
                       hot_pixel_fraction=0.0, dead_pixel_fraction=0.0)
     comet = CometSpec(ra=POINTING.ra, dec=POINTING.dec, afrho=_SMALL["afrho"],
                       r_h=_SMALL["r_h"], delta=_SMALL["delta"], m_sun=-27.15)
+    scene = SceneSpec(pointing=POINTING, comet=comet, zero_point=_SMALL["zero_point"],
+                      sky_rate=0 * u.electron / u.s, seeing=Seeing(fwhm=_SMALL["fwhm"]))
     _, truth = render_frame("science", inst, time=Time("2026-11-30T04:00:00"),
-                            exptime=_SMALL["exptime"], pointing=POINTING, comet=comet,
-                            zero_point=_SMALL["zero_point"], sky_rate=0 * u.electron / u.s,
-                            fwhm=_SMALL["fwhm"], cosmic_rays=False, rng=1)
+                            exptime=_SMALL["exptime"], scene=scene,
+                            detector=DetectorSpec(cosmic_rays=False), rng=1)
     apertures = [CircularAperture((truth.comet_x, truth.comet_y), r=float(r)) for r in radii_pix]
     sums = aperture_photometry(truth.signal, apertures, method="exact")
     seen = np.array([float(sums[f"aperture_sum_{k}"][0]) for k in range(len(radii_pix))])

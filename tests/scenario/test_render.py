@@ -7,7 +7,10 @@ from astropy.time import Time
 
 from photpipe.scenario import (
     CometSpec,
+    DetectorSpec,
     Instrument,
+    SceneSpec,
+    Seeing,
     ScienceExposure,
     coma_k_from_afrho,
     make_star_field,
@@ -69,8 +72,8 @@ def test_science_frame_calibrates_back_to_truth(instrument):
     comet = CometSpec(ra=CENTER.ra + 5 * u.arcsec, dec=CENTER.dec, nucleus_mag=17.0 * u.mag,
                       afrho=300 * u.cm, r_h=1.5 * u.au, delta=0.8 * u.au)
     hdul, truth = render_frame("science", instrument, time=T0, exptime=120 * u.s,
-                               pointing=CENTER, stars=stars, comet=comet, cosmic_rays=False,
-                               rng=11)
+                               scene=SceneSpec(pointing=CENTER, stars=stars, comet=comet),
+                               detector=DetectorSpec(cosmic_rays=False), rng=11)
     hdr = hdul[0].header
     for key in ("IMAGETYP", "DATE-OBS", "EXPTIME", "FILTER", "GAIN", "RDNOISE", "SATURATE"):
         assert key in hdr
@@ -93,7 +96,8 @@ def test_science_frame_calibrates_back_to_truth(instrument):
 def test_cosmic_rays_and_saturation_are_in_the_truth(instrument):
     comet = CometSpec(ra=CENTER.ra, dec=CENTER.dec, nucleus_mag=9.0 * u.mag)
     hdul, truth = render_frame("science", instrument, time=T0, exptime=300 * u.s,
-                               pointing=CENTER, comet=comet, cosmic_rate=5.0, rng=2)
+                               scene=SceneSpec(pointing=CENTER, comet=comet),
+                               detector=DetectorSpec(cosmic_rate=5.0), rng=2)
     assert truth.cosmic.sum() > 5
     assert truth.saturated[int(round(truth.comet_y)), int(round(truth.comet_x))]
     assert hdul[0].data.max() == int(instrument.saturation.to_value(u.adu))
@@ -121,3 +125,60 @@ def test_bad_arguments(bad, match, instrument):
     kind = kw.pop("kind")
     with pytest.raises(ValueError, match=match):
         render_frame(kind, instrument, **kw)
+
+
+def _moments(image, x, y):
+    """Flux and second central moments (xx, yy) of ``image`` around (x, y)."""
+    yy, xx = np.mgrid[: image.shape[0], : image.shape[1]]
+    f = image.sum()
+    return f, (image * (xx - x) ** 2).sum() / f, (image * (yy - y) ** 2).sum() / f
+
+
+def _moving_comet(ra_rate):
+    # east-west motion only: 36"/h for 300 s is 3", 2.5 pixels of 1.2" towards -x (east left)
+    return CometSpec(ra=CENTER.ra, dec=CENTER.dec, nucleus_mag=15.0 * u.mag,
+                     ra_rate=ra_rate * u.arcsec / u.h, dec_rate=0 * u.arcsec / u.h)
+
+
+@pytest.mark.parametrize("tracking", ["sidereal", "comet"])
+def test_moving_comet_trails_the_comet_or_the_stars(instrument, tracking):
+    # one star 60" north of the comet, so each source is alone in its box
+    stars = make_star_field(CENTER, 0.05 * u.deg, n_stars=1, rng=5)
+    stars["ra"], stars["dec"] = [CENTER.ra], [CENTER.dec + 60 * u.arcsec]
+    seeing = Seeing(fwhm=3.0 * u.arcsec)
+    frames = {}
+    for rate in (0.0, 36.0):
+        scene = SceneSpec(pointing=CENTER, comet=_moving_comet(rate), stars=stars,
+                          sky_rate=0 * u.electron / u.s, seeing=seeing, tracking=tracking)
+        frames[rate] = render_frame("science", instrument, time=T0, exptime=300 * u.s,
+                                    scene=scene, detector=DetectorSpec(cosmic_rays=False),
+                                    rng=1)[1]
+    still, moving = frames[0.0], frames[36.0]
+    assert still.comet_trail == still.star_trail == (0.0, 0.0)
+    expected = (-2.5, 0.0)
+    trailed, fixed = ((moving.comet_trail, moving.star_trail) if tracking == "sidereal"
+                      else (moving.star_trail, moving.comet_trail))
+    sign = 1 if tracking == "sidereal" else -1
+    assert trailed == pytest.approx((sign * expected[0], 0.0), abs=1e-3)
+    assert fixed == (0.0, 0.0)
+    # a source smeared evenly along a segment of length L gains L²/12 of variance along it
+    # (the variance of a uniform distribution, common practice) and none across it; the
+    # total light is unchanged
+    cx, cy = int(round(moving.comet_x)), int(round(moving.comet_y))
+    sx, sy = (int(round(v)) for v in (moving.stars["x"][0], moving.stars["y"][0]))
+    box = {"comet": (cx, cy, moving.comet_x, moving.comet_y),
+           "star": (sx, sy, float(moving.stars["x"][0]), float(moving.stars["y"][0]))}
+    smeared = "comet" if tracking == "sidereal" else "star"
+    for name, (ix, iy, x, y) in box.items():
+        cut = np.s_[iy - 12: iy + 13, ix - 12: ix + 13]
+        f0, vx0, vy0 = _moments(still.signal[cut], x - ix + 12, y - iy + 12)
+        f1, vx1, vy1 = _moments(moving.signal[cut], x - ix + 12, y - iy + 12)
+        extra = 2.5**2 / 12 if name == smeared else 0.0
+        assert f1 == pytest.approx(f0, rel=1e-3)
+        assert vx1 - vx0 == pytest.approx(extra, abs=0.01)
+        assert vy1 - vy0 == pytest.approx(0.0, abs=0.01)
+
+
+def test_tracking_must_be_known():
+    with pytest.raises(ValueError, match="'tracking' must be one of"):
+        SceneSpec(tracking="none")
