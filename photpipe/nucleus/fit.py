@@ -24,7 +24,8 @@ from photutils.aperture import CircularAperture
 from photpipe._warnings import PoorResultWarning
 
 from ._cutout import cut_comet_box
-from ._fit_steps import core_bad_share, find_peak, find_residual_sources, psf_shape_error
+from ._fit_steps import (core_bad_share, find_peak, find_residual_sources, psf_shape_error,
+                         refine_source)
 from ._render import ComponentRenderer
 from ._separable import _solve, fit_separable, weighted_jacobian
 from .fit_options import DETECTION_SIGMA, FitOptions, checked_options, option_parameters
@@ -157,7 +158,12 @@ def _extra_sources(box, fit, psf_star, opt, flags):
         return None
     yy, xx = np.mgrid[0:box.good.shape[0], 0:box.good.shape[1]]
     sources = []
+    resid_e = np.zeros(box.good.shape)
+    resid_e[box.good] = fit.d - fit.res.model
+    sig = np.sqrt(box.variance)
     for sx, sy, _ in found[:_MAX_EXTRA]:
+        if np.hypot(sx - v["x0"], sy - v["y0"]) <= 3.0 * fwhm:
+            sx, sy = refine_source(resid_e, sig, box.good, sx, sy, psf_star, radius=1.5 * fwhm)
         sources.append((sx, sy))
         if np.hypot(sx - v["x0"], sy - v["y0"]) > 3.0 * fwhm:
             box.good[np.hypot(xx - sx, yy - sy) < 2.0 * fwhm + 0.5 * psf_star.trail_length_pix] \

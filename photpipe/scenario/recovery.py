@@ -120,15 +120,16 @@ def coma_afrho_ratio(cf, fit, *, radius=AFRHO_RADIUS_PIX):
     return value / truth, float(out["a0frho_coma_err_cm"][0].to_value(u.cm)) / truth
 
 
-def recover_case(name, seeds, *, shape=(161, 161), afrho=False, **options):
+def recover_case(name, seeds, *, shape=(161, 161), n_catalogued=12, afrho=False, **options):
     """Fit ``seeds`` frames of case ``name``; one dict per frame (truth and result).
 
-    With ``afrho`` each row also holds ``afrho_ratio`` and ``afrho_rel_err``
-    (`coma_afrho_ratio`, NaN without a coma).
+    ``shape`` and ``n_catalogued`` go to `render_case`, ``options`` to `fit_case_frame`. With
+    ``afrho`` each row also holds ``afrho_ratio`` and ``afrho_rel_err`` (`coma_afrho_ratio`,
+    NaN without a coma).
     """
     rows = []
     for seed in seeds:
-        cf = render_case(NIGHT_CASES[name], int(seed), shape=shape)
+        cf = render_case(NIGHT_CASES[name], int(seed), shape=shape, n_catalogued=n_catalogued)
         fit = fit_case_frame(cf, **options)
         row = {"seed": int(seed), "truth_e": cf.nucleus_flux_e, "coma_k_true": cf.coma_k_e,
                "fraction_true": cf.nucleus_fraction}

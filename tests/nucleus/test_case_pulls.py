@@ -2,29 +2,45 @@
 
 Each case of `photpipe.scenario.NIGHT_CASES` is rendered for N_SEEDS frames (seeing, PSF shape,
 trail direction, faint stars and noise drawn afresh per seed) and run through the nucleus path
-as the campaign runs it. Kept to 5 frames a case so that the suite stays quick: the magnitude
-bias must stay under 0.03 mag where the nucleus carries at least 30 % of the light inside one
-FWHM, no frame may fail or get a non-finite error, no upper limit may lie below the truth, and
-the pull (F - F_true)/σ_F over all 40 frames must have a robust σ within 0.7-1.5. That band is
-wider than the goal (0.8-1.25) because 40 frames fix a robust σ only to about ±0.18 (1.4826
-MAD has 37 % efficiency for a normal sample, Kendall & Stuart 1977, 10.10), and one case's 5
-frames to ±0.5; ``benchmarks/recovery.py`` measures each case on 40 frames against 0.8-1.25.
+as the campaign runs it, on 101x101 frames with 6 catalogued stars and a 61-pixel cutout (a
+third of the cost of the benchmark's 161x161 frames; the fit is the same).
+
+Per case, the pull (F - F_true)/σ_F must have a robust σ within 0.8-1.25 and, where the nucleus
+carries at least 30 % of the light inside one FWHM, the magnitude bias must stay under
+0.03 mag. The robust σ is the biweight scale (astropy ``biweight_scale``, Beers, Flynn &
+Gebhardt 1990, AJ 100, 32), chosen over 1.4826 MAD for its efficiency on normal data. Its
+sampling spread for N normal pulls, measured on 10 000 simulated samples: standard deviation
+0.17 for N = 20, 0.14 for 30, 0.12 for 40, 0.10 for 60 (1.4826 MAD: 0.25, 0.21, 0.18, 0.15).
+So with N = 40 an honest error (σ = 1) lands in 0.8-1.25 with probability 0.93 per case (the
+same simulation); 40 frames a case is what the test-time budget allows (~1.5 min for the 320
+frames here on the 2-core machine; they also serve the other tests of this module). A case
+outside the band is a cause to find in the pipeline, not a band to widen; the benchmark
+(``benchmarks/recovery.py``) runs more seeds on the full-size frames.
 """
 
 import numpy as np
 import pytest
+from astropy.stats import biweight_scale
 
 from photpipe.scenario import NIGHT_CASES
 from photpipe.scenario.recovery import recover_case, summarise_recovery
 
-N_SEEDS = 5
-SHAPE = (161, 161)
+N_SEEDS = 40
+SHAPE = (101, 101)
+N_CATALOGUED = 6
+CUTOUT = 61
 
 
 @pytest.fixture(scope="module")
 def recovered():
-    return {name: recover_case(name, range(N_SEEDS), shape=SHAPE, cutout=81)
+    return {name: recover_case(name, range(N_SEEDS), shape=SHAPE, n_catalogued=N_CATALOGUED,
+                               cutout=CUTOUT)
             for name in NIGHT_CASES}
+
+
+def _pulls(rows):
+    p = np.array([(r["flux_e"] - r["truth_e"]) / r["err_e"] for r in rows], float)
+    return p[np.isfinite(p)]
 
 
 @pytest.mark.slow
@@ -33,7 +49,7 @@ def test_error_bars_hold_over_all_cases(recovered):
     s = summarise_recovery(rows)
     print({k: round(v, 3) if isinstance(v, float) else v for k, v in s.items()})
     assert s["n_failed"] == 0
-    assert 0.7 <= s["pull_sigma"] <= 1.5
+    assert 0.8 <= biweight_scale(_pulls(rows)) <= 1.25
 
 
 @pytest.mark.slow
@@ -43,8 +59,12 @@ def test_each_case_is_honest(name, recovered):
     s = summarise_recovery(rows)
     case = NIGHT_CASES[name]
     print(name, {k: round(v, 3) if isinstance(v, float) else v for k, v in s.items()})
+    pulls = _pulls(rows)
+    print(name, "pull biweight σ", round(biweight_scale(pulls), 3), "median",
+          round(float(np.median(pulls)), 3))
     assert s["n_failed"] == 0
     assert all(np.isfinite(r["err_e"]) and r["err_e"] > 0 for r in rows)
+    assert 0.8 <= biweight_scale(pulls) <= 1.25
     if case.has_nucleus and (case.nucleus_fraction or 1.0) >= 0.3:
         assert abs(s["bias_mag"]) < 0.03
         assert s["upper_limit_fraction"] == 0.0
