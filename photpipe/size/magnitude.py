@@ -10,6 +10,7 @@ from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.rotation import reduce_lightcurve
 from photpipe.size._mean_blocks import night_block_mean
+from photpipe.size._mean_periods import period_averaged_mean
 from photpipe.size._mean_flux import flux_mean
 from photpipe.size._mean_harmonic import harmonic_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
@@ -19,7 +20,8 @@ __all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolu
 
 #: Method name -> function(mag, err, *, times, period, n_bins, n_harmonics) -> (flux, error, flags).
 MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean,
-                "harmonic": harmonic_mean, "rotation-unknown": night_block_mean}
+                "harmonic": harmonic_mean, "rotation-unknown": period_averaged_mean,
+                "night-blocks": night_block_mean}
 #: Methods that need the rotation period.
 _NEEDS_PERIOD = ("harmonic", "phase-binned")
 
