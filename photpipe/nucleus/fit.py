@@ -24,8 +24,13 @@ from photutils.aperture import CircularAperture
 from photpipe._warnings import PoorResultWarning
 
 from ._cutout import cut_comet_box
-from ._fit_steps import (core_bad_share, find_peak, find_residual_sources, psf_shape_error,
-                         refine_source)
+from ._fit_steps import (
+    core_bad_share,
+    find_peak,
+    find_residual_sources,
+    psf_shape_error,
+    refine_source,
+)
 from ._render import ComponentRenderer
 from ._separable import _solve, fit_separable, weighted_jacobian
 from .fit_options import DETECTION_SIGMA, FitOptions, checked_options, option_parameters

@@ -10,9 +10,9 @@ from photpipe._quantity import as_positive_value, as_value
 from photpipe._warnings import PoorResultWarning
 from photpipe.rotation import reduce_lightcurve
 from photpipe.size._mean_blocks import night_block_mean
-from photpipe.size._mean_periods import period_averaged_mean
 from photpipe.size._mean_flux import flux_mean
 from photpipe.size._mean_harmonic import harmonic_mean
+from photpipe.size._mean_periods import period_averaged_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
 
 __all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude",
