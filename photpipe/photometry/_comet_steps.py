@@ -148,8 +148,13 @@ class Apertures:
     yy: np.ndarray
 
 
-def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail):
-    """Sky in the annulus, the comet's sums with masked pixels filled from their rings."""
+def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail,
+                      comet_trail=(0.0, 0.0)):
+    """Sky in the annulus, the comet's sums with masked pixels filled from their rings.
+
+    The coma correction blurs the coma with the PSF trailed by the comet's own motion
+    (``comet_trail``, pixels) on frames that followed the stars.
+    """
     ny, nx = prep.data.shape
     xc, yc, ann_in, ann_out = centre.x, centre.y, lay.ann_in, lay.ann_out
     data, var = prep.data[cut.box], prep.variance[cut.box]
@@ -176,7 +181,8 @@ def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail):
     if cal.psf_model is not None:
         coma_factor = coma_aperture_correction(lay.radii, cal.psf_model,
                                                reference_radius=stars.radii[-1],
-                                               annulus=stars.annulus, pixel=cal.psf_optical)
+                                               annulus=stars.annulus, pixel=cal.psf_optical,
+                                               trail=comet_trail)
         flux, flux_err = flux * coma_factor, flux_err * coma_factor
     else:
         coma_factor = np.ones(len(lay.radii))

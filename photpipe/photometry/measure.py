@@ -53,7 +53,8 @@ def measure_frame(frame, reference_stars, geometry_row, options=None):
     cal = calibrate(prep, stars, mat.wcs, opts, notes)
     cut = cutout(prep, det, lay, mat, cal.zp, stars.fwhm, opts, trail=stars.trail)
     centre = find_centre(prep, det, lay, cut, stars.fwhm, opts, notes)
-    ap = measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail)
+    ap = measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail,
+                           comet_trail=tracking.comet_trail)
     profile, slope = coma_profile(prep, lay, ap, centre, cal.zp, stars.fwhm, mat.wcs, opts,
                                   notes)
     mags = magnitudes(prep, lay, ap, cal, opts, notes)
