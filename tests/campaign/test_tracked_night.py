@@ -3,12 +3,12 @@
 Both nights hold the same truth (the demo comet, its stars, times and seeing) rendered once with
 the telescope following the stars (the comet trails 5 pixels in each 90 s frame) and once
 following the comet (every star trails 5 pixels). The comet-tracked night says so in a
-``TRACKING`` card (header style "comet-tracked"); the configuration keeps its default
-``tracking = "sidereal"``, so the header must win, frame by frame, and the stars must be measured
+``TRACKING`` card (header style "comet-tracked") on three frames, and not on the last; the
+configuration keeps its default ``tracking = "sidereal"``, so the headers must win, the unmarked
+frame's stars (or the night's vote) must call it comet-tracked, and the stars must be measured
 along their trails.
 """
 
-import logging
 from dataclasses import replace
 
 import numpy as np
@@ -30,10 +30,6 @@ from ._nights import SMALL, _geometry, write_config
 CAMERA = replace(SMALL, shape=(256, 256))
 #: magnitude giving 1 electron/s, and the exposure: the untrailed comet stays unsaturated
 ZERO_POINT, EXPTIME = 23.3, 90.0
-
-
-def _quiet(line):
-    logging.getLogger("test").debug(line)
 
 
 def _render(folder, tracking, stars_path):
@@ -74,23 +70,33 @@ def reduced(tmp_path_factory):
         truth, exposures = _render(tmp / tracking / "raw", tracking, stars_path)
         night = tmp / tracking / "2026-12-01"
         if tracking == "comet":
-            restyle_night(truth, night, "comet-tracked", rng=1)
+            paths = restyle_night(truth, night, "comet-tracked", rng=1)
+            with fits.open(paths[max(truth.science)], mode="update") as hdul:
+                for hdu in hdul:  # a compressed file repeats the cards in its primary header
+                    hdu.header.remove("TRACKING", ignore_missing=True)
         else:
             restyle_night(truth, night, "clean", rng=1)
         config = load_config(write_config(tmp / tracking, [str(night)],
                                           stars_path=str(stars_path)))
-        summary = run_campaign(config, workers=0, progress=False, echo=_quiet)
-        out[tracking] = (truth, exposures, summary, _tables(config), night)
+        lines = []
+        summary = run_campaign(config, workers=0, progress=False, echo=lines.append)
+        out[tracking] = (truth, exposures, summary, _tables(config), night, lines)
     return out
 
 
 @pytest.mark.slow
 def test_comet_tracked_night_gives_the_sidereal_numbers(reduced):
-    truth_s, exposures, summary_s, side, _ = reduced["sidereal"]
-    truth_c, _, summary_c, comet, night = reduced["comet"]
+    truth_s, exposures, summary_s, side, _, _ = reduced["sidereal"]
+    truth_c, _, summary_c, comet, night, lines = reduced["comet"]
     assert summary_s.measured == summary_c.measured == 4
     sci = sorted(night.glob("sci_*"))
     assert fits.getheader(sci[0])["TRACKING"] == "NON-SIDEREAL"
+    assert "TRACKING" not in fits.getheader(sci[-1])
+    # the unmarked frame is measured as comet-tracked: its stars decide, or else the night's
+    # vote (three headers) carries it (tests/campaign/test_tracking_vote.py has that case)
+    vote = [line for line in lines if "by the frames' votes" in line]
+    assert vote in ([], ["night 2026-12-01: tracking comet by the frames' votes (3 comet); "
+                         "measured again as comet: sci_0004"]), lines
     # the generator's trails: 5 pixels, the comet's under sidereal tracking, the stars'
     # under comet tracking
     for tr in truth_c.science.values():
