@@ -171,8 +171,11 @@ def _bright_stars(frame, binning, n_stars=150, trail_length=0.0):
 
 
 def _trail_middles(data, good, x, y, length, sky):
-    """Trailed stars' middles, whatever the trail's direction: first moments in a circle
-    reaching half the trail and 1.5 FWHM beyond, then one position per trail."""
+    """Trailed stars' middles, whatever the trail's direction.
+
+    First moments in a circle reaching half the trail and 1.5 FWHM beyond, then one position
+    per trail.
+    """
     from .trailed import merge_trail_detections, trail_centroids
 
     fwhm = measure_fwhm_minor(data, x, y, sky=sky)
