@@ -86,20 +86,23 @@ def azimuthal_median_model(data, good, x0, y0, *, width=2.0, min_pixels=8):
 
 
 def _ring_medians(ring, radius, values, min_pixels):
-    """Median radius and median value of each ring holding at least ``min_pixels`` pixels."""
+    """Median radius and median value of each ring holding at least ``min_pixels`` pixels.
+
+    The pixels are put in ring order by one sort of the integer ring numbers (a radix sort);
+    each ring's two middle values then come from a partial sort of the ring alone.
+    """
     if not ring.size:
         return np.zeros(0), np.zeros(0)
     counts = np.bincount(ring)
     starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
     full = np.flatnonzero(counts >= min_pixels)
-    lo = starts[full] + (counts[full] - 1) // 2
-    hi = starts[full] + counts[full] // 2
-
-    # sorting by radius sorts by ring too (ring = floor(radius / width))
-    by_radius = np.sort(radius)
-    # values sorted by ring, then by value: one sort of the ring plus the value scaled into
-    # [0, 1) (float64 keeps ~40 bits of it beside a ring number up to ~10^4)
-    lo_v, span = float(values.min()), float(np.ptp(values))
-    scaled = (values - lo_v) / (span * (1.0 + 1e-9)) if span > 0 else np.zeros(values.size)
-    by_value = values[np.argsort(ring + scaled)]
-    return 0.5 * (by_radius[lo] + by_radius[hi]), 0.5 * (by_value[lo] + by_value[hi])
+    order = np.argsort(ring, kind="stable")
+    by_ring = (radius[order], values[order])
+    out = np.empty((2, full.size))
+    for k, i in enumerate(full):
+        a, n = starts[i], counts[i]
+        lo, hi = (n - 1) // 2, n // 2
+        for j, sorted_ in enumerate(by_ring):
+            part = np.partition(sorted_[a:a + n], (lo, hi))
+            out[j, k] = 0.5 * (part[lo] + part[hi])
+    return out[0], out[1]
