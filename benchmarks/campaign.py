@@ -1,4 +1,4 @@
-"""Benchmark of the batch run: one synthetic night end to end with 1 and 2 worker processes.
+"""Benchmark of the batch run: one synthetic night end to end, in one process and on workers.
 
     python benchmarks/campaign.py                 # 200-frame nights of 1024x1024 and 2048x2048
     python benchmarks/campaign.py --frames 16     # a quick run
@@ -6,14 +6,15 @@
 
 Renders a night of the invented demo comet with photpipe.scenario, then runs the whole pipeline
 (masters, geometry, calibration, photometry, nucleus fit, store, exports, campaign stages) on it
-in one process, and with one and two local Dask workers. Prints, for each: seconds per frame end to end; the
-frame phase (first task handed out to last result stored) against its floor, the frame tasks' own
-time divided by the workers; the parent's serial time (start-up, masters, geometry, exports,
-campaign stages), which does not shrink with workers; the share of a core each task got (CPU
-time / wall time in the worker: below 1 means it waited for a core other work held); and the peak
-memory of each worker (goal: a few frames, not the night). Then the speed-up end to end and of the
-frame phase (goal >= 1.8 on 2 cores), and the machine's own ceiling: the same runner, already
-started, on a pure-numpy task. Numbers are noisy when other work shares the CPU.
+in one process, and with one and two local Dask workers. Prints, for each: seconds per frame end
+to end; the frame phase (first task handed out to last result stored) against its floor, the
+frame tasks' own time divided by the workers; the parent's serial time by phase (inventories,
+masters, geometry, waiting for the workers, night tables, campaign steps), which does not
+shrink with workers; the share of a core each task got (CPU time / wall time in the worker:
+below 1 means it waited for a core other work held); and the peak memory of each worker (goal:
+a few frames, not the night). Then the speed-up end to end and of the frame phase (goal >= 1.8
+on 2 cores), and the machine's own ceiling: the same runner, already started, on a pure-numpy
+task. Numbers are noisy when other work shares the CPU.
 """
 
 import argparse

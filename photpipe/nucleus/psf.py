@@ -429,12 +429,13 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     score as it stands, since it is the stars refitted with the shape held at its best. The
     empirical PSF is the same Moffat plus a table of the stars' mean residual about it
     (`build_epsf_image`, after Stetson 1987), scored on the stars at the joint fit's centres
-    with flux and sky free, each star on the table made without it; it wins only when its χ²/dof is below ``EPSF_MARGIN`` times the
-    Moffat's. It is one shape for all the stars, so it can do better than the Moffat only by the
-    part of the Moffat's residuals that the stars share; when the mean residual over the stars
-    is consistent with their scatter at every stamp pixel (`shared_residual_z` within
-    ``SHARED_RESIDUAL_SIGMA``) it could only fit noise, which the margin is there to refuse, so
-    by default it is not built. The significance is kept as ``shared_residual_z``.
+    with flux and sky free, each star on the table made without it; it wins only when its
+    χ²/dof is below ``EPSF_MARGIN`` times the Moffat's. It is one shape for all the stars, so
+    it can do better than the Moffat only by the part of the Moffat's residuals that the stars
+    share; when the mean residual over the stars is consistent with their scatter at every
+    stamp pixel (`shared_residual_z` within ``SHARED_RESIDUAL_SIGMA``) it could only fit
+    noise, which the margin is there to refuse, so by default it is not built. The
+    significance is kept as ``shared_residual_z``.
 
     Examples
     --------

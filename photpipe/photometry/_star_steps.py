@@ -75,9 +75,11 @@ def _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot):
 
 
 def _reach(fwhm, cal):
-    """Half side (pixels) of the square about a star that its photometry reads: the sky
-    annulus reaches 8 FWHM, the apertures 4 FWHM or the photometry aperture's, the FWHM's
-    own boxes 7 pixels."""
+    """Half side (pixels) of the square about a star that its photometry reads.
+
+    The sky annulus reaches 8 FWHM, the apertures 4 FWHM or the photometry aperture's, the
+    FWHM's own boxes 7 pixels.
+    """
     return max(int(np.ceil(max(8.0, cal.star_aperture_fwhm) * fwhm)) + 3, 8)
 
 
