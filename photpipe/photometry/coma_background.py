@@ -162,7 +162,7 @@ def subtract_rings_near(data, profile, x0, y0, xy, half):
     >>> prof = ring_profile(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
     >>> near = subtract_rings_near(img, prof, 32.0, 32.0, np.array([[50.0, 20.0]]), 5)
     >>> full = img - azimuthal_median_model(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
-    >>> bool(np.array_equal(near[15:26, 45:56], full[15:26, 45:56])), near[0, 0] == img[0, 0]
+    >>> bool(np.array_equal(near[15:26, 45:56], full[15:26, 45:56])), bool(near[0, 0] == img[0, 0])
     (True, True)
     """
     out = np.array(data, dtype=np.float64)
