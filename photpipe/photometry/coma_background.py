@@ -144,8 +144,8 @@ def subtract_rings_near(data, profile, x0, y0, xy, half):
         (ring radii, ring medians) from `ring_profile`.
     x0, y0 : float
         The rings' centre.
-    xy : ndarray, shape (n, 2)
-        Positions (the field stars) around which the model is subtracted.
+    xy : ndarray, shape (n, 2), or None
+        Positions (the field stars) around which the model is subtracted; None: everywhere.
     half : int
         Half side, pixels, of the square about each position where it is subtracted.
 
@@ -167,6 +167,10 @@ def subtract_rings_near(data, profile, x0, y0, xy, half):
     """
     out = np.array(data, dtype=np.float64)
     ny, nx = out.shape
+    if xy is None:
+        rho = np.hypot(np.arange(nx)[None, :] - float(x0), np.arange(ny)[:, None] - float(y0))
+        out -= np.interp(rho, *profile)
+        return out
     inside = np.zeros(out.shape, bool)
     for x, y in np.asarray(xy, dtype=float).reshape(-1, 2):
         if np.isfinite(x) and np.isfinite(y):
