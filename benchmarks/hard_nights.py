@@ -161,8 +161,7 @@ def compare(results, truth):
             continue
         fit = nuc[name]
         m, e = _plain(fit["nucleus_mag"]), _plain(fit["nucleus_mag_err"])
-        m_true = _plain(row["nucleus_mag"]) if np.isfinite(row["nucleus_flux_e"]) and \
-            row["nucleus_flux_e"] > 0 else np.inf
+        m_true = _plain(row["nucleus_mag"])
         if "upper_limit" in str(fit["flags"]).split(","):
             n_ul += 1
             limits_wrong += int(np.isfinite(m) and m > m_true)
