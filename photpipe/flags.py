@@ -56,12 +56,14 @@ FLAGS = {
     "profile_disagrees": ("nucleus", "the radial profile disagrees with the 2-D fit"),
     "star_near_nucleus": ("nucleus", "a catalogued star within 2 FWHM of the nucleus: the nucleus"
                                      " is an upper limit"),
-    "tracking_comet": ("nucleus", "the telescope followed the comet (a TRACKING header or the "
-                               "stars' trails said so, against the configured tracking): the "
-                               "stars were fitted as trailed"),
-    "tracking_sidereal": ("nucleus", "the telescope followed the stars (a TRACKING header or "
-                                     "the round stars said so, against the configured "
-                                     "tracking): the comet was fitted as trailed"),
+    "tracking_comet": ("nucleus", "the telescope followed the comet (a TRACKING header, the "
+                               "stars' trails or the night's vote said so, against the "
+                               "configured tracking): the stars were measured and fitted as "
+                               "trailed"),
+    "tracking_sidereal": ("nucleus", "the telescope followed the stars (a TRACKING header, "
+                                     "the round stars or the night's vote said so, against "
+                                     "the configured tracking): the comet was fitted as "
+                                     "trailed"),
     "core_masked": ("nucleus", "over a quarter of the pixels within one FWHM of the nucleus are "
                                "unusable: the nucleus is left out (NaN), the coma still fitted"),
     "no_error": ("nucleus", "the nucleus fit gave no finite error: the nucleus is left out (NaN)"),

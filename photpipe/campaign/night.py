@@ -10,6 +10,8 @@ import logging
 import os
 import time
 import warnings
+from collections import Counter
+from dataclasses import dataclass
 from pathlib import Path
 
 from astropy.time import Time
@@ -24,7 +26,7 @@ from .runner import TaskError
 from .summary import NightSummary
 from .tasks import process_frame
 
-__all__ = ["NightRun", "night_name", "NIGHT_TABLES"]
+__all__ = ["NightRun", "night_name", "NIGHT_TABLES", "TrackingVote", "night_tracking_vote"]
 
 log = logging.getLogger("photpipe.campaign")
 
@@ -53,6 +55,89 @@ def night_name(night):
         if any(ch in part for ch in "*?["):
             return parts[i - 1] if i > 0 else path
     return os.path.basename(path)
+
+
+@dataclass(frozen=True)
+class TrackingVote:
+    """The tracking mode of one night and camera, from its frames' own verdicts.
+
+    Attributes
+    ----------
+    mode : str or None
+        The mode most frames' evidence (a TRACKING header or the stars' shapes) gave; None
+        when too few frames decided or they split.
+    votes : dict
+        Frames that decided, per mode.
+    again : tuple of str
+        Frames measured in another mode on weak evidence (or none): measured again in
+        ``mode``.
+    own : tuple of str
+        Frames whose strong evidence (a TRACKING header, or stars far from the other mode)
+        keeps their own mode.
+    """
+
+    mode: str | None
+    votes: dict
+    again: tuple = ()
+    own: tuple = ()
+
+    def line(self, night, camera):
+        """One line for the night's messages, or None when every frame agreed."""
+        if self.mode is None or not (self.again or self.own):
+            return None
+        counts = ", ".join(f"{n} {m}" for m, n in sorted(self.votes.items()))
+        text = f"night {night}{camera}: tracking {self.mode} by the frames' votes ({counts})"
+        if self.again:
+            text += f"; measured again as {self.mode}: {', '.join(self.again)}"
+        if self.own:
+            text += f"; keep their own mode on strong evidence: {', '.join(self.own)}"
+        return text
+
+
+#: A night's mode needs at least this many deciding frames and this share of them.
+VOTE_MIN_FRAMES, VOTE_MIN_SHARE = 2, 2.0 / 3.0
+
+
+def night_tracking_vote(verdicts):
+    """Decide one night's (and camera's) tracking mode from its frames' verdicts.
+
+    Frames of one night and one camera are tracked alike, as a rule. A frame's own verdict
+    (`photpipe.photometry.TrackingVerdict.to_dict`: ``mode, source, strong``) counts as a
+    vote when a header or the stars decided it; the night takes the mode of at least
+    `VOTE_MIN_FRAMES` votes and `VOTE_MIN_SHARE` of them. A frame measured in another mode
+    keeps it only on strong evidence; the others are to be measured again in the night's.
+
+    Parameters
+    ----------
+    verdicts : dict of str to dict or None
+        Frame name -> its verdict.
+
+    Returns
+    -------
+    TrackingVote
+
+    Examples
+    --------
+    >>> v = {"a": {"mode": "comet", "source": "stars", "strong": True},
+    ...      "b": {"mode": "comet", "source": "stars", "strong": False},
+    ...      "c": {"mode": "sidereal", "source": "configuration", "strong": False},
+    ...      "d": {"mode": "sidereal", "source": "header", "strong": True}}
+    >>> vote = night_tracking_vote(v)
+    >>> vote.mode, vote.again, vote.own
+    ('comet', ('c',), ('d',))
+    """
+    decided = {f: v for f, v in verdicts.items()
+               if v and v.get("source") in ("header", "stars")}
+    votes = dict(Counter(v["mode"] for v in decided.values()))
+    if not votes:
+        return TrackingVote(None, votes)
+    mode, n = max(votes.items(), key=lambda kv: kv[1])
+    if n < VOTE_MIN_FRAMES or n < VOTE_MIN_SHARE * sum(votes.values()):
+        return TrackingVote(None, votes)
+    differ = sorted(f for f, v in verdicts.items() if v and v.get("mode") != mode)
+    own = tuple(f for f in differ if verdicts[f].get("strong"))
+    again = tuple(f for f in differ if not verdicts[f].get("strong"))
+    return TrackingVote(mode, votes, again, own)
 
 
 def _site_groups(site, infos):
@@ -283,15 +368,55 @@ class NightRun:
                  for info, row in zip(todo, geometry)]
         self.run.runner.open()
         started = time.perf_counter()
+        shared = self._shared(masters, site)
+        verdicts = {}
         for item, result in self.run.runner.map(
-                process_frame, items, shared=self._shared(masters, site), desc=night.name,
+                process_frame, items, shared=shared, desc=night.name,
                 label=lambda it: f"{it['night']}/{it['frame']}"):
             self._store(night, item["frame"], result)
+            verdicts[item["frame"]] = getattr(result, "tracking", None)
+        again = self._tracking_vote(night, todo, items, verdicts)
+        if again:
+            for item, result in self.run.runner.map(
+                    process_frame, again, shared=shared, desc=f"{night.name} again",
+                    label=lambda it: f"{it['night']}/{it['frame']}"):
+                self._store(night, item["frame"], result, again=True)
         phases = self.run.summary.phase_seconds
         phases["frames"] = phases.get("frames", 0.0) + time.perf_counter() - started
 
-    def _store(self, night, frame, result):
-        """Store one frame's result; count it as measured only when it was stored."""
+    def _tracking_vote(self, night, todo, items, verdicts):
+        """The frames to measure again in their night's tracking mode (per camera).
+
+        The disagreements are said once per night and camera.
+        """
+        if not self.run.settings.nucleus.tracking_check:
+            return []
+        cameras = {}
+        for info, item in zip(todo, items, strict=True):
+            cameras.setdefault(getattr(info, "instrument", None) or "", []).append(item)
+        again = []
+        for camera, group in cameras.items():
+            vote = night_tracking_vote({it["frame"]: verdicts.get(it["frame"]) for it in group})
+            line = vote.line(night.name, f" ({camera})" if len(cameras) > 1 else "")
+            if line:
+                self.run.echo(line)
+                log.info("%s", line)
+            redo = set(vote.again)
+            again += [dict(it, tracking=vote.mode) for it in group if it["frame"] in redo]
+        return again
+
+    def _store(self, night, frame, result, *, again=False):
+        """Store one frame's result; count it as measured only when it was stored.
+
+        A frame measured ``again`` (in its night's tracking mode) replaces its first result
+        and its problems, and is not counted twice.
+        """
+        if again:
+            night.skipped = [s for s in night.skipped if s.item != frame]
+            counts = (night.measured, night.kept)
+            self._store(night, frame, result)
+            night.measured, night.kept = counts
+            return
         if isinstance(result, TaskError):
             self.skip(night, frame, "worker", str(result))
             return

@@ -60,6 +60,9 @@ class FrameRecord:
     nucleus_images : dict or None
         Data, model and residual of the nucleus fit, cut small (written by the campaign beside
         the store, see `photpipe.campaign.frame_views`).
+    tracking : dict or None
+        The frame's tracking verdict (`photpipe.photometry.TrackingVerdict.to_dict`), which
+        the night weighs with the others'.
 
     Examples
     --------
@@ -89,6 +92,7 @@ class FrameRecord:
     astrometry: dict | None = None
     profile: object = None
     nucleus_images: dict | None = field(default=None, repr=False)
+    tracking: dict | None = None
 
     def to_dict(self):
         """Return the record's attributes as a plain dict (tables are not copied)."""

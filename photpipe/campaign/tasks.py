@@ -112,12 +112,14 @@ def process_frame(item, shared):
     item : dict
         ``night, frame`` (its key in the store), ``site, info`` (`~photpipe.frames.FrameInfo`),
         ``content_hash``,
-        ``calibrated_path``, ``geometry`` (one-row QTable of ``observing_geometry`` or None).
+        ``calibrated_path``, ``geometry`` (one-row QTable of ``observing_geometry`` or None);
+        ``tracking`` when the night re-measures the frame in the mode it decided.
     shared : dict
         ``masters`` (`~photpipe.frames.MasterSet`), ``stages`` (frame stages available, in
         order), ``calibration`` / ``photometry`` / ``nucleus`` (keyword options of the stages'
         functions), ``tracking`` ("sidereal" or "comet": which of comet and stars trail),
-        ``tracking_check`` (a TRACKING header, else the stars' shapes, may override it),
+        ``tracking_check`` (a TRACKING header, else the stars' shapes, may override it; the
+        photometry decides, before it measures the stars, and the nucleus follows),
         ``reference_store`` (path of the campaign's
         `~photpipe.photometry.ReferenceStarStore`, or None) and ``reference_problem`` (why
         there is none); ``target_name`` and ``catalogue_name`` label the comet's position.
@@ -161,11 +163,12 @@ def process_frame(item, shared):
                                           else "")))
     if "photometry" in stages and geometry_row is not None and frame.wcs is not None:
         try:
-            photometry = _run_photometry(frame, geometry_row, shared)
+            photometry = _run_photometry(frame, geometry_row, shared, item)
         except Exception as exc:  # noqa: BLE001
             problems.append(("photometry", _reason(exc, info)))
         else:
             photometry.comet["coma_slope_err"] = photometry.details.get("coma_slope_err", np.nan)
+            record["tracking"] = photometry.details.get("tracking")
             record.update(measurements=photometry.comet, stars=_star_rows(photometry.stars),
                           zero_point=_zero_point_row(photometry),
                           profile=frame_views.profile_rows(photometry.profile))
@@ -284,13 +287,14 @@ def _plate_solved(frame, item, shared):
         store = _reference_store(path, os.stat(path).st_mtime_ns)
         solved, _, _ = photometry_stage.solve_frame_from_store(
             frame, store, band=_band(frame, shared)[0], pixel_scale=frame.info.pixel_scale,
-            comet_position=comet, mode=mode, max_offset=options.get("max_offset", 16 * u.arcmin))
+            comet_position=comet, mode=mode, max_offset=options.get("max_offset", 16 * u.arcmin),
+            trail_length=_star_trail_length(frame, geometry, item, shared))
     except Exception as exc:  # noqa: BLE001 - the frame keeps its header WCS, if any
         return frame, f"no plate solution: {_reason(exc, frame.info)}"
     return solved, None
 
 
-def _run_photometry(frame, geometry_row, shared):
+def _run_photometry(frame, geometry_row, shared, item=None):
     path = shared.get("reference_store")
     if path is None:
         msg = (shared.get("reference_problem")
@@ -298,6 +302,7 @@ def _run_photometry(frame, geometry_row, shared):
         raise ValueError(msg)
     options = dict(shared.get("photometry", {}))
     options["band"], options["solar_band"] = _band(frame, shared)
+    options.update(_tracking_options(item or {}, shared))
     if frame.info.site is not None:
         options["site"] = frame.info.site  # the header's own site, for the airmass
     elif shared.get("site_location") is not None:
@@ -357,21 +362,53 @@ def _exposure_trails(wcs, geometry_row, frame, tracking):
                                          tracking=tracking)
 
 
-def _frame_tracking(frame, photometry, star_xy, item, shared):
-    """How this frame was tracked: the configuration, or a TRACKING header, or the stars."""
-    configured = shared.get("tracking", "sidereal")
-    if configured == "none" or not shared.get("tracking_check", True):
-        return nucleus_stage.TrackingVerdict(configured, "configuration")
-    from_header = nucleus_stage.tracking_from_header(frame.info.header)
-    if from_header is not None:
-        return nucleus_stage.TrackingVerdict(from_header, "header")
-    motion, _ = _exposure_trails(photometry.wcs or frame.wcs, item.get("geometry"), frame,
-                                 "sidereal")
-    fwhm = photometry.details.get("fwhm_pix")
-    if fwhm is None or not np.isfinite(fwhm):
-        return nucleus_stage.TrackingVerdict(configured, "configuration")
-    return nucleus_stage.tracking_from_stars(frame.data, frame.good, star_xy, motion,
-                                             fwhm_pix=float(fwhm), configured=configured)
+def _star_trail_length(frame, geometry, item, shared):
+    """The stars' trail (pixels) where the frame is known to follow the comet, else 0.
+
+    Known before the stars are measured: the night's decided mode, a TRACKING header (when
+    checks are on) or the configured mode; the length is the comet's rate × exposure over
+    the pixel scale (the plate solution needs no direction).
+    """
+    options = _tracking_options(item, shared)
+    mode = options["tracking"]
+    if options["tracking_check"]:
+        mode = nucleus_stage.tracking_from_header(frame.info.header) or mode
+    if mode != "comet" or geometry is None or "ra_rate" not in geometry.colnames:
+        return 0.0
+    scale = frame.info.pixel_scale
+    if scale is None:
+        scale = _pixel_scale_arcsec(frame.wcs)
+        if scale is None:
+            return 0.0
+        scale = scale * u.arcsec
+    rate = np.hypot(u.Quantity(geometry["ra_rate"][0]).to_value(u.arcsec / u.s),
+                    u.Quantity(geometry["dec_rate"][0]).to_value(u.arcsec / u.s))
+    length = rate * frame.info.exptime.to_value(u.s) / u.Quantity(scale).to_value(u.arcsec)
+    return float(length) if np.isfinite(length) else 0.0
+
+
+def _tracking_options(item, shared):
+    """The photometry's tracking keywords: the night's decided mode, else the configuration's.
+
+    A frame the night re-measures in its decided mode (``item["tracking"]``) keeps that mode
+    (no per-frame check).
+    """
+    forced = item.get("tracking")
+    if forced is not None:
+        return {"tracking": forced, "tracking_check": False}
+    return {"tracking": shared.get("tracking", "sidereal"),
+            "tracking_check": bool(shared.get("tracking_check", True))}
+
+
+def _frame_tracking(photometry, item, shared):
+    """How this frame was tracked, as the photometry decided it (before the stars)."""
+    if item.get("tracking") is not None:
+        return nucleus_stage.TrackingVerdict(item["tracking"], "night")
+    verdict = photometry.details.get("tracking_verdict")
+    if verdict is None:
+        return nucleus_stage.TrackingVerdict(shared.get("tracking", "sidereal"),
+                                             "configuration")
+    return verdict
 
 
 def _with_tracking_flag(row, verdict, configured):
@@ -402,7 +439,7 @@ def _run_nucleus(frame, photometry, item, shared):
     fwhm_pix = photometry.details.get("fwhm_pix")
     if fwhm_pix is not None and np.isfinite(fwhm_pix):
         psf_options.setdefault("fallback_fwhm", float(fwhm_pix))
-    tracking = _frame_tracking(frame, photometry, star_xy, item, shared)
+    tracking = _frame_tracking(photometry, item, shared)
     trails = _exposure_trails(photometry.wcs or frame.wcs, item.get("geometry"), frame,
                               tracking.mode)
     psf = nucleus_stage.measure_psf(frame, star_xy, exclude_xy=(x0, y0),

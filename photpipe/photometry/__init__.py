@@ -59,6 +59,14 @@ from .solar import *  # noqa: F401,F403
 from .solar import __all__ as _solar_all
 from .starphot import *  # noqa: F401,F403
 from .starphot import __all__ as _starphot_all
+from .tracking import *  # noqa: F401,F403
+from .tracking import __all__ as _tracking_all
+from .trailed import *  # noqa: F401,F403
+from .trailed import __all__ as _trailed_all
+from .trailed_psf import *  # noqa: F401,F403
+from .trailed_psf import __all__ as _trailed_psf_all
+from .trails import *  # noqa: F401,F403
+from .trails import __all__ as _trails_all
 from .zeropoint import *  # noqa: F401,F403
 from .zeropoint import __all__ as _zeropoint_all
 
@@ -90,5 +98,9 @@ __all__ = (
     _sky_median_all +
     _solar_all +
     _starphot_all +
+    _tracking_all +
+    _trailed_all +
+    _trailed_psf_all +
+    _trails_all +
     _zeropoint_all
 )

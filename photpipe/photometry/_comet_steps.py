@@ -50,8 +50,18 @@ class Cutout:
         return np.s_[self.y0:self.y1, self.x0:self.x1]
 
 
-def cutout(prep, det, lay, mat, zp, fwhm, opts):
-    """The comet's cutout with the detected and catalogue stars near the comet masked."""
+def _paint_trails(mask, x, y, radius, x0, y0, trail, fwhm):
+    """Discs along each star's trail (one disc when there is none)."""
+    n = max(1, int(np.ceil(np.hypot(*trail) / max(fwhm, 1.0))) + 1)
+    for t in np.linspace(-0.5, 0.5, n) if n > 1 else (0.0,):
+        _paint_discs(mask, x + t * trail[0], y + t * trail[1], radius, x0, y0)
+
+
+def cutout(prep, det, lay, mat, zp, fwhm, opts, trail=(0.0, 0.0)):
+    """The comet's cutout with the detected and catalogue stars near the comet masked.
+
+    Stars trailed by ``trail`` are masked along it (discs at steps of at most one FWHM).
+    """
     ny, nx = prep.data.shape
     x_pred, y_pred = lay.x_pred, lay.y_pred
     half = int(np.ceil(lay.ann_out)) + 2
@@ -72,9 +82,9 @@ def cutout(prep, det, lay, mat, zp, fwhm, opts):
         room = np.hypot(x - x_pred, y - y_pred) - 2.0 * fwhm
         return np.maximum(np.minimum(radius, room), 1.0 * fwhm)
 
-    _paint_discs(star_mask, sx[others], sy[others],
-                 capped(_star_mask_radius(peak_flux[others], fwhm, det.sigma), sx[others],
-                        sy[others]), x0c, y0c)
+    _paint_trails(star_mask, sx[others], sy[others],
+                  capped(_star_mask_radius(peak_flux[others], fwhm, det.sigma), sx[others],
+                         sy[others]), x0c, y0c, trail, fwhm)
     # catalogue stars near the comet that detection may have missed under the coma
     refs = prep.refs
     cx_ref, cy_ref = mat.wcs.world_to_pixel_values(refs.ra, refs.dec)
@@ -84,9 +94,9 @@ def cutout(prep, det, lay, mat, zp, fwhm, opts):
             & (np.hypot(cx_ref - x_pred, cy_ref - y_pred) > max(max_shift, 2.0 * fwhm)))
     ref_flux = prep.exptime * 10.0 ** (-0.4 * (refs.mag - zp.zp))
     bright = near & (ref_flux > 3.0 * det.sigma * fwhm)
-    _paint_discs(star_mask, cx_ref[bright], cy_ref[bright],
-                 capped(_star_mask_radius(ref_flux[bright], fwhm, det.sigma), cx_ref[bright],
-                        cy_ref[bright]), x0c, y0c)
+    _paint_trails(star_mask, cx_ref[bright], cy_ref[bright],
+                  capped(_star_mask_radius(ref_flux[bright], fwhm, det.sigma), cx_ref[bright],
+                         cy_ref[bright]), x0c, y0c, trail, fwhm)
     return Cutout(y0c, y1c, x0c, x1c, star_mask, max_shift)
 
 
@@ -138,8 +148,13 @@ class Apertures:
     yy: np.ndarray
 
 
-def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail):
-    """Sky in the annulus, the comet's sums with masked pixels filled from their rings."""
+def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail,
+                      comet_trail=(0.0, 0.0)):
+    """Sky in the annulus, the comet's sums with masked pixels filled from their rings.
+
+    The coma correction blurs the coma with the PSF trailed by the comet's own motion
+    (``comet_trail``, pixels) on frames that followed the stars.
+    """
     ny, nx = prep.data.shape
     xc, yc, ann_in, ann_out = centre.x, centre.y, lay.ann_in, lay.ann_out
     data, var = prep.data[cut.box], prep.variance[cut.box]
@@ -166,7 +181,8 @@ def measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail):
     if cal.psf_model is not None:
         coma_factor = coma_aperture_correction(lay.radii, cal.psf_model,
                                                reference_radius=stars.radii[-1],
-                                               annulus=stars.annulus, pixel=cal.psf_optical)
+                                               annulus=stars.annulus, pixel=cal.psf_optical,
+                                               trail=comet_trail)
         flux, flux_err = flux * coma_factor, flux_err * coma_factor
     else:
         coma_factor = np.ones(len(lay.radii))

@@ -11,7 +11,8 @@ __all__ = ["geometry_values", "angle_or_pixels"]
 
 #: geometry column -> unit (the photpipe.geometry contract); required ones first.
 GEOMETRY_REQUIRED = {"r_h": u.au, "delta": u.au, "phase": u.deg, "ra": u.deg, "dec": u.deg}
-GEOMETRY_OPTIONAL = {"elong": u.deg, "pa_sun": u.deg, "pa_neg_velocity": u.deg}
+GEOMETRY_OPTIONAL = {"elong": u.deg, "pa_sun": u.deg, "pa_neg_velocity": u.deg,
+                     "ra_rate": u.arcsec / u.h, "dec_rate": u.arcsec / u.h}
 
 
 def _get(row, key):

@@ -7,10 +7,12 @@ from astropy import units as u
 from astropy.table import QTable
 from scipy.spatial import cKDTree
 
-from .coma_apcorr import fit_moffat_growth, moffat_from_measured_fwhm
+from .coma_apcorr import MoffatGrowth, fit_moffat_growth, moffat_from_measured_fwhm
 from .coma_background import azimuthal_median_model
 from .detection import measure_fwhm
 from .starphot import aperture_correction, aperture_correction_error, measure_star_fluxes
+from .trailed import measure_trailed_fluxes
+from .trailed_psf import fit_trailed_moffat, measured_fwhm_of_moffat
 from .zeropoint import fit_zero_point
 
 __all__ = ["StarPhotometry", "measure_stars", "Calibration", "calibrate"]
@@ -34,6 +36,8 @@ class StarPhotometry:
     usable: np.ndarray       # bool per star: fit for the zero point
     apcorr: float
     apcorr_err: float
+    trail: tuple = (0.0, 0.0)  # the stars' trail (pixels): apertures are stadiums along it
+    psf_fit: tuple | None = None  # (alpha, beta) of the untrailed PSF, from trailed stars
 
     @property
     def annulus(self):
@@ -59,26 +63,43 @@ def _refined_fwhm(star_data, det_m, near_sat, lay, fwhm, notes):
     return fwhm
 
 
-def _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot):
+def _trailed_fwhm(star_data, prep, det_m, near_sat, lay, trail, fwhm, notes):
+    """The untrailed PSF (alpha, beta) and its measured FWHM, from stars clear of the comet."""
+    clear = (np.hypot(det_m[:, 0] - lay.x_pred, det_m[:, 1] - lay.y_pred) > lay.ann_in) \
+        & ~near_sat
+    fit = fit_trailed_moffat(star_data, prep.variance, prep.good, det_m[clear, 0],
+                             det_m[clear, 1], trail, fwhm_guess=fwhm)
+    if fit is None:
+        return None, fwhm
+    notes.details["fwhm_detections_pix"] = fwhm
+    fwhm = notes.details["fwhm_pix"] = measured_fwhm_of_moffat(*fit)
+    return fit, fwhm
+
+
+def _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot, trail=(0.0, 0.0)):
     """Stars clear of masks, neighbours, the edge and the comet, with a positive flux."""
     ny, nx = prep.data.shape
+    half = 0.5 * float(np.hypot(*trail))
     # isolation: no other detection inside the large aperture plus a FWHM
     counts = np.array([len(v) for v in cKDTree(np.column_stack([det.sx, det.sy]))
-                       .query_ball_point(det_m, r=radii[-1] + fwhm)]) \
+                       .query_ball_point(det_m, r=radii[-1] + fwhm + half)]) \
         if len(det_m) else np.zeros(0, int)
-    edge_m = ((det_m[:, 0] < 8 * fwhm) | (det_m[:, 0] > nx - 1 - 8 * fwhm)
-              | (det_m[:, 1] < 8 * fwhm) | (det_m[:, 1] > ny - 1 - 8 * fwhm))
+    reach = 8 * fwhm + half
+    edge_m = ((det_m[:, 0] < reach) | (det_m[:, 0] > nx - 1 - reach)
+              | (det_m[:, 1] < reach) | (det_m[:, 1] > ny - 1 - reach))
     far_from_comet = np.hypot(det_m[:, 0] - lay.x_pred, det_m[:, 1] - lay.y_pred) > lay.ann_in
     f_small = np.asarray(phot[f"flux_{k_phot}"], float)
     return ((np.asarray(phot["n_masked"]) == 0) & (counts <= 1) & ~edge_m & far_from_comet
             & np.isfinite(f_small) & (f_small > 0) & np.isfinite(phot["sky"]))
 
 
-def measure_stars(prep, det, mat, lay, opts, notes, fail):
+def measure_stars(prep, det, mat, lay, opts, notes, fail, trail=(0.0, 0.0)):
     """Aperture photometry of the brightest matched stars on the frame minus the coma's rings.
 
     The stars are measured with the comet's symmetric light taken out: on a small frame their
-    local annuli would otherwise miss the coma under them (see coma_background).
+    local annuli would otherwise miss the coma under them (see coma_background). Stars
+    trailed by ``trail`` (the telescope followed the comet) are measured in stadiums along it,
+    and their FWHM is that of the untrailed PSF fitted to them.
     """
     cal = opts.calibration
     # the brightest matched stars are plenty for the zero point; cap the photometry cost
@@ -86,13 +107,24 @@ def measure_stars(prep, det, mat, lay, opts, notes, fail):
     i_det, matched_ref = mat.i_det[keep_m], mat.matched_ref[keep_m]
     det_m = mat.det_xy[i_det]
     star_data = prep.data - azimuthal_median_model(prep.data, prep.good, lay.x_pred, lay.y_pred)
-    fwhm = _refined_fwhm(star_data, det_m, det.near_sat[i_det], lay, det.fwhm, notes)
+    trailed = bool(np.hypot(*trail) > 0)
+    psf_fit = None
+    if trailed:
+        psf_fit, fwhm = _trailed_fwhm(star_data, prep, det_m, det.near_sat[i_det], lay, trail,
+                                      det.fwhm, notes)
+    else:
+        fwhm = _refined_fwhm(star_data, det_m, det.near_sat[i_det], lay, det.fwhm, notes)
     radii = np.unique(np.array([1.0, cal.star_aperture_fwhm, 2.0, 3.0, 4.0]) * fwhm)
     k_phot = int(np.flatnonzero(np.isclose(radii, cal.star_aperture_fwhm * fwhm))[0])
     k_big = len(radii) - 1
-    phot = measure_star_fluxes(star_data, prep.variance, prep.bad, det_m[:, 0], det_m[:, 1],
-                               radii=radii, annulus=(5.0 * fwhm, 8.0 * fwhm))
-    usable = _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot)
+    if trailed:
+        phot = measure_trailed_fluxes(star_data, prep.variance, prep.bad, det_m[:, 0],
+                                      det_m[:, 1], trail=trail, radii=radii,
+                                      annulus=(5.0 * fwhm, 8.0 * fwhm))
+    else:
+        phot = measure_star_fluxes(star_data, prep.variance, prep.bad, det_m[:, 0],
+                                   det_m[:, 1], radii=radii, annulus=(5.0 * fwhm, 8.0 * fwhm))
+    usable = _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot, trail)
     if not np.any(usable):
         fail(prep.name, f"{len(i_det)} reference stars matched but none is usable for the zero "
                         "point (saturated, blended, masked or at the edge)")
@@ -112,11 +144,18 @@ def measure_stars(prep, det, mat, lay, opts, notes, fail):
     apcorr_err = aperture_correction_error(apcorr_scatter, n_apcorr, ratio_err)
     notes.details["aperture_correction_scatter"] = apcorr_scatter
     return StarPhotometry(det_m, matched_ref, fwhm, radii, k_phot, phot, usable, apcorr,
-                          apcorr_err)
+                          apcorr_err, tuple(trail), psf_fit)
 
 
 def _psf_from_growth(stars, notes):
-    """The Moffat fitted to the stars' curve of growth, or the fallback from the FWHM."""
+    """The Moffat fitted to the stars' curve of growth, or the fallback from the FWHM.
+
+    Trailed stars give the Moffat fitted to them with the trail in the model (their curve of
+    growth in stadiums mixes the PSF with the trail); it is the optical PSF, which the coma
+    correction integrates over the pixel.
+    """
+    if np.hypot(*stars.trail) > 0:
+        return _psf_of_trailed(stars, notes)
     f_small, f_small_err = stars.flux(stars.k_phot)
     growth = np.column_stack([stars.flux(k)[0] for k in range(len(stars.radii))])[stars.usable]
     snr = f_small[stars.usable] / f_small_err[stars.usable]
@@ -133,6 +172,22 @@ def _psf_from_growth(stars, notes):
     notes.details["psf_moffat"] = {"alpha_pix": psf_model.alpha, "beta": psf_model.beta,
                                    "fwhm_pix": float(psf_model.fwhm), "optical": optical}
     return psf_model, optical
+
+
+def _psf_of_trailed(stars, notes):
+    if stars.psf_fit is not None:
+        psf_model, reason = MoffatGrowth(*stars.psf_fit), ""
+        if not 1.5 <= psf_model.beta <= 10.0:
+            psf_model, reason = None, f"fitted beta {psf_model.beta:.2f}"
+    else:
+        psf_model, reason = None, "no trailed star could be fitted"
+    if psf_model is None:
+        psf_model = moffat_from_measured_fwhm(stars.fwhm, _FALLBACK_BETA)
+        notes.flag("psf_fallback", f"{reason}; measured FWHM {stars.fwhm:.2f} pix")
+    notes.details["psf_moffat"] = {"alpha_pix": psf_model.alpha, "beta": psf_model.beta,
+                                   "fwhm_pix": float(psf_model.fwhm), "optical": True,
+                                   "trail_pix": tuple(stars.trail)}
+    return psf_model, True
 
 
 @dataclass(frozen=True)

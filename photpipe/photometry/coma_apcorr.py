@@ -216,7 +216,25 @@ def moffat_from_measured_fwhm(fwhm, beta):
     return MoffatGrowth(moffat_alpha(true_fwhm, beta), beta)
 
 
-def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=False):
+def _trail_line(trail, step):
+    """A unit-sum segment ``trail`` (pixels) on a grid of spacing ``step``, centred."""
+    length = float(np.hypot(*trail))
+    reach = int(np.ceil(0.5 * length / step)) + 1
+    line = np.zeros((2 * reach + 1, 2 * reach + 1))
+    n = max(1, int(np.ceil(length / (0.25 * step))))
+    t = (np.arange(n) + 0.5) / n - 0.5
+    # bilinear share of each point along the segment
+    gx, gy = reach + t * trail[0] / step, reach + t * trail[1] / step
+    x0, y0 = np.floor(gx).astype(int), np.floor(gy).astype(int)
+    fx, fy = gx - x0, gy - y0
+    for dx, dy, w in ((0, 0, (1 - fx) * (1 - fy)), (1, 0, fx * (1 - fy)),
+                      (0, 1, (1 - fx) * fy), (1, 1, fx * fy)):
+        np.add.at(line, (y0 + dy, x0 + dx), w)
+    return line / line.sum()
+
+
+def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=False,
+                             trail=(0.0, 0.0)):
     """Factor that turns a PSF-blurred 1/ρ coma's aperture sum into its true flux.
 
     Parameters
@@ -233,6 +251,10 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=Fal
         ``psf`` is the optical PSF, not yet integrated over the pixels: convolve it with the
         one-pixel box first. A PSF fitted to the stars' curve of growth already holds the pixel
         (the stars' sums are of pixel-integrated light) and takes the default.
+    trail : tuple of float, optional
+        The comet's motion (dx, dy) in pixels over the exposure when the telescope followed
+        the stars: the coma is blurred by the PSF averaged along it (the stars, measured
+        untrailed, still set the magnitude scale).
 
     Returns
     -------
@@ -261,7 +283,7 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=Fal
     """
     radii = np.atleast_1d(np.asarray(radii, dtype=float))
     fwhm = psf.fwhm
-    half = float(radii.max()) + _KERNEL_FWHM * fwhm
+    half = float(radii.max()) + _KERNEL_FWHM * fwhm + 0.5 * float(np.hypot(*trail))
     step = fwhm / _SAMPLES_PER_FWHM
     step = max(step, 2.0 * half / _MAX_GRID)
     n = int(np.ceil(half / step))
@@ -272,6 +294,8 @@ def coma_aperture_correction(radii, psf, *, reference_radius, annulus, pixel=Fal
     if pixel and box > 1:
         # the detector integrates the light over each pixel: a one-pixel box on the fine grid
         kernel = fftconvolve(kernel, np.full((box, box), 1.0 / box**2), mode="same")
+    if np.hypot(*trail) >= 0.5 * step:
+        kernel = fftconvolve(kernel, _trail_line(trail, step), mode="full")
     blurred = fftconvolve(coma, kernel, mode="same")
     apertures = [CircularAperture((n, n), r=float(r) / step) for r in radii]
     with warnings.catch_warnings():

@@ -17,7 +17,7 @@ from astropy.wcs.utils import proj_plane_pixel_scales
 from photpipe.frames.instruments import pixel_scale_from_header
 from photpipe.frames.types import CalibratedFrame
 
-from .detection import detect_sources, sky_statistics
+from .detection import detect_sources, measure_fwhm_minor, sky_statistics
 from .platesolve import PlateSolveError, pointing_from_header, solve_plate
 
 __all__ = ["solve_frame", "solve_frame_from_store", "SOLVE_MODES"]
@@ -50,7 +50,8 @@ def _scale(frame, pixel_scale):
 
 
 def solve_frame(frame, reference_stars, *, band, pixel_scale=None, comet_position=None,
-                mode="always", max_offset=16 * u.arcmin, detect_binning=4, **solve_options):
+                mode="always", max_offset=16 * u.arcmin, detect_binning=4, trail_length=0.0,
+                **solve_options):
     """Solve a calibrated frame's plate and return it with the solved WCS.
 
     Parameters
@@ -70,6 +71,9 @@ def solve_frame(frame, reference_stars, *, band, pixel_scale=None, comet_positio
         Largest guess error searched.
     detect_binning : int, optional
         Binning of the detection image (only the brighter stars are needed).
+    trail_length : float, optional
+        Length (pixels) of the stars' trails on a frame that followed the comet; the stars
+        are then centred on their trails' middles (the direction need not be known).
     **solve_options
         Passed to `~photpipe.photometry.platesolve.solve_plate`.
 
@@ -106,7 +110,7 @@ def solve_frame(frame, reference_stars, *, band, pixel_scale=None, comet_positio
     if scale is None:
         msg = "no pixel scale known (give the instrument's, or PIXSCALE / XPIXSZ+FOCALLEN)"
         raise PlateSolveError(msg)
-    xy = _bright_stars(frame, detect_binning)
+    xy = _bright_stars(frame, detect_binning, trail_length=trail_length)
     ra, dec = _catalogue(reference_stars, band)
     solution = solve_plate(xy, ra, dec, guess=guess, pixel_scale=scale,
                            shape=frame.data.shape, max_offset=max_offset, **solve_options)
@@ -147,7 +151,7 @@ def solve_frame_from_store(frame, store, *, band, pixel_scale=None, comet_positi
                        mode=mode, max_offset=max_offset, **options)
 
 
-def _bright_stars(frame, binning, n_stars=150):
+def _bright_stars(frame, binning, n_stars=150, trail_length=0.0):
     data = np.asarray(frame.data, dtype=np.float32)
     variance = np.asarray(frame.variance, dtype=np.float32)
     good = frame.good & np.isfinite(variance)
@@ -160,7 +164,26 @@ def _bright_stars(frame, binning, n_stars=150):
                          max_sources=n_stars)
     # only centroided positions: a peak pixel of the binned image is off by up to a pixel
     src = src[np.asarray(src["centroided"], bool)]
-    return np.column_stack([np.asarray(src["x"], float), np.asarray(src["y"], float)])
+    x, y = np.asarray(src["x"], float), np.asarray(src["y"], float)
+    if trail_length >= 1.0 and len(x):
+        x, y = _trail_middles(data, good, x, y, float(trail_length), sky)
+    return np.column_stack([x, y])
+
+
+def _trail_middles(data, good, x, y, length, sky):
+    """Trailed stars' middles, whatever the trail's direction.
+
+    First moments in a circle reaching half the trail and 1.5 FWHM beyond, then one position
+    per trail.
+    """
+    from .trailed import merge_trail_detections, trail_centroids
+
+    fwhm = measure_fwhm_minor(data, x, y, sky=sky)
+    fwhm = fwhm if np.isfinite(fwhm) else 2.0
+    x, y = trail_centroids(data, good, x, y, (0.0, 0.0), radius=0.5 * length + 1.5 * fwhm,
+                           max_move=0.5 * length + 1.0)
+    keep = merge_trail_detections(x, y, (0.0, 0.0), radius=fwhm)
+    return x[keep], y[keep]
 
 
 def _catalogue(stars, band):

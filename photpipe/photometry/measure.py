@@ -12,6 +12,7 @@ from ._frame_steps import detect, fail, layout, match, prepare
 from ._notes import Notes
 from ._row_steps import SOLAR_COLOURS, coma_profile, comet_rows, magnitudes, row_flags
 from ._star_steps import calibrate, measure_stars
+from ._trail_steps import decide_tracking, follow_trails
 from .errors import PhotometryWarning
 from .options import MeasureOptions
 from .result import FramePhotometry
@@ -43,13 +44,17 @@ def measure_frame(frame, reference_stars, geometry_row, options=None):
     notes = Notes()
     prep = prepare(frame, reference_stars, geometry_row, opts)
     det = detect(prep, frame, opts, notes)
+    tracking = decide_tracking(prep, frame, det, opts, notes)
+    det = follow_trails(prep, det, tracking, notes)
     mat = match(prep, det, opts, notes)
     lay = layout(prep, mat.wcs, opts)
-    stars = measure_stars(prep, det, mat, lay, opts, notes, fail)
+    stars = measure_stars(prep, det, mat, lay, opts, notes, fail, trail=tracking.star_trail
+                          if tracking.stars_trailed else (0.0, 0.0))
     cal = calibrate(prep, stars, mat.wcs, opts, notes)
-    cut = cutout(prep, det, lay, mat, cal.zp, stars.fwhm, opts)
+    cut = cutout(prep, det, lay, mat, cal.zp, stars.fwhm, opts, trail=stars.trail)
     centre = find_centre(prep, det, lay, cut, stars.fwhm, opts, notes)
-    ap = measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail)
+    ap = measure_apertures(prep, lay, cut, centre, stars, cal, opts, notes, fail,
+                           comet_trail=tracking.comet_trail)
     profile, slope = coma_profile(prep, lay, ap, centre, cal.zp, stars.fwhm, mat.wcs, opts,
                                   notes)
     mags = magnitudes(prep, lay, ap, cal, opts, notes)
@@ -87,7 +92,8 @@ def measure_comet_frame(frame, reference_stars, geometry_row, **options):
         in those units.
     **options
         The fields of the option groups, by name, each described there with its default:
-        `StarOptions` (``detect_threshold, detect_binning, max_wcs_offset, wcs_shift_limit``),
+        `StarOptions` (``detect_threshold, detect_binning, max_wcs_offset, wcs_shift_limit,
+        tracking, tracking_check``),
         `CalibrationOptions` (``band, colour, fit_colour_term, comet_colour, mag_system,
         min_stars, max_zp_stars, star_aperture_fwhm, coma_correction``), `ApertureOptions`
         (``apertures_km, apertures_arcsec, annulus, sky_method, centroid_box,

@@ -28,12 +28,21 @@ class StarOptions:
         Largest header-WCS error searched when matching stars (arcsec or pix).
     wcs_shift_limit : `~astropy.units.Quantity`
         WCS corrections larger than this (at the frame corners) flag ``wcs_refined_large``.
+    tracking : {"sidereal", "comet", "none"}
+        What the telescope followed: the stars (the comet trails by its rate × exposure), the
+        comet (the stars trail, and are measured in apertures along the trail) or "none"
+        (the motion is not modelled).
+    tracking_check : bool
+        Let a ``TRACKING`` header value, else the field stars' shapes, decide the mode of
+        this frame (`~photpipe.photometry.tracking_from_stars`).
     """
 
     detect_threshold: float = 5.0
     detect_binning: int = 2
     max_wcs_offset: u.Quantity = 30 * u.arcsec
     wcs_shift_limit: u.Quantity = 3 * u.pix
+    tracking: str = "sidereal"
+    tracking_check: bool = True
 
 
 @dataclass(frozen=True)

@@ -3,9 +3,9 @@
 `render_night` writes one clean style (WCS, GAIN, RDNOISE, SATURATE, DATE-OBS with the time,
 EXPTIME). Real small observatories write others: no WCS but the pointing as sexagesimal
 strings, EXPOSURE instead of EXPTIME, the date and the time in two keywords, no detector
-values, an overscan strip beside the image, ``.fit`` or ``.fz`` files. `restyle_night` copies a
-rendered night into such a style, pixel for pixel the same exposure, so the reductions of both
-can be compared number for number.
+values, an overscan strip beside the image, ``.fit`` or ``.fz`` files, a ``TRACKING`` card
+on a night that followed the comet. `restyle_night` copies a rendered night into such a style,
+pixel for pixel the same exposure, so the reductions of both can be compared number for number.
 """
 
 import gzip
@@ -88,6 +88,10 @@ HEADER_STYLES = {
     "pointing-degrees": HeaderStyle(
         name="pointing-degrees", drop_wcs=True, pointing=("RA", "DEC"),
         pointing_error_arcmin=12.0, ending=".fts"),
+    # a night rendered with ScienceExposure(tracking="comet"): the observatory says so in
+    # every header, or (the unmarked variant) says nothing and the stars must tell
+    "comet-tracked": HeaderStyle(name="comet-tracked", extra=(("TRACKING", "NON-SIDEREAL"),)),
+    "comet-tracked-unmarked": HeaderStyle(name="comet-tracked-unmarked", drop=("TRACKING",)),
 }
 
 _KIND_OF = {"bias frame": "bias", "dark frame": "dark", "flat field": "flat",

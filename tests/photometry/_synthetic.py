@@ -43,7 +43,8 @@ def make_synthetic(*, shape=(640, 640), pixel_scale=1.0 * u.arcsec, afrho=150 * 
                    n_stars=150, mag_range=(12.5, 18.5), zero_point=25.0, exptime=60 * u.s,
                    sky_rate=5.0 * u.electron / u.s, fwhm=2.5 * u.arcsec, wcs_offset_pix=(0, 0),
                    wcs_rotation=0 * u.deg, comet_offset_arcsec=(0.0, 0.0), read_noise=8.0,
-                   seed=11, header_rotation=None, extra_stars=None):
+                   seed=11, header_rotation=None, extra_stars=None, tracking="sidereal",
+                   rate=(0.0, 0.0) * u.arcsec / u.h, header_extra=None):
     rng = np.random.default_rng(seed)
     inst = Instrument(shape=shape, pixel_scale=pixel_scale, hot_pixel_fraction=0.0,
                       dead_pixel_fraction=0.0, read_noise=read_noise * u.electron)
@@ -61,14 +62,16 @@ def make_synthetic(*, shape=(640, 640), pixel_scale=1.0 * u.arcsec, afrho=150 * 
     comet = None
     if afrho is not None or nucleus_mag is not None:
         comet = CometSpec(ra=comet_pos.ra, dec=comet_pos.dec, nucleus_mag=nucleus_mag,
-                          afrho=afrho, r_h=r_h, delta=delta, m_sun=-27.15)
+                          afrho=afrho, r_h=r_h, delta=delta, m_sun=-27.15, ra_rate=rate[0],
+                          dec_rate=rate[1])
     scene = SceneSpec(pointing=POINTING, stars=stars, comet=comet, filter="R",
                       zero_point=zero_point, sky_rate=sky_rate, seeing=Seeing(fwhm=fwhm),
-                      wcs_rotation=wcs_rotation)
+                      wcs_rotation=wcs_rotation, tracking=tracking)
     hdul, truth = render_frame("science", inst, time=Time("2026-11-30T04:00:00"),
                                exptime=exptime, scene=scene,
                                detector=DetectorSpec(cosmic_rays=False),
-                               header=HeaderSpec(wcs_offset_pix=wcs_offset_pix), rng=rng)
+                               header=HeaderSpec(wcs_offset_pix=wcs_offset_pix,
+                                                 extra=header_extra), rng=rng)
     header = hdul[0].header
     if header_rotation is not None:
         # write a header WCS rotated with respect to the true one (a small pointing-model error)
@@ -88,7 +91,8 @@ def make_synthetic(*, shape=(640, 640), pixel_scale=1.0 * u.arcsec, afrho=150 * 
                             quality=quality, wcs=WCS(header))
     geometry = {"r_h": r_h, "delta": delta, "phase": phase, "elong": 95.0 * u.deg,
                 "ra": comet_pos.ra.to(u.deg), "dec": comet_pos.dec.to(u.deg),
-                "pa_sun": 250.0 * u.deg, "pa_neg_velocity": 120.0 * u.deg}
+                "pa_sun": 250.0 * u.deg, "pa_neg_velocity": 120.0 * u.deg,
+                "ra_rate": rate[0].to(u.arcsec / u.h), "dec_rate": rate[1].to(u.arcsec / u.h)}
     return Synthetic(frame=frame, stars=stars, geometry=geometry, truth=truth, instrument=inst)
 
 
