@@ -1,4 +1,4 @@
-"""Benchmark of the batch run: one synthetic night end to end with 1 and 2 worker processes.
+"""Benchmark of the batch run: one synthetic night end to end, in one process and on workers.
 
     python benchmarks/campaign.py                 # 200-frame nights of 1024x1024 and 2048x2048
     python benchmarks/campaign.py --frames 16     # a quick run
@@ -6,14 +6,15 @@
 
 Renders a night of the invented demo comet with photpipe.scenario, then runs the whole pipeline
 (masters, geometry, calibration, photometry, nucleus fit, store, exports, campaign stages) on it
-with one and with two local Dask workers. Prints, for each: seconds per frame end to end; the
-frame phase (first task handed out to last result stored) against its floor, the frame tasks' own
-time divided by the workers; the parent's serial time (start-up, masters, geometry, exports,
-campaign stages), which does not shrink with workers; the share of a core each task got (CPU
-time / wall time in the worker: below 1 means it waited for a core other work held); and the peak
-memory of each worker (goal: a few frames, not the night). Then the speed-up end to end and of the
-frame phase (goal >= 1.8 on 2 cores), and the machine's own ceiling: the same runner, already
-started, on a pure-numpy task. Numbers are noisy when other work shares the CPU.
+in one process, and with one and two local Dask workers. Prints, for each: seconds per frame end
+to end; the frame phase (first task handed out to last result stored) against its floor, the
+frame tasks' own time divided by the workers; the parent's serial time by phase (inventories,
+masters, geometry, waiting for the workers, night tables, campaign steps), which does not
+shrink with workers; the share of a core each task got (CPU time / wall time in the worker:
+below 1 means it waited for a core other work held); and the peak memory of each worker (goal:
+a few frames, not the night). Then the speed-up end to end and of the frame phase (goal >= 1.8
+on 2 cores), and the machine's own ceiling: the same runner, already started, on a pure-numpy
+task. Numbers are noisy when other work shares the CPU.
 """
 
 import argparse
@@ -126,15 +127,19 @@ def report(summary, workers, frame_mb, raw):
     """Print one run's figures."""
     n = max(summary.measured, 1)
     frames = summary.phase_seconds.get("frames", np.nan)
-    floor = sum(summary.task_seconds) / workers
+    floor = sum(summary.task_seconds) / max(workers, 1)
     wall, cpu = sum(summary.task_seconds), sum(summary.task_cpu_seconds)
-    print(f"{workers} worker(s): {summary.seconds:.1f} s for {summary.measured} frames = "
+    where = "in one process" if workers == 0 else f"{workers} worker(s)"
+    print(f"{where}: {summary.seconds:.1f} s for {summary.measured} frames = "
           f"{summary.seconds / n:.2f} s/frame end to end; frame phase {frames:.1f} s = "
           f"{frames / n:.2f} s/frame, floor (task time / workers) {floor:.1f} s, ratio to "
           f"floor {frames / max(floor, 1e-9):.2f}")
-    print(f"   serial part {summary.seconds - frames:.1f} s (of which workers start "
-          f"{summary.phase_seconds.get('workers start', 0.0):.1f} s); task {wall / n:.2f} s "
-          f"wall, {cpu / n:.2f} s CPU per frame (share of a core {cpu / max(wall, 1e-9):.2f})")
+    parts = ", ".join(f"{k} {v:.1f}" for k, v in summary.phase_seconds.items()
+                      if k not in ("frames", "workers start"))
+    print(f"   serial part {summary.seconds - frames:.1f} s ({parts}; the workers' start "
+          f"{summary.phase_seconds.get('workers start', 0.0):.1f} s runs beside the masters); "
+          f"task {wall / n:.2f} s wall, {cpu / n:.2f} s CPU per frame (share of a core "
+          f"{cpu / max(wall, 1e-9):.2f})")
     print(f"   sent to workers {summary.bytes_to_workers / n / 1024:.0f} kB per frame, back "
           f"{summary.bytes_from_workers / n / 1024:.0f} kB per frame (workers read and write "
           "the frames themselves)")
@@ -169,7 +174,7 @@ def one_size(args, size):
             [(_, baseline)] = list(runner.map(imports_peak_mb, [0]))
         print(f"a worker with the stages imported, before any frame: {baseline:.0f} MB")
         results = {}
-        for workers in (1, 2):
+        for workers in (0, 1, 2):
             folder = tmp / f"w{workers}"
             folder.mkdir()
             config = write_config(folder, raw)
@@ -194,12 +199,15 @@ def main(argv=None):
     for size, results in by_size.items():
         n = max(results[1].measured, 1)
         speedup = results[1].seconds / results[2].seconds
+        alone = results[0].seconds / n
         frames = {w: results[w].phase_seconds.get("frames", np.nan) for w in (1, 2)}
         frame_speedup = frames[1] / frames[2]
         serial = {w: results[w].seconds - frames[w] for w in (1, 2)}
         peaks = [mb for w in (1, 2) for mb in results[w].worker_peak_mb.values()]
-        print(f"{size}x{size}: {results[1].seconds / n:.2f} / {results[2].seconds / n:.2f} "
-              f"s/frame end to end (1 / 2 workers), serial {serial[1]:.1f} / {serial[2]:.1f} s; "
+        print(f"{size}x{size}: {alone:.2f} / {results[1].seconds / n:.2f} / "
+              f"{results[2].seconds / n:.2f} s/frame end to end (one process / 1 / 2 workers; "
+              f"2 workers {'not ' if results[2].seconds <= results[0].seconds else ''}slower "
+              f"than one process), serial {serial[1]:.1f} / {serial[2]:.1f} s; "
               f"speed-up end to end {speedup:.2f}, frame phase {frame_speedup:.2f} = "
               f"{frame_speedup / ceiling:.2f} of the ceiling (goal >= 0.9); peak memory per "
               f"worker {max(peaks, default=np.nan):.0f} MB (goal < 600)")

@@ -1,9 +1,10 @@
 """One night of a batch run: read, plan, calibrate and measure, store, export.
 
-`NightRun.run` reads like the plan: take the night's files, name the frames, plan the
-calibrations, pick the science frames not yet measured, build the masters, compute the geometry
-once for the night, hand one task per frame to the runner, store each result as it comes back,
-and export the night's tables.
+`NightRun.nights` reads like the plan: for every night take its files, name the frames, plan
+the calibrations and pick the science frames not yet measured; then build all the nights'
+masters (in parallel tasks when there are several, while the workers start); then for each night
+compute the geometry once, hand one task per frame to the runner, store each result as it comes
+back, and export the night's tables. Each part's seconds go into the run's ``phase_seconds``.
 """
 
 import logging
@@ -26,7 +27,8 @@ from .runner import TaskError
 from .summary import NightSummary
 from .tasks import process_frame
 
-__all__ = ["NightRun", "night_name", "NIGHT_TABLES", "TrackingVote", "night_tracking_vote"]
+__all__ = ["NightRun", "night_name", "night_masters", "NIGHT_TABLES", "TrackingVote",
+           "night_tracking_vote"]
 
 log = logging.getLogger("photpipe.campaign")
 
@@ -55,6 +57,11 @@ def night_name(night):
         if any(ch in part for ch in "*?["):
             return parts[i - 1] if i > 0 else path
     return os.path.basename(path)
+
+
+def night_masters(item):
+    """Build one night's master calibrations: a task of ``plan``, ``folder`` and ``options``."""
+    return frames.build_masters(item["plan"], item["folder"], **item["options"])
 
 
 @dataclass(frozen=True)
@@ -193,13 +200,36 @@ class NightRun:
 
     # -- the plan ----------------------------------------------------------------------------
 
+    def nights(self, entries):
+        """Reduce the ``[[night]]`` entries: all inventories, then all masters, then the frames.
+
+        The masters of several nights are built at once, as parallel tasks on the runner (one
+        night's in this process while the workers start); then each night's frames are measured
+        and its tables exported.
+        """
+        prepared = [self._prepare(entry) for entry in entries]
+        todo = [p for p in prepared if p is not None and p["todo"]]
+        masters = self._all_masters(todo)
+        for p in prepared:
+            if p is None:
+                continue
+            if p["todo"] and p["night"].name in masters:
+                self._measure(p["entry"], p["night"], masters[p["night"].name], p["todo"],
+                              p["keys"], p["hashes"])
+            self._export(p["night"])
+
     def night(self, entry):
         """Reduce one ``[[night]]`` entry; its counts go into the run's summary."""
+        self.nights([entry])
+
+    def _prepare(self, entry):
+        """Read a night's headers, claim its files, plan its calibrations, pick its frames."""
+        started = time.perf_counter()
         night = NightSummary(name=night_name(entry), folder=entry["path"])
         self.run.summary.nights.append(night)
         inventory = self._inventory(entry, night)
         if inventory is None:
-            return
+            return None
         keys = frame_keys(inventory.frames)
         hashes = {info.path: file_sha256(info.path) for info in inventory.frames}
         same = self._claim(night, inventory, keys, hashes)
@@ -209,9 +239,13 @@ class NightRun:
         for s in plan.skipped:
             self.skip(night, keys.get(s.item, s.item), s.stage, s.reason)
         todo = self._to_measure(night, plan, keys, hashes, same)
-        if todo:
-            self._measure(entry, night, plan, todo, keys, hashes)
-        self._export(night)
+        self._phase("inventories", started)
+        return {"entry": entry, "night": night, "plan": plan, "todo": todo, "keys": keys,
+                "hashes": hashes}
+
+    def _phase(self, name, started):
+        phases = self.run.summary.phase_seconds
+        phases[name] = phases.get(name, 0.0) + time.perf_counter() - started
 
     def skip(self, night, item, stage, reason):
         """Record that ``item`` of ``night`` could not pass ``stage``, and why."""
@@ -312,10 +346,39 @@ class NightRun:
                           "again)")
         return todo
 
-    def _masters(self, night, plan):
-        folder = self.run.results / night.name / "masters"
-        masters = frames.build_masters(plan, folder,
-                                       **self.run.settings.frames.master_options())
+    def _all_masters(self, prepared):
+        """Master calibrations of the prepared nights (night name -> MasterSet).
+
+        The workers start first (`TaskRunner.start_soon`); one night's masters are built here
+        meanwhile, several nights' as parallel tasks, one per night.
+        """
+        if not prepared:
+            return {}
+        self.run.runner.start_soon()
+        started = time.perf_counter()
+        options = self.run.settings.frames.master_options()
+        items = [{"night": p["night"].name, "plan": p["plan"], "options": options,
+                  "folder": str(self.run.results / p["night"].name / "masters")}
+                 for p in prepared]
+        if len(items) == 1:
+            results = [(items[0], night_masters(items[0]))]
+        else:
+            self.run.runner.open()
+            results = self.run.runner.map(night_masters, items, desc="masters",
+                                          label=lambda it: f"{it['night']} masters")
+        nights = {p["night"].name: p["night"] for p in prepared}
+        out = {}
+        for item, masters in results:
+            night = nights[item["night"]]
+            if isinstance(masters, TaskError):
+                self.skip(night, night.folder, "masters", str(masters))
+                continue
+            out[night.name] = masters
+            self._keep_masters(night, masters)
+        self._phase("masters", started)
+        return out
+
+    def _keep_masters(self, night, masters):
         for s in masters.skipped:
             self.skip(night, s.item, s.stage, s.reason)
         self.run.store.add_calibrations(
@@ -323,7 +386,6 @@ class NightRun:
              "filter": str(m.key[3]) if m.kind == "flat" else None,
              "exptime_s": m.key[3] / 1000.0 if m.kind == "dark" else None}
             for m in masters.masters)
-        return masters
 
     def _geometry(self, entry, night, todo):
         site = self.run.settings.sites.get(entry.get("site"))
@@ -355,10 +417,8 @@ class NightRun:
                 "plate_solve": {"mode": settings.photometry.plate_solve,
                                 "max_offset": settings.photometry.plate_max_offset}}
 
-    def _measure(self, entry, night, plan, todo, keys, hashes):
-        # the worker processes start while the masters are built (serial work in this process)
-        self.run.runner.start_soon()
-        masters = self._masters(night, plan)
+    def _measure(self, entry, night, masters, todo, keys, hashes):
+        started = time.perf_counter()
         site, geometry, problem = self._geometry(entry, night, todo)
         calibrated = self.run.results / night.name / "calibrated"
         items = [{"night": night.name, "frame": keys[info.path], "site": entry.get("site"),
@@ -366,7 +426,10 @@ class NightRun:
                   "geometry_problem": problem,
                   "calibrated_path": str(calibrated / calibrated_name(keys[info.path]))}
                  for info, row in zip(todo, geometry)]
+        self._phase("geometry", started)
+        started = time.perf_counter()
         self.run.runner.open()
+        self._phase("waiting for workers", started)
         started = time.perf_counter()
         shared = self._shared(masters, site)
         verdicts = {}
@@ -381,8 +444,7 @@ class NightRun:
                     process_frame, again, shared=shared, desc=f"{night.name} again",
                     label=lambda it: f"{it['night']}/{it['frame']}"):
                 self._store(night, item["frame"], result, again=True)
-        phases = self.run.summary.phase_seconds
-        phases["frames"] = phases.get("frames", 0.0) + time.perf_counter() - started
+        self._phase("frames", started)
 
     def _tracking_vote(self, night, todo, items, verdicts):
         """The frames to measure again in their night's tracking mode (per camera).
@@ -449,6 +511,7 @@ class NightRun:
             log.info("%s/%s: nucleus images not kept (%s)", night.name, frame, exc)
 
     def _export(self, night):
+        started = time.perf_counter()
         folder = self.run.results / night.name
         for table in NIGHT_TABLES:
             data = self.run.store.export_table(table, night=night.name)
@@ -461,6 +524,7 @@ class NightRun:
         from .astrometry_files import write_night_positions
 
         night.outputs.extend(write_night_positions(self.run.store, folder, night.name))
+        self._phase("night tables", started)
 
 
 def _move_file(old, new):

@@ -240,9 +240,10 @@ def run_campaign(config, *, workers=None, scheduler=None, rerun=False, progress=
         say(f"run {run_id}: {len(config['night'])} night(s), tasks on {runner.description}")
         nights = NightRun(run)
         with runner:
-            for entry in config["night"]:
-                nights.night(entry)
+            nights.nights(config["night"])
+        campaign_started = time.perf_counter()
         run.campaign()
+        summary.phase_seconds["campaign steps"] = time.perf_counter() - campaign_started
         status = "completed"
     except KeyboardInterrupt:
         status = "interrupted"

@@ -14,6 +14,7 @@ process dies, and is a different code path from a remote cluster. ``LocalCluster
 a nanny that replaces a crashed worker, and the very path a cluster user takes.
 """
 
+import importlib
 import logging
 import os
 import pickle
@@ -269,6 +270,9 @@ class TaskRunner:
                                          processes=True, dashboard_address=":0",
                                          silence_logs=logging.ERROR)
             self._client = Client(self._cluster)
+        # the frame stages imported in every worker now (~2 s of CPU each), while the caller
+        # builds the masters, rather than inside each worker's first frame task
+        self._client.run(importlib.import_module, _WARM_MODULE)
 
     def close(self):
         """Close the client and the local cluster it started."""
@@ -379,6 +383,10 @@ class TaskRunner:
         if outcome.details:
             log.debug("%s: worker traceback\n%s", name, outcome.details)
         return error
+
+
+#: The module every local worker imports as soon as it has started: the frame tasks' stages.
+_WARM_MODULE = "photpipe.campaign.tasks"
 
 
 def _dask_message(exc):

@@ -283,15 +283,24 @@ def _plate_solved(frame, item, shared):
 
         comet = SkyCoord(u.Quantity(geometry["ra"][0], u.deg), u.Quantity(geometry["dec"][0],
                                                                           u.deg))
-    try:
-        store = _reference_store(path, os.stat(path).st_mtime_ns)
-        solved, _, _ = photometry_stage.solve_frame_from_store(
-            frame, store, band=_band(frame, shared)[0], pixel_scale=frame.info.pixel_scale,
-            comet_position=comet, mode=mode, max_offset=options.get("max_offset", 16 * u.arcmin),
-            trail_length=_star_trail_length(frame, geometry, item, shared))
-    except Exception as exc:  # noqa: BLE001 - the frame keeps its header WCS, if any
-        return frame, f"no plate solution: {_reason(exc, frame.info)}"
-    return solved, None
+    known = _star_trail_length(frame, geometry, item, shared)
+    # the stars may trail though nothing said so yet (the stars' shapes decide later): a
+    # failed solution is tried once more with the trail the comet's rate would give them
+    lengths = [known] if known or item.get("tracking") else [0.0, _star_trail_length(
+        frame, geometry, {"tracking": "comet"}, shared)]
+    for i, length in enumerate(lengths):
+        try:
+            store = _reference_store(path, os.stat(path).st_mtime_ns)
+            solved, _, _ = photometry_stage.solve_frame_from_store(
+                frame, store, band=_band(frame, shared)[0], pixel_scale=frame.info.pixel_scale,
+                comet_position=comet, mode=mode,
+                max_offset=options.get("max_offset", 16 * u.arcmin), trail_length=length)
+        except Exception as exc:  # noqa: BLE001 - the frame keeps its header WCS, if any
+            if i + 1 < len(lengths) and lengths[i + 1] >= 2.0:
+                continue
+            return frame, f"no plate solution: {_reason(exc, frame.info)}"
+        return solved, None
+    return frame, None
 
 
 def _run_photometry(frame, geometry_row, shared, item=None):

@@ -226,10 +226,11 @@ NUCLEUS = Section("nucleus", (
         "limit", low=0.0),
     Key("profile", "boolean", True, "also fit the 1-D radial profile as a check"),
     Key("tracking", "text", "sidereal", '"sidereal": the comet trails; "comet": the stars '
-        "trail (the orbit's rate times the exposure); \"none\": motion not modelled",
-        choices=("sidereal", "comet", "none")),
+        "trail (the orbit's rate times the exposure; the photometry measures them along it); "
+        '"none": motion not modelled', choices=("sidereal", "comet", "none")),
     Key("tracking_check", "boolean", True, "let a TRACKING header value, else the field stars' "
-        "shapes, override `tracking` frame by frame where they decide"),
+        "shapes, override `tracking` frame by frame where they decide; the frames of a night "
+        "then share the mode most of them give, unless a frame's own evidence is strong"),
     Key("psf_cutout_pix", "integer", 25, "side of the star stamps of the PSF", unit="pix",
         low=3, low_open=False),
     Key("psf_min_stars", "integer", 5, "fewest stars for a measured PSF", low=1,

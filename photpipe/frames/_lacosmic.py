@@ -15,6 +15,9 @@ Written here from the paper, with the frame's own variance plane as the noise mo
 4. Neighbours of hits are added where ``S' > sigclip``, then their neighbours where
    ``S' > sigfrac * sigclip`` (the paper's growth step).
 5. Hits are replaced by the mean of their unflagged 5x5 neighbours and the next pass starts.
+   Only the replaced pixels changed, so a later pass searches only the 32x32 blocks within 6
+   pixels of them, each cut with an 8-pixel margin (`_detect_near`); it finds there what the
+   whole frame would give, and elsewhere the whole frame would give the hits already flagged.
 
 Bad pixels are filled the same way before the first pass, so their edges are not taken for hits.
 
@@ -151,8 +154,101 @@ def _median_of(values, usable, default):
     return get
 
 
+def _detect(image, var, good, opts, buffers):
+    """One pass of steps 2-4 on arrays of one frame or mosaic: the hit pixels found (ys, xs)."""
+    sigclip, sigfrac, objlim = opts
+    noise = separable_median(var, 5, buffers=buffers)
+    np.sqrt(np.maximum(noise, _NOISE_FLOOR, out=noise), out=noise)
+    sp = _clipped_laplacian(image)
+    sp /= 2.0 * noise
+    smooth = separable_median(sp, 5, buffers=buffers)
+    sp -= smooth
+    buffers.give(smooth)
+    ys, xs = np.nonzero(sp > sigclip)
+    ys, xs = ys[good[ys, xs]], xs[good[ys, xs]]
+    if len(ys):
+        fine = _fine_structure(image, ys, xs) / noise[ys, xs]
+        fine = np.maximum(fine, _FINE_FLOOR)
+        keep = sp[ys, xs] / fine > objlim
+        ys, xs = ys[keep], xs[keep]
+    buffers.give(noise)
+    ys, xs = _grown(ys, xs, image.shape, lambda y, x: good[y, x] & (sp[y, x] > sigclip))
+    return _grown(ys, xs, image.shape, lambda y, x: good[y, x] & (sp[y, x] > sigfrac * sigclip))
+
+
+#: Later passes are worked in blocks of `_BLOCK` x `_BLOCK` pixels about the pixels the previous
+#: pass changed, each cut with a margin of `_MARGIN`: a pixel's hit decision reads the image
+#: within 6 pixels (Laplacian 1, two 5x5 medians 2 + 2, growth 2) and the 9x9 fine structure, so
+#: pixels `_MARGIN` inside a cut are decided exactly as on the whole frame, and a decision can
+#: change only within `_REACH` of a changed pixel.
+_BLOCK = 32
+_MARGIN = 8
+_REACH = 6
+
+
+def _blocks_near(changed, shape):
+    """Block indices (by, bx) within `_REACH` of the changed pixels (ys, xs)."""
+    ys, xs = changed
+    found = set()
+    for dy in (-_REACH, _REACH):
+        for dx in (-_REACH, _REACH):
+            by = np.clip(ys + dy, 0, shape[0] - 1) // _BLOCK
+            bx = np.clip(xs + dx, 0, shape[1] - 1) // _BLOCK
+            found.update(zip(by.tolist(), bx.tolist()))
+    return sorted(found)
+
+
+def _detect_near(image, var, good, changed, opts, buffers):
+    """`_detect` on the blocks about ``changed``: the same hits there as on the whole frame.
+
+    Blocks whose cut stays inside the frame are laid side by side in one mosaic and searched
+    at once (neighbours in the mosaic touch only each other's margins); a cut that reaches the
+    frame's edge is searched alone, clipped there, so its edge is handled as the frame's.
+    """
+    ny, nx = image.shape
+    side = _BLOCK + 2 * _MARGIN
+    inner, edge = [], []
+    for by, bx in _blocks_near(changed, image.shape):
+        y0, x0 = by * _BLOCK, bx * _BLOCK
+        y1, x1 = min(y0 + _BLOCK, ny), min(x0 + _BLOCK, nx)
+        cut = (y0 - _MARGIN, y1 + _MARGIN, x0 - _MARGIN, x1 + _MARGIN)
+        inside = cut[0] >= 0 and cut[2] >= 0 and cut[1] <= ny and cut[3] <= nx
+        (inner if inside and y1 - y0 == x1 - x0 == _BLOCK else edge).append((y0, y1, x0, x1))
+    found = []
+    if inner:
+        per_row = int(np.ceil(np.sqrt(len(inner))))
+        rows = int(np.ceil(len(inner) / per_row))
+        shape = (rows * side, per_row * side)
+        m_image, m_var = np.zeros(shape, image.dtype), np.ones(shape, var.dtype)
+        m_good = np.zeros(shape, bool)
+        places = []
+        for k, (y0, y1, x0, x1) in enumerate(inner):
+            my, mx = (k // per_row) * side, (k % per_row) * side
+            src = (slice(y0 - _MARGIN, y1 + _MARGIN), slice(x0 - _MARGIN, x1 + _MARGIN))
+            dst = (slice(my, my + side), slice(mx, mx + side))
+            m_image[dst], m_var[dst], m_good[dst] = image[src], var[src], good[src]
+            places.append((my, mx, y0, x0))
+        ys, xs = _detect(m_image, m_var, m_good, opts, buffers)
+        for my, mx, y0, x0 in places:
+            sel = ((ys >= my + _MARGIN) & (ys < my + _MARGIN + _BLOCK)
+                   & (xs >= mx + _MARGIN) & (xs < mx + _MARGIN + _BLOCK))
+            found.append((ys[sel] - my - _MARGIN + y0, xs[sel] - mx - _MARGIN + x0))
+    for y0, y1, x0, x1 in edge:
+        a0, a1 = max(y0 - _MARGIN, 0), min(y1 + _MARGIN, ny)
+        b0, b1 = max(x0 - _MARGIN, 0), min(x1 + _MARGIN, nx)
+        sub = (slice(a0, a1), slice(b0, b1))
+        ys, xs = _detect(image[sub], var[sub], good[sub], opts, Buffers())
+        ys, xs = ys + a0, xs + b0
+        sel = (ys >= y0) & (ys < y1) & (xs >= x0) & (xs < x1)
+        found.append((ys[sel], xs[sel]))
+    if not found:
+        return np.zeros(0, int), np.zeros(0, int)
+    return (np.concatenate([f[0] for f in found]).astype(int),
+            np.concatenate([f[1] for f in found]).astype(int))
+
+
 def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5.0, niter=4,
-                      overwrite_input=False):
+                      overwrite_input=False, local_passes=True):
     """Boolean mask of cosmic-ray hits by L.A.Cosmic.
 
     Parameters
@@ -174,6 +270,10 @@ def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5
     overwrite_input : bool, optional
         Work in ``data`` and ``variance`` themselves (float32 arrays the caller no longer
         needs: hits and bad pixels are replaced in them) instead of in copies.
+    local_passes : bool, optional
+        Search the passes after the first only about the pixels the previous pass replaced
+        (the rest of the frame is unchanged, so it would give the hits it gave); False searches
+        the whole frame every pass (the same mask, slower).
 
     Returns
     -------
@@ -192,29 +292,20 @@ def laplacian_cosmics(data, variance, bad, *, sigclip=4.5, sigfrac=0.3, objlim=5
         _replace_hits(image, where, good, fallback_image)
         _replace_hits(var, where, good, fallback_var)
     buffers = Buffers()     # the medians' work arrays, allocated once for all passes
+    opts = (sigclip, sigfrac, objlim)
+    changed = None
     for _ in range(int(niter)):
-        noise = separable_median(var, 5, buffers=buffers)
-        np.sqrt(np.maximum(noise, _NOISE_FLOOR, out=noise), out=noise)
-        sp = _clipped_laplacian(image)
-        sp /= 2.0 * noise
-        smooth = separable_median(sp, 5, buffers=buffers)
-        sp -= smooth
-        buffers.give(smooth)
-        ys, xs = np.nonzero(sp > sigclip)
-        ys, xs = ys[good[ys, xs]], xs[good[ys, xs]]
-        if len(ys):
-            fine = _fine_structure(image, ys, xs) / noise[ys, xs]
-            fine = np.maximum(fine, _FINE_FLOOR)
-            keep = sp[ys, xs] / fine > objlim
-            ys, xs = ys[keep], xs[keep]
-        buffers.give(noise)
-        ys, xs = _grown(ys, xs, image.shape, lambda y, x: good[y, x] & (sp[y, x] > sigclip))
-        ys, xs = _grown(ys, xs, image.shape,
-                        lambda y, x: good[y, x] & (sp[y, x] > sigfrac * sigclip))
+        if changed is None or not local_passes:
+            ys, xs = _detect(image, var, good, opts, buffers)
+        else:
+            ys, xs = _detect_near(image, var, good, changed, opts, buffers)
         if hits[ys, xs].all():
             break
         hits[ys, xs] = True
         where = np.nonzero(hits)
+        before = image[where], var[where]
         _replace_hits(image, where, good & ~hits, fallback_image)
         _replace_hits(var, where, good & ~hits, fallback_var)
+        moved = (image[where] != before[0]) | (var[where] != before[1])
+        changed = (where[0][moved], where[1][moved])
     return hits

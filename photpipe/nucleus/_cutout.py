@@ -19,15 +19,19 @@ class Cutout:
     x_origin: int
     y_origin: int
     flags: tuple
+    masked_star_xy: tuple = ()
 
 
-def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius):
+def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius,
+                  wing_radius=0.0):
     """Box of ``size`` pixels centred on the pixel nearest (x0, y0), padded off the frame.
 
     Pixels off the frame, with quality bits, non-finite values or non-positive variance are
     masked; so are discs of ``star_radius`` around field stars farther than ``keep_radius`` from
     the nucleus (nearer ones cannot be masked without losing the nucleus: flag
-    ``star_near_nucleus``).
+    ``star_near_nucleus``). The box positions of the stars whose disc or whose wings (within
+    ``wing_radius``) reach the box are kept (``masked_star_xy``): their light past the disc is
+    modelled by the fit.
     """
     ny, nx = frame.data.shape
     half = size // 2
@@ -39,6 +43,7 @@ def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius
     fx0, fx1 = max(xa, 0), min(xa + size, nx)
     fy0, fy1 = max(ya, 0), min(ya + size, ny)
     flags = []
+    masked = []
     if fx1 <= fx0 or fy1 <= fy0:
         msg = f"frame {frame.name!r}: nucleus position ({x0:.1f}, {y0:.1f}) is off the frame"
         raise ValueError(msg)
@@ -64,6 +69,9 @@ def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius
             lx, ly = sx - xa, sy - ya
             if -star_radius < lx < size + star_radius and -star_radius < ly < size + star_radius:
                 good &= np.hypot(xx - lx, yy - ly) >= star_radius
+            reach = max(star_radius, wing_radius)
+            if -reach < lx < size + reach and -reach < ly < size + reach:
+                masked.append((float(lx), float(ly)))
     data = np.where(good, data, 0.0)
     var = np.where(good, var, 1.0)
-    return Cutout(data, var, good, xa, ya, tuple(dict.fromkeys(flags)))
+    return Cutout(data, var, good, xa, ya, tuple(dict.fromkeys(flags)), tuple(masked))

@@ -10,8 +10,8 @@ from dataclasses import replace
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["find_peak", "find_residual_sources", "core_bad_share", "psf_shape_error",
-           "trail_from_rate"]
+__all__ = ["find_peak", "find_residual_sources", "refine_source", "core_bad_share",
+           "psf_shape_error", "trail_from_rate"]
 
 
 def trail_from_rate(rate_xy, exptime_s):
@@ -88,6 +88,42 @@ def find_residual_sources(resid_norm, good, x0, y0, *, fwhm, threshold=5.0, keep
         out.append((x + _vertex(filt, y, x, axis=1), y + _vertex(filt, y, x, axis=0),
                     float(filt[y, x])))
     return sorted(out, key=lambda t: -t[2])
+
+
+def refine_source(resid, sigma, good, x, y, psf, *, radius):
+    """Position of a point source in a residual image, refined by a small PSF fit.
+
+    The residual (data - a model without the source, electrons) within ``radius`` of the
+    found (x, y) is fitted by flux × PSF + a constant, the position varied by least squares
+    (at most 1 pixel from the start). A source found on the matched-filtered residual is off
+    by a few tenths of a pixel in noise; fitted at that position, a star 2-5 FWHM from the
+    nucleus leaves a dipole that the nucleus and coma partly take up. Returns (x, y); the
+    start when the fit fails.
+    """
+    from scipy.optimize import least_squares
+
+    ny, nx = resid.shape
+    x0, x1 = max(int(np.floor(x - radius)), 0), min(int(np.ceil(x + radius)) + 1, nx)
+    y0, y1 = max(int(np.floor(y - radius)), 0), min(int(np.ceil(y + radius)) + 1, ny)
+    yy, xx = np.mgrid[y0:y1, x0:x1]
+    use = good[y0:y1, x0:x1] & (np.hypot(xx - x, yy - y) <= radius)
+    if use.sum() < 8:
+        return x, y
+    d = resid[y0:y1, x0:x1][use]
+    s = sigma[y0:y1, x0:x1][use]
+
+    def res(p):
+        img = psf.render((y1 - y0, x1 - x0), p[0] - x0, p[1] - y0)[use]
+        a = np.vstack([img, np.ones_like(img)]) / s
+        coef = np.linalg.lstsq(a.T, d / s, rcond=None)[0]
+        return d / s - coef @ a
+
+    try:
+        out = least_squares(res, [x, y], bounds=([x - 1, y - 1], [x + 1, y + 1]),
+                            diff_step=1e-3, max_nfev=40)
+    except ValueError:
+        return x, y
+    return (float(out.x[0]), float(out.x[1])) if out.success else (x, y)
 
 
 def core_bad_share(good, x0, y0, radius):

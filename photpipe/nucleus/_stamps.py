@@ -4,6 +4,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import least_squares
+from scipy.spatial import cKDTree
 
 __all__ = ["StarStamp", "cut_star_stamps", "fit_linear", "fit_profile_to_stamp", "sky_plane"]
 
@@ -42,10 +43,11 @@ def cut_star_stamps(frame, star_xy, *, size, min_snr=30.0, max_stars=25, isolati
     ny, nx = frame.data.shape
     xy = np.asarray(star_xy, dtype=float).reshape(-1, 2)
     isolation = size / 2.0 if isolation is None else isolation
-    good_all = frame.good & np.isfinite(frame.variance) & (frame.variance > 0)
     dropped = {"edge": 0, "crowded": 0, "bad_core": 0, "faint": 0, "excluded": 0}
     stamps = []
     snrs = []
+    crowded = _crowded(xy, isolation)
+    yy, xx = np.mgrid[0:size, 0:size]
     for i, (x, y) in enumerate(xy):
         if not (np.isfinite(x) and np.isfinite(y)):
             dropped["edge"] += 1
@@ -58,20 +60,18 @@ def cut_star_stamps(frame, star_xy, *, size, min_snr=30.0, max_stars=25, isolati
         if exclude_xy is not None and near < exclude_radius:
             dropped["excluded"] += 1
             continue
-        d = np.hypot(xy[:, 0] - x, xy[:, 1] - y)
-        d[i] = np.inf
-        if np.any(d < isolation):
+        if crowded[i]:
             dropped["crowded"] += 1
             continue
         sl = (slice(iy - half, iy + half + 1), slice(ix - half, ix + half + 1))
-        good = good_all[sl]
-        yy, xx = np.mgrid[0:size, 0:size]
+        data = frame.data[sl].astype(float)
+        var = frame.variance[sl].astype(float)
+        # the frame's usable pixels, taken on the stamp alone
+        good = (frame.quality[sl] == 0) & np.isfinite(data) & np.isfinite(var) & (var > 0)
         r = np.hypot(xx - (x - ix + half), yy - (y - iy + half))
         if not np.all(good[r < 3.0]) or good.mean() < 0.9:
             dropped["bad_core"] += 1
             continue
-        data = frame.data[sl].astype(float)
-        var = frame.variance[sl].astype(float)
         ring = good & (r > 0.8 * half)
         sky = float(np.median(data[ring])) if ring.sum() > 5 else float(np.median(data[good]))
         inner = good & (r < 0.6 * half)
@@ -85,6 +85,17 @@ def cut_star_stamps(frame, star_xy, *, size, min_snr=30.0, max_stars=25, isolati
         snrs.append(snr)
     order = np.argsort(snrs)[::-1][:max_stars]
     return [stamps[j] for j in order], dropped
+
+
+def _crowded(xy, isolation):
+    """Whether each star has another within ``isolation`` pixels (finite positions only)."""
+    out = np.zeros(len(xy), bool)
+    finite = np.all(np.isfinite(xy), axis=1)
+    if finite.sum() > 1:
+        idx = np.flatnonzero(finite)
+        pairs = cKDTree(xy[idx]).query_pairs(np.nextafter(isolation, 0.0), output_type="ndarray")
+        out[idx[pairs.ravel()]] = True
+    return out
 
 
 def sky_plane(good):

@@ -15,8 +15,9 @@ from photpipe.frames.types import CalibratedFrame
 from photpipe.models.moffat import moffat_pixel_image, moffat_surface
 
 from ._residuals import shared_residual_z
-from ._stamps import cut_star_stamps, fit_profile_to_stamp
+from ._stamps import cut_star_stamps, fit_linear, sky_plane
 from .psf_epsf import build_epsf_image
+from .psf_joint import STAR_OUTLIER_FACTOR
 from .psf_moffat import fit_moffat_shape
 
 __all__ = ["PSFModel", "measure_psf", "PSF_BUILDERS", "EPSF_MARGIN", "SHARED_RESIDUAL_SIGMA",
@@ -277,8 +278,8 @@ class PSFModel:
                 **{f"score_{k}": v for k, v in self.scores.items()}}
 
 
-def _moffat_from_stamps(stamps, fwhm_guess, trail=(0.0, 0.0)):
-    shape = fit_moffat_shape(stamps, fwhm_guess=fwhm_guess, trail=trail)
+def _moffat_from_fit(shape, stamps, trail=(0.0, 0.0)):
+    """The Moffat PSF of the joint fit (``shape``: the dict of `fit_moffat_shape`)."""
     psf = PSFModel.from_moffat(shape["fwhm"], beta=shape["beta"],
                                ellipticity=shape["ellipticity"],
                                angle_deg=np.rad2deg(shape["angle"]), n_stars=shape["n_used"])
@@ -305,35 +306,59 @@ def _moffat_fit_to_image(image, oversampling):
     return float(fwhm), float(beta), float(np.hypot(q1, q2)), float(0.5 * np.arctan2(q2, q1))
 
 
-def _epsf_from_stamps(stamps, fwhm_guess, trail=(0.0, 0.0)):
-    out = build_epsf_image(stamps)
-    fwhm, beta, e, ang = _moffat_fit_to_image(out["image"], out["oversampling"])
-    return PSFModel(method="epsf", fwhm_major_pix=fwhm, beta=beta, ellipticity=e,
-                    angle_deg=float(np.rad2deg(ang)), n_stars=out["n_used"], image=out["image"],
-                    oversampling=out["oversampling"])
+def _epsf_from_fit(shape, stamps, trail=(0.0, 0.0)):
+    """The empirical PSF: the joint Moffat plus the stars' mean residual (`build_epsf_image`).
 
-
-#: PSF builders by name: each takes (stamps, fwhm_guess, star_trail) and returns a PSFModel
-#: (trailed like the stars, so that it can be scored on them).
-PSF_BUILDERS = {"moffat": _moffat_from_stamps, "epsf": _epsf_from_stamps}
-
-
-#: A star whose χ²/dof is this many times the median of the stars' is set aside in the scores
-#: (a neighbour below the catalogue limit, a cosmic-ray hit): one shape cannot be judged on it.
-STAR_OUTLIER_FACTOR = 3.0
-
-
-def _score(psf, stamps):
-    """Residual χ²/dof of the stars refitted with the shape held fixed, and their residuals.
-
-    Stars with χ²/dof above `STAR_OUTLIER_FACTOR` times the median are left out of both.
+    Returns the PSFModel and, for its score, the images made without each star in turn.
     """
-    fits = [fit_profile_to_stamp(st, psf.render) for st in stamps]
-    red = np.array([f[0] / f[1] for f in fits])
-    keep = red <= STAR_OUTLIER_FACTOR * np.median(red)
-    chi2 = sum(f[0] for f, k in zip(fits, keep) if k)
-    dof = sum(f[1] for f, k in zip(fits, keep) if k)
-    return chi2 / dof, np.array([f[-1] for f, k in zip(fits, keep) if k])
+    out = build_epsf_image(shape["fit"], stamps)
+    fwhm, beta, e, ang = _moffat_fit_to_image(out["image"], out["oversampling"])
+    psf = PSFModel(method="epsf", fwhm_major_pix=fwhm, beta=beta, ellipticity=e,
+                   angle_deg=float(np.rad2deg(ang)), n_stars=out["n_used"], image=out["image"],
+                   oversampling=out["oversampling"])
+    return psf, [replace(psf, image=img) for img in out["without"]]
+
+
+#: PSF builders by name: each takes (shape, stamps, star_trail), ``shape`` being the joint
+#: Moffat fit of the stars (`fit_moffat_shape`), and returns a PSFModel (the empirical one also
+#: the PSFs made without each star in turn, for its score).
+PSF_BUILDERS = {"moffat": _moffat_from_fit, "epsf": _epsf_from_fit}
+
+
+def _kept(chi2, dof):
+    """Stars whose χ²/dof is within `STAR_OUTLIER_FACTOR` times the median of the stars'."""
+    red = chi2 / dof
+    return red <= STAR_OUTLIER_FACTOR * np.median(red)
+
+
+def _joint_score(fit):
+    """Residual χ²/dof of the joint Moffat fit, and the residual stamps of the stars it counts.
+
+    The joint fit is the stars fitted with the shape held at its best (flux, position and sky
+    free): no second fit is needed to score it. Stars with χ²/dof above
+    `STAR_OUTLIER_FACTOR` times the median are left out of both.
+    """
+    keep = _kept(fit.chi2, fit.dof)
+    return float(fit.chi2[keep].sum() / fit.dof[keep].sum()), fit.residual[keep]
+
+
+def _fixed_centre_score(psfs, fit, stamps):
+    """Residual χ²/dof of the stars at the joint fit's centres (flux and sky free).
+
+    Star k is scored on ``psfs[k]``, made without it; one rendering and one linear solve per
+    star. The empirical PSF is built about those centres, so it is judged at them; the degrees
+    of freedom are counted as for the Moffat's.
+    """
+    chi2 = np.zeros(len(fit.stars))
+    for k, i in enumerate(fit.stars):
+        st = stamps[i]
+        g = np.isfinite(fit.residual[k])
+        img = psfs[k].render(st.data.shape, fit.x[k], fit.y[k])[g]
+        basis = np.vstack([img, sky_plane(g)])
+        coef = fit_linear(basis, st.data[g], st.sigma[g])
+        chi2[k] = np.sum(((st.data[g] - coef @ basis) / st.sigma[g]) ** 2)
+    keep = _kept(chi2, fit.dof)
+    return float(chi2[keep].sum() / fit.dof[keep].sum())
 
 
 def _fallback(frame_name, fwhm_pix, reason, n_stars):
@@ -399,16 +424,18 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
 
     Notes
     -----
-    The Moffat (1969) shape is the median of star-by-star fits; the ePSF is that of Anderson &
-    King (2000) built by photutils. Both are scored by refitting every star with the shape held
-    fixed (flux, position and sky free); the ePSF wins only when its χ²/dof is below
-    ``EPSF_MARGIN`` times the Moffat's. An ePSF is one shape for all the stars, so it can do
-    better than the Moffat only by the part of the Moffat's residuals that the stars share; when
-    the mean residual over the stars is consistent with their scatter at every stamp pixel
-    (`shared_residual_z` within ``SHARED_RESIDUAL_SIGMA``) the ePSF could only fit noise, which
-    the margin is there to refuse, so by default it is not built: it is the costliest part of
-    the stage (photutils `EPSFBuilder`, ~0.3-0.6 s for 25 stars, against ~0.2 s for the Moffat
-    fits). The significance is kept as ``shared_residual_z``.
+    The Moffat (1969) shape is fitted to all the stars at once (`fit_moffat_shape`: one shape,
+    each star's centre, flux and sloping sky, analytic derivatives); that fit is the Moffat's
+    score as it stands, since it is the stars refitted with the shape held at its best. The
+    empirical PSF is the same Moffat plus a table of the stars' mean residual about it
+    (`build_epsf_image`, after Stetson 1987), scored on the stars at the joint fit's centres
+    with flux and sky free, each star on the table made without it; it wins only when its
+    χ²/dof is below ``EPSF_MARGIN`` times the Moffat's. It is one shape for all the stars, so
+    it can do better than the Moffat only by the part of the Moffat's residuals that the stars
+    share; when the mean residual over the stars is consistent with their scatter at every
+    stamp pixel (`shared_residual_z` within ``SHARED_RESIDUAL_SIGMA``) it could only fit
+    noise, which the margin is there to refuse, so by default it is not built. The
+    significance is kept as ``shared_residual_z``.
 
     Examples
     --------
@@ -494,29 +521,35 @@ def _too_few_stars(frame_name, stamps, dropped, min_stars, fb_pix, fwhm_guess, s
               + ", ".join(f"{k} {v}" for k, v in dropped.items() if v) + ")")
     if fb_pix is None and stamps:
         # a Moffat from the few stars there are is still better than nothing: flagged
-        psf = _moffat_from_stamps(stamps, fwhm_guess, star_trail)
-        fb_pix = psf.fwhm_major_pix
+        shape = fit_moffat_shape(stamps, fwhm_guess=fwhm_guess, trail=star_trail)
+        fb_pix = shape["fwhm"]
     return _fallback(frame_name, fb_pix, reason, len(stamps))
 
 
 def _fit_candidates(stamps, methods, fwhm_guess, star_trail, epsf):
-    """Each method's PSF fitted to the stamps, its score, and the Moffat's shared residual."""
-    candidates = {}
-    scores = {}
-    # the Moffat first: when it fits to the noise the ePSF need not be built
-    order = sorted(methods, key=lambda k: k != "moffat")
-    shared_z = np.nan
-    for name in order:
-        if (name == "epsf" and epsf == "needed" and "moffat" in candidates
-                and not shared_z > SHARED_RESIDUAL_SIGMA):
-            continue
+    """Each method's PSF from the stars' joint fit, its score, and the Moffat's shared residual.
+
+    The one joint Moffat fit scores the Moffat and tells, by the residual shape the stars share,
+    whether the empirical PSF can do better; only then (or when asked) is it built and scored.
+    """
+    try:
+        shape = fit_moffat_shape(stamps, fwhm_guess=fwhm_guess, trail=star_trail)
+    except (ValueError, np.linalg.LinAlgError):
+        return {}, {}, np.nan
+    moffat_score, residuals = _joint_score(shape["fit"])
+    shared_z = shared_residual_z(residuals)
+    candidates, scores = {}, {}
+    if "moffat" in methods:
+        candidates["moffat"] = PSF_BUILDERS["moffat"](shape, stamps, star_trail)
+        scores["moffat"] = moffat_score
+    if "epsf" in methods and (epsf == "always" or "moffat" not in methods
+                              or shared_z > SHARED_RESIDUAL_SIGMA):
         try:
-            candidates[name] = PSF_BUILDERS[name](stamps, fwhm_guess, star_trail)
+            psf, without = PSF_BUILDERS["epsf"](shape, stamps, star_trail)
+            scores["epsf"] = _fixed_centre_score(without, shape["fit"], stamps)
+            candidates["epsf"] = psf
         except (ValueError, RuntimeError, np.linalg.LinAlgError):
-            continue
-        scores[name], residuals = _score(candidates[name], stamps)
-        if name == "moffat":
-            shared_z = shared_residual_z(residuals)
+            pass
     return candidates, scores, shared_z
 
 

@@ -8,7 +8,7 @@ from astropy.table import QTable
 from scipy.spatial import cKDTree
 
 from .coma_apcorr import MoffatGrowth, fit_moffat_growth, moffat_from_measured_fwhm
-from .coma_background import azimuthal_median_model
+from .coma_background import ring_profile, subtract_rings_near
 from .detection import measure_fwhm
 from .starphot import aperture_correction, aperture_correction_error, measure_star_fluxes
 from .trailed import measure_trailed_fluxes
@@ -93,6 +93,23 @@ def _usable(prep, det, det_m, phot, radii, fwhm, lay, k_phot, trail=(0.0, 0.0)):
             & np.isfinite(f_small) & (f_small > 0) & np.isfinite(phot["sky"]))
 
 
+def _reach(fwhm, cal):
+    """Half side (pixels) of the square about a star that its photometry reads.
+
+    The sky annulus reaches 8 FWHM, the apertures 4 FWHM or the photometry aperture's, the
+    FWHM's own boxes 7 pixels.
+    """
+    return max(int(np.ceil(max(8.0, cal.star_aperture_fwhm) * fwhm)) + 3, 8)
+
+
+def _minus_rings(prep, rings, lay, det_m, reach):
+    """The frame minus the coma's ring medians, about the stars to be measured.
+
+    ``det_m`` None: over the whole frame (trailed stars' stadiums and fits reach farther).
+    """
+    return subtract_rings_near(prep.data, rings, lay.x_pred, lay.y_pred, det_m, reach)
+
+
 def measure_stars(prep, det, mat, lay, opts, notes, fail, trail=(0.0, 0.0)):
     """Aperture photometry of the brightest matched stars on the frame minus the coma's rings.
 
@@ -106,14 +123,18 @@ def measure_stars(prep, det, mat, lay, opts, notes, fail, trail=(0.0, 0.0)):
     keep_m = np.argsort(prep.refs.mag[mat.matched_ref], kind="stable")[:cal.max_zp_stars]
     i_det, matched_ref = mat.i_det[keep_m], mat.matched_ref[keep_m]
     det_m = mat.det_xy[i_det]
-    star_data = prep.data - azimuthal_median_model(prep.data, prep.good, lay.x_pred, lay.y_pred)
+    rings = ring_profile(prep.data, prep.good, lay.x_pred, lay.y_pred)
     trailed = bool(np.hypot(*trail) > 0)
     psf_fit = None
     if trailed:
+        star_data = _minus_rings(prep, rings, lay, None, None)
         psf_fit, fwhm = _trailed_fwhm(star_data, prep, det_m, det.near_sat[i_det], lay, trail,
                                       det.fwhm, notes)
     else:
+        star_data = _minus_rings(prep, rings, lay, det_m, _reach(det.fwhm, cal))
         fwhm = _refined_fwhm(star_data, det_m, det.near_sat[i_det], lay, det.fwhm, notes)
+        if _reach(fwhm, cal) > _reach(det.fwhm, cal):
+            star_data = _minus_rings(prep, rings, lay, det_m, _reach(fwhm, cal))
     radii = np.unique(np.array([1.0, cal.star_aperture_fwhm, 2.0, 3.0, 4.0]) * fwhm)
     k_phot = int(np.flatnonzero(np.isclose(radii, cal.star_aperture_fwhm * fwhm))[0])
     k_big = len(radii) - 1

@@ -14,7 +14,7 @@ whose level the stars' own annuli then measure.
 
 import numpy as np
 
-__all__ = ["azimuthal_median_model"]
+__all__ = ["azimuthal_median_model", "ring_profile", "subtract_rings_near"]
 
 #: Largest number of pixels whose ring medians are taken (larger frames are sub-sampled).
 _MAX_PIXELS = 1_000_000
@@ -50,6 +50,55 @@ def azimuthal_median_model(data, good, x0, y0, *, width=2.0, min_pixels=8):
 
     Notes
     -----
+    The rings are those of `ring_profile`; `subtract_rings_near` takes the same model out only
+    around given positions (the field stars), which is all their photometry reads.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> yy, xx = np.mgrid[:64, :64]
+    >>> img = 100.0 + 500.0 / np.maximum(np.hypot(xx - 32, yy - 32), 1.0)
+    >>> model = azimuthal_median_model(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
+    >>> bool(np.abs(img - model)[np.hypot(xx - 32, yy - 32) > 10].max() < 1.0)
+    True
+    """
+    centres, medians = ring_profile(data, good, x0, y0, width=width, min_pixels=min_pixels)
+    ny, nx = np.shape(data)
+    rho = np.hypot(np.arange(nx)[None, :] - float(x0), np.arange(ny)[:, None] - float(y0))
+    return np.interp(rho, centres, medians)
+
+
+def ring_profile(data, good, x0, y0, *, width=2.0, min_pixels=8):
+    """Median radius and median value of the frame in rings about ``(x0, y0)``.
+
+    Parameters
+    ----------
+    data : ndarray, shape (ny, nx)
+        Calibrated frame (electrons).
+    good : ndarray of bool, shape (ny, nx)
+        Usable pixels.
+    x0, y0 : float
+        Ring centre (the comet), 0-based pixels.
+    width : float, optional
+        Ring width in pixels.
+    min_pixels : int, optional
+        Rings with fewer usable pixels get no median of their own (interpolated from the rings
+        beside them).
+
+    Returns
+    -------
+    radii, medians : ndarray
+        Each ring's median radius and median value (rings with ``min_pixels`` usable pixels);
+        the model of `azimuthal_median_model` interpolates them linearly in ρ (constant
+        beyond the first and last), sky plus the symmetric part of the coma.
+
+    Raises
+    ------
+    ValueError
+        If ``width`` is not positive or no ring has ``min_pixels`` usable pixels.
+
+    Notes
+    -----
     The median of each ring is robust to the field stars that cross it. Dividing or subtracting
     the azimuthal average or median about the nucleus is a standard way to take out a coma's
     symmetric light (Samarasinha & Larson 2014, Icarus 239, 168, from memory). Frames with more
@@ -60,8 +109,8 @@ def azimuthal_median_model(data, good, x0, y0, *, width=2.0, min_pixels=8):
     >>> import numpy as np
     >>> yy, xx = np.mgrid[:64, :64]
     >>> img = 100.0 + 500.0 / np.maximum(np.hypot(xx - 32, yy - 32), 1.0)
-    >>> model = azimuthal_median_model(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
-    >>> bool(np.abs(img - model)[np.hypot(xx - 32, yy - 32) > 10].max() < 1.0)
+    >>> radii, medians = ring_profile(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
+    >>> bool(np.all(np.diff(medians[radii > 2]) < 0))
     True
     """
     if not (np.isfinite(width) and width > 0):
@@ -81,25 +130,76 @@ def azimuthal_median_model(data, good, x0, y0, *, width=2.0, min_pixels=8):
     if not centres.size:
         msg = f"no ring of width {width} pix about ({x0:.1f}, {y0:.1f}) has {min_pixels} pixels"
         raise ValueError(msg)
-    rho = np.hypot(np.arange(nx)[None, :] - float(x0), np.arange(ny)[:, None] - float(y0))
-    return np.interp(rho, centres, medians)
+    return centres, medians
+
+
+def subtract_rings_near(data, profile, x0, y0, xy, half):
+    """The frame minus the ring model of `ring_profile`, taken out only near given positions.
+
+    Parameters
+    ----------
+    data : ndarray, shape (ny, nx)
+        Calibrated frame.
+    profile : tuple of ndarray
+        (ring radii, ring medians) from `ring_profile`.
+    x0, y0 : float
+        The rings' centre.
+    xy : ndarray, shape (n, 2), or None
+        Positions (the field stars) around which the model is subtracted; None: everywhere.
+    half : int
+        Half side, pixels, of the square about each position where it is subtracted.
+
+    Returns
+    -------
+    ndarray of float64, shape (ny, nx)
+        ``data - model`` inside the squares (the same values as with `azimuthal_median_model`),
+        ``data`` elsewhere: only the squares are to be measured on it.
+
+    Examples
+    --------
+    >>> yy, xx = np.mgrid[:64, :64]
+    >>> img = 100.0 + 500.0 / np.maximum(np.hypot(xx - 32, yy - 32), 1.0)
+    >>> prof = ring_profile(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
+    >>> near = subtract_rings_near(img, prof, 32.0, 32.0, np.array([[50.0, 20.0]]), 5)
+    >>> full = img - azimuthal_median_model(img, np.ones(img.shape, bool), 32.0, 32.0, width=1.0)
+    >>> bool(np.array_equal(near[15:26, 45:56], full[15:26, 45:56])), bool(near[0, 0] == img[0, 0])
+    (True, True)
+    """
+    out = np.array(data, dtype=np.float64)
+    ny, nx = out.shape
+    if xy is None:
+        rho = np.hypot(np.arange(nx)[None, :] - float(x0), np.arange(ny)[:, None] - float(y0))
+        out -= np.interp(rho, *profile)
+        return out
+    inside = np.zeros(out.shape, bool)
+    for x, y in np.asarray(xy, dtype=float).reshape(-1, 2):
+        if np.isfinite(x) and np.isfinite(y):
+            ix, iy = int(round(x)), int(round(y))
+            inside[max(iy - half, 0):max(iy + half + 1, 0),
+                   max(ix - half, 0):max(ix + half + 1, 0)] = True
+    ys, xs = np.nonzero(inside)
+    out[ys, xs] -= np.interp(np.hypot(xs - float(x0), ys - float(y0)), *profile)
+    return out
 
 
 def _ring_medians(ring, radius, values, min_pixels):
-    """Median radius and median value of each ring holding at least ``min_pixels`` pixels."""
+    """Median radius and median value of each ring holding at least ``min_pixels`` pixels.
+
+    The pixels are put in ring order by one sort of the integer ring numbers (a radix sort);
+    each ring's two middle values then come from a partial sort of the ring alone.
+    """
     if not ring.size:
         return np.zeros(0), np.zeros(0)
     counts = np.bincount(ring)
     starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
     full = np.flatnonzero(counts >= min_pixels)
-    lo = starts[full] + (counts[full] - 1) // 2
-    hi = starts[full] + counts[full] // 2
-
-    # sorting by radius sorts by ring too (ring = floor(radius / width))
-    by_radius = np.sort(radius)
-    # values sorted by ring, then by value: one sort of the ring plus the value scaled into
-    # [0, 1) (float64 keeps ~40 bits of it beside a ring number up to ~10^4)
-    lo_v, span = float(values.min()), float(np.ptp(values))
-    scaled = (values - lo_v) / (span * (1.0 + 1e-9)) if span > 0 else np.zeros(values.size)
-    by_value = values[np.argsort(ring + scaled)]
-    return 0.5 * (by_radius[lo] + by_radius[hi]), 0.5 * (by_value[lo] + by_value[hi])
+    order = np.argsort(ring, kind="stable")
+    by_ring = (radius[order], values[order])
+    out = np.empty((2, full.size))
+    for k, i in enumerate(full):
+        a, n = starts[i], counts[i]
+        lo, hi = (n - 1) // 2, n // 2
+        for j, sorted_ in enumerate(by_ring):
+            part = np.partition(sorted_[a:a + n], (lo, hi))
+            out[j, k] = 0.5 * (part[lo] + part[hi])
+    return out[0], out[1]

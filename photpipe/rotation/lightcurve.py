@@ -291,12 +291,22 @@ def _point_flags(flags_in, contaminated, alpha, phase_law):
                      for fl, words in zip(flags_in, extra)], dtype=object)
 
 
+#: Nucleus-fit flags that leave the nucleus out (NaN magnitude), with the reason in words.
+_LEFT_OUT = {"core_masked": "the core's pixels are unusable",
+             "no_error": "the fit gave no usable error"}
+
+
 def _usable_rows(frames, flags, mjd, mag, err, r_h, delta, alpha):
     """Rows that can be used, and ``(frame, reason)`` for the others (warned, never refused)."""
     n = len(frames)
     limit = np.array(["upper_limit" in str(f).split(",") for f in flags], dtype=bool)
+    words = [set(str(f).split(",")) for f in flags]
+    # a nucleus the fit left out says why (its flag), not only that the magnitude is NaN
+    left_out = [(np.array([w in ws for ws in words], dtype=bool) & ~np.isfinite(mag),
+                 f"nucleus left out by the fit ({w}: {_LEFT_OUT[w]})") for w in _LEFT_OUT]
     checks = [
         (~np.isfinite(mjd), "no finite epoch (mjd_utc_mid)"),
+        *left_out,
         (~np.isfinite(mag), "no finite magnitude (nucleus_mag)"),
         (~limit & ~np.isfinite(err), "NaN or infinite magnitude error (nucleus_mag_err)"),
         (~limit & np.isfinite(err) & (err <= 0), "zero or negative magnitude error "

@@ -14,7 +14,12 @@ from photpipe._warnings import PoorResultWarning
 
 from .cases import NIGHT_CASES, render_case
 
-__all__ = ["fit_case_frame", "recover_case", "robust_sigma", "summarise_recovery"]
+__all__ = ["fit_case_frame", "recover_case", "robust_sigma", "summarise_recovery",
+           "coma_afrho_ratio", "AFRHO_RADIUS_PIX"]
+
+#: Aperture radius (pixels) of the coma-only A(0)fρ check: 10", a few FWHM, where the nucleus
+#: still holds a good share of the light.
+AFRHO_RADIUS_PIX = 10.0
 
 
 def robust_sigma(values):
@@ -62,11 +67,69 @@ def fit_case_frame(cf, *, cutout=81, **options):
             return str(exc)
 
 
-def recover_case(name, seeds, *, shape=(161, 161), **options):
-    """Fit ``seeds`` frames of case ``name``; one dict per frame (truth and result)."""
+def _true_coma_in_aperture(cf, radius):
+    """Noise-free coma electrons inside ``radius`` of the true nucleus (re-rendered)."""
+    from photutils.aperture import CircularAperture
+
+    from .comet import render_comet
+    from .psf import TrailedMoffat
+
+    psf = TrailedMoffat(cf.fwhm_pix, cf.beta, cf.ellipticity, np.deg2rad(cf.angle_deg),
+                        cf.comet_trail)
+    coma = render_comet(cf.frame.data.shape, cf.x, cf.y, nucleus_flux=0.0, coma_k=cf.coma_k_e,
+                        psf_kernel=psf.stamp(0.0, 0.0), stamp_of=None,
+                        fine_kernel_of=psf.fine_kernel)
+    ap = CircularAperture((cf.x, cf.y), r=radius)
+    return float(ap.to_mask(method="exact").get_values(coma).sum())
+
+
+def coma_afrho_ratio(cf, fit, *, radius=AFRHO_RADIUS_PIX):
+    """Coma-only A(0)fρ over its truth in one aperture, and its relative error.
+
+    The aperture sum (fitted sky taken off, centred on the fitted nucleus) goes through
+    `~photpipe.nucleus.coma_only_afrho` as a measurement row whose Afρ is the sum itself: Afρ
+    is proportional to the coma's flux for a given geometry (A'Hearn et al. 1984, eq. 4), so
+    the ratio of the coma-only value to the true coma's flux in the same aperture is the
+    coma-only A(0)fρ over its truth. The aperture error is the pixel variances' sum.
+    """
+    from astropy.table import QTable
+    from photutils.aperture import CircularAperture
+
+    from photpipe.nucleus import coma_only_afrho
+
+    if not (cf.coma_k_e > 0) or isinstance(fit, str):
+        return np.nan, np.nan
+    mask = CircularAperture((fit.x, fit.y), r=radius).to_mask(method="exact")
+    total = float(mask.get_values(cf.frame.data - fit.sky).sum())
+    err = float(np.sqrt(mask.get_values(cf.frame.variance).sum()))
+    if not total > 0:
+        return np.nan, np.nan
+    zp = 25.0
+    row = QTable({"rho_arcsec": [radius * cf.pixel_scale_arcsec] * u.arcsec,
+                  "mag": [zp - 2.5 * np.log10(total / cf.exptime_s)] * u.mag,
+                  "zp_mag": [zp] * u.mag, "afrho_cm": [total] * u.cm,
+                  "afrho_err_cm": [err] * u.cm, "a0frho_cm": [total] * u.cm,
+                  "a0frho_err_cm": [err] * u.cm})
+    nuc = max(fit.nucleus_flux_e, 0.0) / cf.exptime_s
+    out = coma_only_afrho(row, nuc * u.electron / u.s, fit.psf,
+                          pixel_scale=cf.pixel_scale_arcsec * u.arcsec / u.pix,
+                          nucleus_flux_err=fit.nucleus_flux_err_e / cf.exptime_s
+                          * u.electron / u.s)
+    truth = _true_coma_in_aperture(cf, radius)
+    value = float(out["a0frho_coma_cm"][0].to_value(u.cm))
+    return value / truth, float(out["a0frho_coma_err_cm"][0].to_value(u.cm)) / truth
+
+
+def recover_case(name, seeds, *, shape=(161, 161), n_catalogued=12, afrho=False, **options):
+    """Fit ``seeds`` frames of case ``name``; one dict per frame (truth and result).
+
+    ``shape`` and ``n_catalogued`` go to `render_case`, ``options`` to `fit_case_frame`. With
+    ``afrho`` each row also holds ``afrho_ratio`` and ``afrho_rel_err`` (`coma_afrho_ratio`,
+    NaN without a coma).
+    """
     rows = []
     for seed in seeds:
-        cf = render_case(NIGHT_CASES[name], int(seed), shape=shape)
+        cf = render_case(NIGHT_CASES[name], int(seed), shape=shape, n_catalogued=n_catalogued)
         fit = fit_case_frame(cf, **options)
         row = {"seed": int(seed), "truth_e": cf.nucleus_flux_e, "coma_k_true": cf.coma_k_e,
                "fraction_true": cf.nucleus_fraction}
@@ -78,6 +141,8 @@ def recover_case(name, seeds, *, shape=(161, 161), **options):
                        upper_limit=fit.is_upper_limit, flags=",".join(fit.flags),
                        limit_e=fit.upper_limit_e, coma_k=fit.coma_k_e_s * fit.exptime_s,
                        coma_k_err=fit.coma_k_err_e_s * fit.exptime_s)
+        if afrho:
+            row["afrho_ratio"], row["afrho_rel_err"] = coma_afrho_ratio(cf, fit)
         rows.append(row)
     return rows
 

@@ -12,6 +12,7 @@ from photpipe.rotation import reduce_lightcurve
 from photpipe.size._mean_blocks import night_block_mean
 from photpipe.size._mean_flux import flux_mean
 from photpipe.size._mean_harmonic import harmonic_mean
+from photpipe.size._mean_periods import period_averaged_mean
 from photpipe.size._mean_phase_binned import phase_binned_mean
 
 __all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolute_magnitude",
@@ -19,7 +20,8 @@ __all__ = ["MEAN_METHODS", "AbsoluteMagnitude", "reduce_magnitude", "mean_absolu
 
 #: Method name -> function(mag, err, *, times, period, n_bins, n_harmonics) -> (flux, error, flags).
 MEAN_METHODS = {"flux-mean": flux_mean, "phase-binned": phase_binned_mean,
-                "harmonic": harmonic_mean, "rotation-unknown": night_block_mean}
+                "harmonic": harmonic_mean, "rotation-unknown": period_averaged_mean,
+                "night-blocks": night_block_mean}
 #: Methods that need the rotation period.
 _NEEDS_PERIOD = ("harmonic", "phase-binned")
 
@@ -114,11 +116,13 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
     ----------
     reduced_mag, reduced_mag_err : array-like or `~astropy.units.Quantity` ['mag']
         Reduced magnitudes m(1, 1, 0) and their errors; non-finite rows are dropped.
-    method : {"flux-mean", "harmonic", "phase-binned", "rotation-unknown"}, optional
-        ``"flux-mean"``: mean flux of all points. ``"rotation-unknown"``: the same mean with an
-        error that covers the unknown rotational sampling (nights as independent samples of the
-        rotation; the choice when the period is ambiguous or none, see
-        :func:`~photpipe.size._mean_blocks.night_block_mean`). ``"harmonic"``: constant term of
+    method : {"flux-mean", "harmonic", "phase-binned", "rotation-unknown", "night-blocks"}
+        ``"flux-mean"``: mean flux of all points. ``"rotation-unknown"``: the mean flux
+        averaged over the periods of 2-60 h with the weight the data give each, its error
+        covering the unknown rotational sampling (the choice when the period is ambiguous or
+        none, see :func:`~photpipe.size._mean_periods.period_averaged_mean`);
+        ``"night-blocks"``: the former estimate, nights as samples of the rotation
+        (:func:`~photpipe.size._mean_blocks.night_block_mean`). ``"harmonic"``: constant term of
         a Fourier series in flux fitted at ``period`` (unbiased by uneven sampling of the
         rotation; the choice when the period is known). ``"phase-binned"``: fold at ``period``
         and give each of ``n_bins`` phase bins equal weight (model-free, but biased when points

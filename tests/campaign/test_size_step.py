@@ -53,7 +53,8 @@ def test_h_from_one_filter_of_a_two_filter_lightcurve(tmp_path):
     lc["nucleus_mag"][v] += 0.45 * lc["nucleus_mag"].unit
     out = run_size_stage(config, lc, tmp_path / "rv")
     assert out["n_points"] == 60
-    assert abs(out["H_mag"] - only_r["H_mag"]) < 0.5 * only_r["H_err_mag"]
+    # 60 of the 80 R rows: the two H differ by noise, sd ≈ sqrt(80/60 - 1) = 0.58 σ_H
+    assert abs(out["H_mag"] - only_r["H_mag"]) < 2 * only_r["H_err_mag"] < 0.05
     assert any("H from the R rows only (60 of 80)" in n for n in out["assumptions"])
     config_v = load_config(write_size_config(tmp_path, FULL_SIZE + 'band = "B"\n'))
     with pytest.raises(ValueError, match=r"filters \(R, V\) hold none in band 'B'"):

@@ -92,6 +92,9 @@ def test_comet_tracked_night_gives_the_sidereal_numbers(reduced):
     sci = sorted(night.glob("sci_*"))
     assert fits.getheader(sci[0])["TRACKING"] == "NON-SIDEREAL"
     assert "TRACKING" not in fits.getheader(sci[-1])
+    # every frame plate-solved, the unmarked one too (tried again with the trail's length)
+    problems = [s.reason for n in summary_c.nights for s in n.skipped]
+    assert not any("plate solution" in p for p in problems), problems
     # the unmarked frame is measured as comet-tracked: its stars decide, or else the night's
     # vote (three headers) carries it (tests/campaign/test_tracking_vote.py has that case)
     vote = [line for line in lines if "by the frames' votes" in line]

@@ -127,3 +127,23 @@ def test_repeated_calls_do_not_grow_memory():
         find_cosmic_rays(data, variance, bad, read_noise=5.0)
     grown = _resident_mb() - before
     assert grown < 3.0, f"resident memory grew {grown:.1f} MB over 30 calls on 512x512"
+
+
+@pytest.mark.parametrize("seed", [3, 4, 5])
+def test_later_passes_about_the_replaced_pixels_give_the_whole_frame_mask(seed):
+    # the whole-frame search of every pass is the oracle for the local one: hits near every
+    # edge and corner, clusters, a bad column and bad pixels beside hits, four passes
+    rng = np.random.default_rng(seed)
+    data, variance, _ = _field(rng, shape=(230, 301), n_stars=60, n_hits=120)
+    for y, x in [(0, 5), (1, 150), (229, 40), (228, 300), (100, 0), (50, 300), (0, 0),
+                 (229, 300), (120, 1), (7, 299)]:
+        data[y, x] += rng.uniform(2000, 6000)
+    data[60:64, 90:93] += 4000.0                      # a cluster of hit pixels
+    bad = np.zeros(data.shape, bool)
+    bad[:, 200] = True
+    bad[30, 31] = True
+    data[31, 31] += 5000.0
+    whole = laplacian_cosmics(data, variance, bad, niter=4, local_passes=False)
+    local = laplacian_cosmics(data, variance, bad, niter=4)
+    assert whole.sum() > 100
+    assert np.array_equal(local, whole)
