@@ -75,7 +75,8 @@ def afrho_series(measurements, *, column="a0frho_coma_cm"):
     >>> import numpy as np
     >>> from astropy.table import Table
     >>> t = Table({"a0frho_cm": [120.0, 130.0, 9.0], "a0frho_err_cm": [3.0, 3.0, 1.0],
-    ...            "a0frho_coma_cm": [100.0, np.nan, -0.2], "a0frho_coma_err_cm": [4.0, np.nan, 1.0]})
+    ...            "a0frho_coma_cm": [100.0, np.nan, -0.2],
+    ...            "a0frho_coma_err_cm": [4.0, np.nan, 1.0]})
     >>> a, e, f = afrho_series(t)
     >>> a.value.tolist()[0], f.tolist()
     (100.0, ['', 'no_nucleus_fit', 'coma_not_detected'])

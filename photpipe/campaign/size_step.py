@@ -216,8 +216,10 @@ def _phase_coefficient(rows, settings):
 
 
 def _limit_result(table, settings, band, count, where, notes):
-    """Radius upper limit from every frame (limits and the few detections); ``notes`` holds
-    what was said before (the filter chosen) and gains this path's own notes."""
+    """Radius upper limit from every frame (limits and the few detections).
+
+    ``notes`` holds what was said before (the filter chosen) and gains this path's own notes.
+    """
     finite = np.isfinite(_plain(table["nucleus_mag"]))
     rows = table[finite]
     reduced = _reduced_magnitudes(rows, settings, where, notes)
