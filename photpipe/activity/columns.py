@@ -2,16 +2,22 @@
 
 Afρ of all the light in the aperture (A'Hearn et al. 1984, AJ 89, 579) includes the nucleus,
 whose share changes with rotation, geometry and seeing; the dust trend and the outburst search
-want the coma alone (``a0frho_coma_cm``, the fitted nucleus taken out of the aperture). Where a
-frame has no coma-only value (no nucleus fit), the total is used for that row and the row says
-so (flag ``total_light``), so one frame without a nucleus fit is not lost and is not mistaken
-for the coma.
+want the coma alone (``a0frho_coma_cm``, the fitted nucleus taken out of the aperture).
+
+The two are never mixed in one series: the total light is larger by the nucleus's share, so a
+series switching between them would show steps that are not the comet's. Where no row has a
+coma-only value (no nucleus fits at all) the total light is followed, every row flagged
+``total_light``; where some rows lack it, those rows are left out (flag ``no_nucleus_fit``).
+A coma-only value below `DETECTION_SIGMA` times its error (zero or negative for a bare nucleus)
+is a coma not detected (flag ``coma_not_detected``): its logarithm, on which the trend and the
+outburst searches work, means nothing, so it is left out of them and counted.
 """
 
 import numpy as np
 from astropy import units as u
 
-__all__ = ["AFRHO_COLUMNS", "FALLBACK_FLAG", "afrho_series"]
+__all__ = ["AFRHO_COLUMNS", "DETECTION_SIGMA", "FALLBACK_FLAG", "NOT_DETECTED_FLAG",
+           "NO_FIT_FLAG", "afrho_series"]
 
 #: Column choices and the total-light column each falls back to (None: no fallback).
 AFRHO_COLUMNS = {
@@ -20,8 +26,14 @@ AFRHO_COLUMNS = {
     "a0frho_cm": None,
     "afrho_cm": None,
 }
-#: Flag of a row whose coma-only Afρ was missing, so the total light's is used.
+#: Flag of every row when no row has a coma-only Afρ, so the total light's is used.
 FALLBACK_FLAG = "total_light"
+#: Flag of a row left out because it has no coma-only Afρ while other rows have one.
+NO_FIT_FLAG = "no_nucleus_fit"
+#: Flag of a row whose coma-only Afρ is below `DETECTION_SIGMA` times its error.
+NOT_DETECTED_FLAG = "coma_not_detected"
+#: A coma-only Afρ counts as a detection above this many times its error (common practice).
+DETECTION_SIGMA = 3.0
 
 
 def _values(table, name):
@@ -34,7 +46,7 @@ def _values(table, name):
 
 
 def afrho_series(measurements, *, column="a0frho_coma_cm"):
-    """Afρ and its error per row from the chosen column, falling back to the total light.
+    """Afρ and its error per row from the chosen column, or from the total light throughout.
 
     Parameters
     ----------
@@ -47,9 +59,11 @@ def afrho_series(measurements, *, column="a0frho_coma_cm"):
     Returns
     -------
     afrho, afrho_err : `~astropy.units.Quantity` ['length']
-        Per row, in cm; NaN where neither the column nor its fallback has a value.
+        Per row, in cm; NaN on rows to leave out (flagged ``no_nucleus_fit`` or
+        ``coma_not_detected``) and where there is no value at all.
     flags : ndarray of str
-        ``total_light`` on rows that used the fallback, else empty.
+        ``total_light`` on every row when the total light is followed, ``no_nucleus_fit`` or
+        ``coma_not_detected`` on rows left out, else empty.
 
     Raises
     ------
@@ -60,11 +74,15 @@ def afrho_series(measurements, *, column="a0frho_coma_cm"):
     --------
     >>> import numpy as np
     >>> from astropy.table import Table
-    >>> t = Table({"a0frho_cm": [120.0, 130.0], "a0frho_err_cm": [3.0, 3.0],
-    ...            "a0frho_coma_cm": [100.0, np.nan], "a0frho_coma_err_cm": [4.0, np.nan]})
+    >>> t = Table({"a0frho_cm": [120.0, 130.0, 9.0], "a0frho_err_cm": [3.0, 3.0, 1.0],
+    ...            "a0frho_coma_cm": [100.0, np.nan, -0.2],
+    ...            "a0frho_coma_err_cm": [4.0, np.nan, 1.0]})
     >>> a, e, f = afrho_series(t)
-    >>> a.value.tolist(), f.tolist()
-    ([100.0, 130.0], ['', 'total_light'])
+    >>> a.value.tolist()[0], f.tolist()
+    (100.0, ['', 'no_nucleus_fit', 'coma_not_detected'])
+    >>> t["a0frho_coma_cm"] = [np.nan] * 3
+    >>> afrho_series(t)[0].value.tolist()
+    [120.0, 130.0, 9.0]
     """
     if column not in AFRHO_COLUMNS:
         msg = f"unknown Afρ column {column!r}; choose one of {list(AFRHO_COLUMNS)}"
@@ -80,11 +98,20 @@ def afrho_series(measurements, *, column="a0frho_coma_cm"):
     else:
         msg = f"measurements have no {column!r}/{err_name!r} columns"
         raise ValueError(msg)
-    flags = np.full(n, "", dtype=f"<U{len(FALLBACK_FLAG)}")
-    if fallback is not None and fallback in names:
-        missing = ~(np.isfinite(a) & (a > 0) & np.isfinite(e) & (e > 0))
-        fb_err = fallback.replace("_cm", "_err_cm")
-        a = np.where(missing, _values(measurements, fallback), a)
-        e = np.where(missing, _values(measurements, fb_err), e)
-        flags[missing & np.isfinite(a)] = FALLBACK_FLAG
+    width = max(len(FALLBACK_FLAG), len(NO_FIT_FLAG), len(NOT_DETECTED_FLAG))
+    flags = np.full(n, "", dtype=f"<U{width}")
+    has = np.isfinite(a) & np.isfinite(e) & (e > 0)
+    if fallback is None:
+        return a * u.cm, e * u.cm, flags
+    if not np.any(has) and fallback in names:
+        a = _values(measurements, fallback)
+        e = _values(measurements, fallback.replace("_cm", "_err_cm"))
+        flags[np.isfinite(a)] = FALLBACK_FLAG
+        return a * u.cm, e * u.cm, flags
+    flags[~has] = NO_FIT_FLAG
+    faint = has & (a < DETECTION_SIGMA * e)
+    flags[faint] = NOT_DETECTED_FLAG
+    leave_out = ~has | faint
+    a = np.where(leave_out, np.nan, a)
+    e = np.where(leave_out, np.nan, e)
     return a * u.cm, e * u.cm, flags

@@ -17,7 +17,10 @@ from astropy import units as u
 from astropy.time import Time
 
 from photpipe.activity import (
+    DETECTION_SIGMA,
     FALLBACK_FLAG,
+    NO_FIT_FLAG,
+    NOT_DETECTED_FLAG,
     afrho_series,
     analyse_activity,
     comet_colour,
@@ -157,8 +160,10 @@ def fit_activity(measurements, settings, notes):
     -------
     analysis : `~photpipe.activity.ActivityAnalysis`
     within : `~photpipe.activity.NightOutbursts`
-    n_fallback : int
-        Rows that used the total light's Afρ.
+    counts : dict
+        Rows that followed the total light's Afρ (``rows_total_light``), and rows left out with
+        no nucleus fit (``rows_no_nucleus_fit``) or the coma not detected
+        (``rows_coma_not_detected``).
 
     Raises
     ------
@@ -175,10 +180,7 @@ def fit_activity(measurements, settings, notes):
                      f"{', '.join(settings.exclude_flags)} were left out of the trend.")
     rows, _ = one_filter(measurements[~flagged], notes)
     afrho, afrho_err, fallback = afrho_series(rows, column=settings.column)
-    if np.any(fallback == FALLBACK_FLAG):
-        notes.append(f"{np.count_nonzero(fallback == FALLBACK_FLAG)} of {len(rows)} rows have "
-                     f"no {settings.column} (no nucleus fit): the total light's Afρ is used "
-                     f"there (flag {FALLBACK_FLAG}).")
+    _say_left_out(fallback, settings.column, notes)
     perihelion = _perihelion(settings, rows, notes)
     time = Time(_values(rows, "mjd_utc_mid", u.day).value, format="mjd", scale="utc")
     with warnings.catch_warnings(record=True) as caught:
@@ -197,7 +199,32 @@ def fit_activity(measurements, settings, notes):
         text = f"{w.category.__name__}: {w.message}"
         if text not in notes:
             notes.append(text)
-    return analysis, within, int(np.count_nonzero(fallback == FALLBACK_FLAG))
+    return analysis, within, {
+        "rows_total_light": int(np.count_nonzero(fallback == FALLBACK_FLAG)),
+        "rows_no_nucleus_fit": int(np.count_nonzero(fallback == NO_FIT_FLAG)),
+        "rows_coma_not_detected": int(np.count_nonzero(fallback == NOT_DETECTED_FLAG))}
+
+
+def _say_left_out(flags, column, notes):
+    """Note the rows `afrho_series` set aside; stop when the coma is not detected at all."""
+    n = len(flags)
+    if np.any(flags == FALLBACK_FLAG):
+        notes.append(f"No row has {column} (no nucleus fits): the total light's Afρ is "
+                     f"followed on all {n} rows (flag {FALLBACK_FLAG}); it includes the nucleus.")
+    n_fit = int(np.count_nonzero(flags == NO_FIT_FLAG))
+    if n_fit:
+        notes.append(f"{n_fit} of {n} rows have no {column} (no nucleus fit) and are left out: "
+                     "the total light is not mixed with the coma alone.")
+    n_faint = int(np.count_nonzero(flags == NOT_DETECTED_FLAG))
+    with_value = n - n_fit
+    if n_faint and 2 * n_faint > with_value:
+        msg = (f"the coma is not detected: {n_faint} of {with_value} rows have {column} below "
+               f"{DETECTION_SIGMA:g} times its error (flag {NOT_DETECTED_FLAG})")
+        raise ValueError(msg)
+    if n_faint:
+        notes.append(f"{n_faint} of {with_value} rows have {column} below {DETECTION_SIGMA:g} "
+                     f"times its error (coma not detected) and are left out of the trend and "
+                     "outburst searches; the nights' values are then biased high a little.")
 
 
 def _trend_note(settings):
@@ -242,10 +269,15 @@ def run_activity_stage(config, measurements, out_dir):
         outcome.notes.append("No measurements were found, so there is no activity trend yet.")
         return outcome
     try:
-        outcome.analysis, outcome.night_outbursts, n_fallback = fit_activity(
+        outcome.analysis, outcome.night_outbursts, counts = fit_activity(
             measurements, settings, outcome.notes)
     except (ValueError, TypeError) as exc:
         outcome.notes.append(f"The activity trend could not be fitted: {exc}")
+        # the result file says so too, so that no earlier run's trend stands in its place
+        path = Path(out_dir) / "activity.json"
+        write_text(path, json.dumps({"status": "not_fitted", "reason": str(exc),
+                                     "afrho_column": settings.column}, indent=2) + "\n")
+        outcome.path = str(path)
         return outcome
     outcome.notes.append(_trend_note(settings))
     kept = measurements[~_flagged(measurements, settings.exclude_flags)]
@@ -254,14 +286,14 @@ def run_activity_stage(config, measurements, out_dir):
     if trend_rho is not None:
         outcome.colours = colours_in_aperture(kept, outcome.filter,
                                               float(trend_rho.to_value(u.km)), outcome.notes)
-    payload = outcome.analysis.to_dict()
+    payload = {"status": "fitted", **outcome.analysis.to_dict()}
     payload["filter"] = outcome.filter
     payload["colours"] = [c.to_dict() for c in outcome.colours]
     within = outcome.night_outbursts.to_dict()
     payload["outbursts_within_night"] = within.pop("outbursts")
     payload["within_night_search"] = within
     payload["afrho_column"] = settings.column
-    payload["rows_total_light"] = n_fallback
+    payload.update(counts)
     payload["settings"] = {k: (v if isinstance(v, (int, float, str, type(None))) else str(v))
                            for k, v in settings.as_dict().items()}
     path = Path(out_dir) / "activity.json"

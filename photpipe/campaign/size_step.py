@@ -215,11 +215,13 @@ def _phase_coefficient(rows, settings):
                                  min_span_deg=settings.phase_fit_min_span_deg)
 
 
-def _limit_result(table, settings, band, count, where):
-    """Radius upper limit from every frame (limits and the few detections)."""
+def _limit_result(table, settings, band, count, where, notes):
+    """Radius upper limit from every frame (limits and the few detections).
+
+    ``notes`` holds what was said before (the filter chosen) and gains this path's own notes.
+    """
     finite = np.isfinite(_plain(table["nucleus_mag"]))
     rows = table[finite]
-    notes = []
     reduced = _reduced_magnitudes(rows, settings, where, notes)
     limit = _upper_limit_mask(rows)
     h_lim = absolute_magnitude_limit(reduced, _plain(rows["nucleus_mag_err"]), limit)
@@ -309,7 +311,8 @@ def run_size_stage(config, lightcurve_table, out_dir, *, rotation=None):
                              min_fraction=settings.min_detected_fraction)
     if len(finite) and not count.enough:
         result = _limit_result(lightcurve_table, settings,
-                               _band(settings, finite, name_of_file, chosen_band), count, where)
+                               _band(settings, finite, name_of_file, chosen_band), count, where,
+                               notes)
         return _write(result, out_dir)
     rows = _usable_rows(lightcurve_table, where)
     reduced = _reduced_magnitudes(rows, settings, where, notes)

@@ -11,6 +11,13 @@ where E(ρ) is the fraction of the nucleus (PSF) light inside the aperture and c
 aperture correction the photometry stage applied to the whole sum (``coma_apcorr_mag``,
 c = 10^(0.4 coma_apcorr_mag); c = 1 when absent). Afρ scales with the flux, so the coma's Afρ and
 A(0)fρ are the totals times (1 - s), with the nucleus share s = c F_nuc E(ρ) / F_ap.
+
+A bare nucleus has s = 1 within the noise, so (1 - s) scatters about zero: the coma-only value is
+kept with its sign (a negative value is a coma not detected, not a missing one), so averages of
+it are not biased by leaving out the negative half. Its error is that of a difference: the
+aperture sum's noise stays whole whatever the share (it does not shrink by (1 - s)), and the
+nucleus flux's error adds to it; the two are taken as independent, which overstates the error
+somewhat where the fit's pixels and the aperture's coincide (a bright bare nucleus).
 """
 
 import numpy as np
@@ -93,13 +100,15 @@ def coma_only_afrho(comet, nucleus_flux, psf, *, pixel_scale, nucleus_flux_err=N
     Returns
     -------
     table : `~astropy.table.QTable`
-        One row per input row with `COMA_AFRHO_COLUMNS`. Where the nucleus would take all the
-        aperture's light (s >= 1) the coma values are NaN.
+        One row per input row with `COMA_AFRHO_COLUMNS`. Where the nucleus takes all the
+        aperture's light or more (s >= 1) the coma values are zero or negative, kept so: the
+        coma is then not detected, and the error says by how much it could still be there.
 
     Notes
     -----
     mag = zp - 2.5 log10(F / (electron/s)) gives F_ap; the module notes give the subtraction.
-    The error is σ² = ((1 - s) σ_Afρ)² + (Afρ c E σ_nuc / F_ap)².
+    The error is σ² = σ_Afρ² + (Afρ c E σ_nuc / F_ap)²: the aperture sum's whole error and
+    the nucleus term, as independent.
 
     Examples
     --------
@@ -137,7 +146,7 @@ def coma_only_afrho(comet, nucleus_flux, psf, *, pixel_scale, nucleus_flux_err=N
     taken = c * f_nuc * enclosed_fraction(psf, rho_pix)
     with np.errstate(invalid="ignore", divide="ignore"):
         share = taken / f_ap
-    keep = np.where(np.isfinite(share) & (share < 1.0), 1.0 - share, np.nan)
+    keep = np.where(np.isfinite(share), 1.0 - share, np.nan)
     out = QTable({"nucleus_share": share})
     for name in ("afrho", "a0frho"):
         value = column(f"{name}_cm", u.cm)
@@ -145,5 +154,6 @@ def coma_only_afrho(comet, nucleus_flux, psf, *, pixel_scale, nucleus_flux_err=N
         with np.errstate(invalid="ignore", divide="ignore"):
             err_nuc = value * (taken / f_nuc if f_nuc > 0 else 0.0) * f_nuc_err / f_ap
         out[f"{name}_coma_cm"] = value * keep * u.cm
-        out[f"{name}_coma_err_cm"] = np.hypot(keep * err, err_nuc) * u.cm
+        out[f"{name}_coma_err_cm"] = np.where(np.isfinite(keep), np.hypot(err, err_nuc),
+                                              np.nan) * u.cm
     return out

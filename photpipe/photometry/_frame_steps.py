@@ -226,6 +226,11 @@ def layout(prep, wcs, opts):
     r_as = prep.arcsec_radii / prep.scale
     radii = np.concatenate([r_km, r_as])
     r_max = float(radii.max())
+    corner = float(np.hypot(max(x_pred, nx - 1 - x_pred), max(y_pred, ny - 1 - y_pred)))
+    if r_max > corner:
+        fail(prep.name, f"the largest aperture ({r_max:.0f} px) holds the whole {nx} x {ny} "
+                        f"frame around the comet (farthest corner {corner:.0f} px): choose "
+                        "smaller apertures")
     annulus = opts.apertures.annulus
     if annulus is None:
         ann_in, ann_out = 4.0 * r_max, 8.0 * r_max

@@ -9,6 +9,7 @@ import numpy as np
 from astropy import units as u
 from astropy.time import Time
 
+from photpipe.activity.columns import DETECTION_SIGMA
 from photpipe.flags import INFORMATIONAL, split_flags
 from photpipe.report.numbers import value_range, with_error
 
@@ -179,10 +180,16 @@ def _activity_lines(measurements, activity):
             " of the coma" if "coma" in column else " of all the light") + (
             f" in {main}" if main else "")
         for date, mean, err, rho, k in shown:
-            lines.append(f"{name} {date} (ρ = {rho:g} km, {k} frames): "
-                         f"{with_error(mean, err, 'cm')}")
+            value = with_error(mean, err, 'cm')
+            if "coma" in column and not mean > DETECTION_SIGMA * err:
+                # a coma not detected is an upper limit, not a small value
+                value = (f"not detected, below {max(mean, 0.0) + 2.0 * err:.2g} cm (2σ; "
+                         f"{value})")
+            lines.append(f"{name} {date} (ρ = {rho:g} km, {k} frames): {value}")
         if len(nights) > 6:
             lines.insert(3, f"  ... {len(nights) - 6} more nights in the report")
+    if (activity or {}).get("status") == "not_fitted":
+        lines.append(f"activity trend: not fitted ({activity.get('reason', 'no reason given')})")
     for b in (activity or {}).get("trend", {}).get("branches", []) or []:
         if b.get("k") is not None:
             side = "before" if b.get("branch") == "pre" else "after"

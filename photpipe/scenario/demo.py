@@ -133,5 +133,7 @@ def demo_truth_table(exposures, night):
     names = ("frame", "mjd_utc_mid", "x_pix", "y_pix", "nucleus_flux_e", "coma_k_e",
              "afrho_cm", "zp_mag", "fwhm_pix", "comet_trail_x_pix", "comet_trail_y_pix")
     table = QTable(rows=rows, names=names)
-    table["nucleus_mag"] = u.Quantity([e.comet.nucleus_mag for e in exposures])
+    # no nucleus: an infinitely faint one (the truth any upper limit must hold)
+    table["nucleus_mag"] = u.Quantity([np.inf * u.mag if e.comet.nucleus_mag is None
+                                       else e.comet.nucleus_mag for e in exposures])
     return table

@@ -5,6 +5,7 @@ The nights follow the invented demo comet (orbit and site of ``configs/demo.toml
 """
 
 import os
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -43,15 +44,19 @@ def _geometry(times):
 
 
 def render_small_night(folder, *, start="2026-12-01T02:10:00", n_science=4, seed=1,
-                       calibrations=True, stars_path=None):
+                       calibrations=True, stars_path=None, comet_change=None):
     """Render a night of ``n_science`` 160x160 science frames (plus calibrations) to ``folder``.
 
     Returns the NightTruth; writes the reference stars to ``stars_path`` when given.
+    ``comet_change`` (a dict of `CometSpec` fields, e.g. ``{"afrho": None}`` for a bare
+    nucleus) changes the demo comet in every frame.
     """
     rng = np.random.default_rng(seed)
     times = Time(start, scale="utc") + np.arange(n_science) * 12 * u.min
     geom = _geometry(times)
     exposures = demo_exposures(times, geom, phase_function=lambda phase: 1.0, rng=rng)
+    if comet_change:
+        exposures = [replace(e, comet=replace(e.comet, **comet_change)) for e in exposures]
     center = SkyCoord(np.mean(geom["ra"]), np.mean(geom["dec"]))
     stars = make_star_field(center, 6 * u.arcmin, n_stars=300, mag_range=(19.0, 15.0), rng=rng)
     if stars_path is not None:

@@ -21,15 +21,31 @@ def _measurements(with_coma):
     return meas
 
 
-def test_coma_only_by_default_with_the_fallback_counted(tmp_path):
+def test_coma_only_by_default_with_the_row_without_a_fit_left_out(tmp_path):
     out = run_activity_stage(CONFIG, _measurements(True), tmp_path)
     payload = json.loads((tmp_path / "activity.json").read_text())
     assert payload["afrho_column"] == "a0frho_coma_cm"
-    assert payload["rows_total_light"] == 1
-    assert any("total light's Afρ is used" in n for n in out.notes)
+    assert payload["rows_total_light"] == 0
+    assert payload["rows_no_nucleus_fit"] == 1
+    assert any("the total light is not mixed with the coma alone" in n for n in out.notes)
     assert payload["outbursts_within_night"] == []
     assert payload["within_night_search"]["n_nights_searched"] == 19
     assert "inside a night" in out.summary
+
+
+def test_a_bare_nucleus_gives_no_trend_and_no_outburst(tmp_path):
+    # Coma-only values scattered about zero (a bare nucleus): their logarithms would make
+    # magnitude-sized "outbursts" out of noise; the step says the coma is not detected instead.
+    meas = _measurements(True)
+    rng = np.random.default_rng(5)
+    meas["a0frho_coma_err_cm"] = np.full(len(meas), 0.1) * u.cm
+    meas["a0frho_coma_cm"] = rng.normal(0.0, 0.1, len(meas)) * u.cm
+    out = run_activity_stage(CONFIG, meas, tmp_path)
+    assert out.analysis is None
+    assert "the coma is not detected" in out.notes[-1]
+    payload = json.loads((tmp_path / "activity.json").read_text())
+    assert payload["status"] == "not_fitted"
+    assert payload["reason"].startswith("the coma is not detected")
 
 
 def test_total_light_when_no_coma_column(tmp_path):

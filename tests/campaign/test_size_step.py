@@ -59,3 +59,17 @@ def test_h_from_one_filter_of_a_two_filter_lightcurve(tmp_path):
     config_v = load_config(write_size_config(tmp_path, FULL_SIZE + 'band = "B"\n'))
     with pytest.raises(ValueError, match=r"filters \(R, V\) hold none in band 'B'"):
         run_size_stage(config_v, lc, tmp_path / "b")
+
+
+def test_a_radius_limit_from_one_filter_says_which_filter(tmp_path):
+    # Too few R detections for a radius: the upper limit is formed from the R rows only, and
+    # says so as the radius would (the V rows, 0.45 mag fainter, stay out of it).
+    config = load_config(write_size_config(tmp_path, FULL_SIZE))
+    lc = make_lightcurve()
+    v = [i % 4 == 0 for i in range(len(lc))]
+    lc["filter"] = ["V" if is_v else "R" for is_v in v]
+    lc["nucleus_mag"][v] += 0.45 * lc["nucleus_mag"].unit
+    lc["flags"] = ["" if i < 8 and not v[i] else "upper_limit" for i in range(len(lc))]
+    out = run_size_stage(config, lc, tmp_path / "limit")
+    assert out["radius_km"] is None and out["radius_upper_limit_km"] > 0
+    assert any("H from the R rows only (60 of 80)" in n for n in out["assumptions"])

@@ -77,18 +77,25 @@ def test_nucleus_error_enters_the_coma_error():
     noisy = coma_only_afrho(rows, 4.0e4 * u.electron / u.s, psf, pixel_scale=SCALE,
                             nucleus_flux_err=2.0e3 * u.electron / u.s)
     assert np.all(noisy["afrho_coma_err_cm"] > bare["afrho_coma_err_cm"])
-    # Without a nucleus error the coma's error is the total's scaled by (1 - s).
-    keep = 1.0 - bare["nucleus_share"]
-    assert u.allclose(bare["afrho_coma_err_cm"], keep * u.Quantity(rows["afrho_err_cm"]),
-                      rtol=1e-12)
+    # Without a nucleus error the coma's error is the total's: taking a known amount out of a
+    # sum leaves the sum's noise whole, Var(X - a) = Var(X) (Bevington & Robinson 2003, ch. 3,
+    # from memory); it does not shrink with the share (1 - s) taken out.
+    assert u.allclose(bare["afrho_coma_err_cm"], u.Quantity(rows["afrho_err_cm"]), rtol=1e-12)
+    # With one, the two add in quadrature (taken as independent).
+    term = (u.Quantity(rows["afrho_cm"]) * bare["nucleus_share"] * 2.0e3 / 4.0e4)
+    assert u.allclose(noisy["afrho_coma_err_cm"],
+                      np.hypot(u.Quantity(rows["afrho_err_cm"]), term), rtol=1e-12)
 
 
-def test_nucleus_brighter_than_the_aperture_gives_nan():
+def test_a_nucleus_brighter_than_the_aperture_gives_a_negative_coma_with_its_error():
+    # A bare nucleus measured a little bright: the coma-only value is below zero, kept with its
+    # sign and error (a coma not detected), not made missing (which would bias any mean of it).
     psf = PSFModel.from_moffat(2.2)
     rows, _ = _rows(500.0, 4.0e4, psf, np.array([3.0, 30.0]))
     out = coma_only_afrho(rows, 1.0e7 * u.electron / u.s, psf, pixel_scale=SCALE)
-    assert np.all(np.isnan(out["afrho_coma_cm"]))
     assert np.all(out["nucleus_share"] > 1)
+    assert np.all(out["afrho_coma_cm"] < 0 * u.cm)
+    assert u.allclose(out["afrho_coma_err_cm"], u.Quantity(rows["afrho_err_cm"]), rtol=1e-12)
 
 
 @pytest.mark.parametrize("change, kind, match", [

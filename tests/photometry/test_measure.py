@@ -177,6 +177,15 @@ def test_comet_off_frame(standard_frame):
         measure_comet_frame(s.frame, s.stars, geo)
 
 
+def test_an_aperture_larger_than_the_frame_is_named(standard_frame):
+    # 1e9 km at the comet's distance is far wider than the frame: the frame's one line says so,
+    # rather than the zero point's "no usable star" that would follow (every star in the aperture)
+    s = standard_frame
+    with pytest.raises(PhotometryError, match=r"sci_0001: the largest aperture \(\d+ px\) holds "
+                                              r"the whole 640 x 640 frame"):
+        measure_comet_frame(s.frame, s.stars, s.geometry, apertures_km=[1e9] * u.km)
+
+
 def test_no_stars_matched(standard_frame):
     s = standard_frame
     far = s.stars.copy()

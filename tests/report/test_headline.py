@@ -89,3 +89,16 @@ def test_run_screen_size_line_carries_radius_and_status():
     assert "below 1.2 km (upper limit)" in _step_line("size", limit, "limit")
     assert _step_line("rotation", {}, "Rotation\nmore") == \
         "rotation: Rotation (full text in the log)"
+
+
+def test_a_coma_not_detected_is_an_upper_limit_not_a_small_value():
+    # A bare nucleus: coma-only values about zero. The headline must not print "0.4 ± 0.2 cm"
+    # as if a coma were measured; it gives the 2σ upper limit and the activity step's reason.
+    meas = _meas()
+    meas["a0frho_coma_cm"] = [0.0, 0.3, 0.0, -0.1, 0.0, 0.2, 0.0, 0.1] * u.cm
+    meas["a0frho_coma_err_cm"] = [1.0, 0.2, 1.0, 0.2, 1.0, 0.2, 1.0, 0.2] * u.cm
+    activity = {"status": "not_fitted", "afrho_column": "a0frho_coma_cm",
+                "reason": "the coma is not detected: 4 of 4 rows below 3 times its error"}
+    text = "\n".join(headline_lines(measurements=meas, activity=activity))
+    assert "A(0°)fρ of the coma 2026-12-01 (ρ = 10000 km, 2 frames): not detected, below" in text
+    assert "activity trend: not fitted (the coma is not detected" in text
