@@ -151,8 +151,9 @@ def colours_in_aperture(rows, main, rho_km, notes):
 def fit_activity(measurements, settings, notes):
     """Fit the trend and search for outbursts on the rows not flagged ``exclude_flags``.
 
-    The Afρ followed is ``settings.column`` (by default the coma alone at 0° phase), the total
-    light's where a row has no coma-only value (`photpipe.activity.afrho_series`). Outbursts are
+    The Afρ followed is ``settings.column`` (by default the coma alone at 0° phase; the total
+    light on every row only when no row has a coma-only value, never mixed, see
+    `photpipe.activity.afrho_series`). Outbursts are
     searched from night to night (`photpipe.activity.analyse_activity`) and inside each night
     (`photpipe.activity.find_night_outbursts`, on the trend's aperture).
 

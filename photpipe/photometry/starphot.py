@@ -105,16 +105,25 @@ def _stamp_errors(variance, apertures):
 
 def _annulus_sky(data, mask, xy, annulus):
     annuli = CircularAnnulus(xy, r_in=annulus[0], r_out=annulus[1]).to_mask(method="center")
-    values = [np.where(m.get_values(mask) > 0, np.nan, m.get_values(data)) for m in annuli]
-    width = max((v.size for v in values), default=0)
-    stack = np.full((len(values), max(width, 1)), np.nan)
-    for i, v in enumerate(values):
+    rings = [np.where(m.get_values(mask) > 0, np.nan, m.get_values(data)) for m in annuli]
+    return clipped_rings(rings)
+
+
+def clipped_rings(rings):
+    """3σ-clipped median, scatter and count of each ring's values, all rings in one call.
+
+    ``rings`` is a list of 1-d arrays (NaN for masked pixels); they are stacked into one
+    NaN-padded array so that ``sigma_clipped_stats`` runs once along an axis.
+    """
+    width = max((v.size for v in rings), default=0)
+    stack = np.full((len(rings), max(width, 1)), np.nan)
+    for i, v in enumerate(rings):
         stack[i, :v.size] = v
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         _, median, std = sigma_clipped_stats(stack, sigma=3.0, maxiters=5, axis=1)
     n = np.count_nonzero(np.isfinite(stack), axis=1).astype(float)
-    return np.asarray(median, float), np.asarray(std, float), n
+    return (np.atleast_1d(np.asarray(median, float)), np.atleast_1d(np.asarray(std, float)), n)
 
 
 def aperture_correction(flux_small, flux_large, flux_err_small, *, min_snr=50.0, max_stars=30):

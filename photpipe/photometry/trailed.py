@@ -11,12 +11,11 @@ trail. A trail is found by `~photpipe.photometry.detect_sources` as one or sever
 fainter ones lying on a brighter star's trail are dropped (`merge_trail_detections`).
 """
 
-import warnings
-
 import numpy as np
-from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
 from scipy.spatial import cKDTree
+
+from .starphot import clipped_rings
 
 __all__ = ["segment_distance", "merge_trail_detections", "trail_centroids",
            "measure_trailed_fluxes"]
@@ -235,7 +234,7 @@ def measure_trailed_fluxes(data, variance, mask, x, y, *, trail, radii, annulus,
             area[i, j] = float(np.sum(w))
         n_masked[i] = int(np.count_nonzero(bad & (weights[-1] >= 0.5)))
         rings.append(_ring_sky(data, mask, xs[i], ys[i], trail, annulus))
-    sky, sky_std, n_sky = _clipped(rings)
+    sky, sky_std, n_sky = clipped_rings(rings)
     sky_err = sky_std / np.sqrt(np.clip(n_sky, 1.0, None))
     out = QTable({"x": xs, "y": ys})
     for j in range(k):
@@ -245,16 +244,3 @@ def measure_trailed_fluxes(data, variance, mask, x, y, *, trail, radii, annulus,
     out["sky_err"] = sky_err
     out["n_masked"] = n_masked
     return out
-
-
-def _clipped(rings):
-    """3σ-clipped median, scatter and count of each ring's values, all rings at once."""
-    width = max((v.size for v in rings), default=0)
-    stack = np.full((len(rings), max(width, 1)), np.nan)
-    for i, v in enumerate(rings):
-        stack[i, :v.size] = v
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        _, median, std = sigma_clipped_stats(stack, sigma=3.0, maxiters=5, axis=1)
-    n = np.count_nonzero(np.isfinite(stack), axis=1).astype(float)
-    return (np.atleast_1d(np.asarray(median, float)), np.atleast_1d(np.asarray(std, float)), n)
