@@ -147,3 +147,16 @@ def test_later_passes_about_the_replaced_pixels_give_the_whole_frame_mask(seed):
     local = laplacian_cosmics(data, variance, bad, niter=4)
     assert whole.sum() > 100
     assert np.array_equal(local, whole)
+
+
+def test_first_pass_worked_densely_when_the_screen_passes_much_of_the_frame(monkeypatch):
+    # past _SCREEN_MAX_SHARE the first pass runs the whole-frame medians: the same mask
+    from photpipe.frames import _lacosmic
+
+    rng = np.random.default_rng(6)
+    data, variance, _ = _field(rng, shape=(120, 150), n_stars=30, n_hits=50)
+    bad = np.zeros(data.shape, bool)
+    screened = laplacian_cosmics(data, variance, bad, niter=2)
+    monkeypatch.setattr(_lacosmic, "_SCREEN_MAX_SHARE", 0.0)
+    assert np.array_equal(laplacian_cosmics(data, variance, bad, niter=2), screened)
+    assert screened.sum() > 40
