@@ -85,6 +85,24 @@ def _contrast_snr(signal, variance, size):
         return (signal - local) / np.sqrt(np.where(variance > 0, variance, np.inf))
 
 
+def _peaks_3x3(image, threshold):
+    """Pixels above ``threshold`` that equal the maximum of their 3x3 box, the edge left out.
+
+    What photutils' ``find_peaks(image, threshold, box_size=3, border_width=1)`` finds on a
+    finite image, in the same (row-major) order, with the maximum taken only about the pixels
+    above the threshold.
+    """
+    ys, xs = np.nonzero(image[1:-1, 1:-1] > threshold)
+    ys, xs = ys + 1, xs + 1
+    values = image[ys, xs]
+    top = np.full(len(ys), -np.inf, dtype=image.dtype)
+    for dy in (-1, 0, 1):
+        for dx in (-1, 0, 1):
+            np.maximum(top, image[ys + dy, xs + dx], out=top)
+    peak = values == top
+    return ys[peak], xs[peak]
+
+
 def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_size=3,
                    centroid_box=9, max_sources=3000, n_centroid=150, background_box=5):
     """Detect point-like sources and measure their centroids.
@@ -137,16 +155,22 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     sig_b = _bin(work, b) if b > 1 else work.astype(np.float64)
     var_b = _bin(var, b) if b > 1 else var.astype(np.float64)
     snr = _contrast_snr(sig_b, var_b, int(background_box))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", NoDetectionsWarning)
-        peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
+    if box_size == 3:
+        peak_y, peak_x = _peaks_3x3(snr, threshold)
+    else:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", NoDetectionsWarning)
+            peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
+        peak_y, peak_x = ((np.zeros(0, int),) * 2 if peaks is None
+                          else (np.asarray(peaks["y_peak"]), np.asarray(peaks["x_peak"])))
     out = QTable({"x": np.zeros(0), "y": np.zeros(0), "snr": np.zeros(0), "peak": np.zeros(0),
                   "centroided": np.zeros(0, bool)})
-    if peaks is None or len(peaks) == 0:
+    if len(peak_y) == 0:
         return out
-    order = np.argsort(-np.asarray(peaks["peak_value"]))[:max_sources]
-    xb = np.asarray(peaks["x_peak"], dtype=float)[order]
-    yb = np.asarray(peaks["y_peak"], dtype=float)[order]
+    peak_value = snr[peak_y, peak_x]
+    order = np.argsort(-peak_value)[:max_sources]
+    xb = np.asarray(peak_x, dtype=float)[order]
+    yb = np.asarray(peak_y, dtype=float)[order]
     x0 = b * xb + (b - 1) / 2.0
     y0 = b * yb + (b - 1) / 2.0
     box = int(centroid_box) | 1
@@ -165,7 +189,7 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     ny, nx = data.shape
     ix = np.clip(np.round(x).astype(int), 0, nx - 1)
     iy = np.clip(np.round(y).astype(int), 0, ny - 1)
-    out = QTable({"x": x, "y": y, "snr": np.asarray(peaks["peak_value"], float)[order],
+    out = QTable({"x": x, "y": y, "snr": np.asarray(peak_value, float)[order],
                   "peak": work[iy, ix], "centroided": centroided})
     return out
 

@@ -100,3 +100,24 @@ def test_fwhm_of_stars_on_a_coma_uses_their_own_sky():
     on_coma = img + coma_image(img.shape, 80.0, 80.0, 1.0e4).astype(np.float32)
     assert measure_fwhm(on_coma, x, y, sky=200.0) == pytest.approx(flat, rel=0.03)
     assert measure_fwhm(on_coma, x, y, sky=200.0, local_sky=False) > 1.3 * flat
+
+
+def test_peaks_of_3x3_boxes_are_those_photutils_finds():
+    # photutils.detection.find_peaks (reference library) on noise, with ties and tiny frames
+    from photutils.detection import find_peaks
+
+    from photpipe.photometry.detection import _peaks_3x3
+
+    rng = np.random.default_rng(4)
+    for trial in range(60):
+        image = rng.normal(0.0, 3.0, tuple(rng.integers(3, 40, 2)))
+        image = np.round(image) if trial % 2 else image
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            want = find_peaks(image, 2.0, box_size=3, border_width=1)
+        ys, xs = _peaks_3x3(image, 2.0)
+        if want is None:
+            assert len(ys) == 0
+        else:
+            np.testing.assert_array_equal(ys, want["y_peak"])
+            np.testing.assert_array_equal(xs, want["x_peak"])
