@@ -7,10 +7,11 @@ the mean of the surrounding ``background_box`` blocks subtracted. Subtracting th
 removes smooth light, so the noise on a bright coma does not turn into thousands of false peaks.
 This is several times faster than a matched-filter finder on a full 2048 × 2048 frame and loses
 nothing the zero point needs. Centroids are then measured on the full-resolution frame with
-photutils' ``centroid_sources`` and ``centroid_quadratic`` (a quadratic fitted to the brightest
-pixels in a box around each peak). The FWHM comes from a closed-form fit of a circular
-Gaussian to the log of each star's core (Caruana's method with the weights of Guo 2011), checked
-in the tests against photutils' ``psf.fit_fwhm``, which is about a hundred times slower.
+photutils' ``centroid_quadratic`` (a quadratic fitted to the brightest pixels in a box around
+each peak), worked for all sources at once (`photpipe.photometry._centroids`). The FWHM comes
+from a closed-form fit of a circular Gaussian to the log of each star's core (Caruana's method
+with the weights of Guo 2011), checked in the tests against photutils' ``psf.fit_fwhm``, which
+is about a hundred times slower.
 """
 
 import warnings
@@ -18,10 +19,11 @@ import warnings
 import numpy as np
 from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
-from photutils.centroids import centroid_quadratic, centroid_sources
 from photutils.detection import find_peaks
 from photutils.utils.exceptions import NoDetectionsWarning
 from scipy.ndimage import uniform_filter
+
+from ._centroids import quadratic_centroids
 
 __all__ = ["sky_statistics", "detect_sources", "measure_fwhm", "measure_fwhm_minor"]
 
@@ -177,10 +179,7 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     x, y = x0.copy(), y0.copy()
     nc = min(int(n_centroid), len(x0))
     if nc:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            xn, yn = centroid_sources(work, x0[:nc], y0[:nc], box_size=box,
-                                      centroid_func=centroid_quadratic)
+        xn, yn = quadratic_centroids(work, x0[:nc], y0[:nc], box)
         ok = np.isfinite(xn) & np.isfinite(yn) & (np.hypot(xn - x0[:nc], yn - y0[:nc]) <= box)
         x[:nc] = np.where(ok, xn, x0[:nc])
         y[:nc] = np.where(ok, yn, y0[:nc])
