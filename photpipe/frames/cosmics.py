@@ -9,7 +9,7 @@ from scipy import ndimage
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from ._lacosmic import laplacian_cosmics
+from ._lacosmic import laplacian_cosmics, sparse_nonzero
 
 __all__ = ["lacosmic_mask", "COSMIC_METHODS", "find_cosmic_rays"]
 
@@ -159,7 +159,7 @@ def _drop_star_like(mask, data, bad, ratio):
     first in row-major order on a tie), the median of the 9x9 pixels about it (background)
     and of its 8 neighbours, bad pixels and the frame's outside left out of both.
     """
-    ys, xs = np.nonzero(mask)
+    ys, xs = sparse_nonzero(mask)
     if len(ys) == 0:
         return mask
     data = np.asarray(data)

@@ -160,3 +160,14 @@ def test_first_pass_worked_densely_when_the_screen_passes_much_of_the_frame(monk
     monkeypatch.setattr(_lacosmic, "_SCREEN_MAX_SHARE", 0.0)
     assert np.array_equal(laplacian_cosmics(data, variance, bad, niter=2), screened)
     assert screened.sum() > 40
+
+
+def test_sparse_nonzero_is_numpy_nonzero():
+    from photpipe.frames._lacosmic import sparse_nonzero
+
+    rng = np.random.default_rng(9)
+    for trial in range(100):
+        mask = rng.uniform(size=tuple(rng.integers(1, 40, 2))) < rng.uniform(0.0, 0.5)
+        mask = mask[:, ::2] if trial % 3 == 0 else mask        # not contiguous
+        want, got = np.nonzero(mask), sparse_nonzero(mask)
+        assert np.array_equal(got[0], want[0]) and np.array_equal(got[1], want[1])
