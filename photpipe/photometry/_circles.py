@@ -35,35 +35,38 @@ def _weights(box, r, exact):
     return circular_overlap_grid(*edges, nx, ny, r, 1 if exact else 0, 1)[small]
 
 
-def circle_sums(data, variance, mask, xy, r):
-    """Exact-overlap sums of ``data`` and their errors in circles of radius ``r`` about ``xy``.
+def circle_sums(data, variance, mask, xy, radii):
+    """Exact-overlap sums of ``data`` and their errors in circles of each radius about ``xy``.
 
-    The same numbers as ``aperture_photometry(data, CircularAperture(xy, r),
-    error=sqrt(max(variance, 0)), mask=mask, method="exact")``: masked pixels left out, NaN for
-    a circle off the frame.
+    The numbers of ``aperture_photometry(data, CircularAperture(xy, r), error=sqrt(max(variance,
+    0)), mask=mask, method="exact")`` for each r of ``radii``: masked pixels left out, NaN for
+    a circle off the frame. Each star's pixels are cut once, in the largest circle's box; the
+    weights of a smaller circle computed there differ from photutils' (its own smaller box) by
+    rounding only (~1e-16).
 
     Returns
     -------
-    sums, errors : ndarray
+    sums, errors : ndarray, shape (len(radii), len(xy))
     """
-    sums = np.full(len(xy), np.nan)
-    errors = np.full(len(xy), np.nan)
+    radii = [float(r) for r in np.atleast_1d(radii)]
+    sums = np.full((len(radii), len(xy)), np.nan)
+    errors = np.full((len(radii), len(xy)), np.nan)
     with np.errstate(invalid="ignore"):     # photutils ignores products with non-finite data
         for i, (x, y) in enumerate(xy):
-            _sum_one(data, variance, mask, float(x), float(y), float(r), sums, errors, i)
+            box = _box(float(x), float(y), max(radii), data.shape)
+            if box is None:
+                continue
+            large = box[0]
+            values, free = data[large], ~mask[large]
+            error2 = np.sqrt(np.clip(variance[large], 0, None)) ** 2   # photutils' error plane
+            for k, r in enumerate(radii):
+                if r < max(radii) and _box(float(x), float(y), r, data.shape) is None:
+                    continue                    # this circle's own box is off the frame
+                weights = _weights(box, r, exact=True)
+                use = (weights > 0) & free
+                sums[k, i] = (values * weights)[use].sum()
+                errors[k, i] = np.sqrt((error2 * weights)[use].sum())
     return sums, errors
-
-
-def _sum_one(data, variance, mask, x, y, r, sums, errors, i):
-    box = _box(x, y, r, data.shape)
-    if box is None:
-        return
-    large = box[0]
-    weights = _weights(box, r, exact=True)
-    use = (weights > 0) & ~mask[large]
-    sums[i] = (data[large] * weights)[use].sum()
-    error = np.sqrt(np.clip(variance[large], 0, None))    # the error plane photutils is given
-    errors[i] = np.sqrt((error ** 2 * weights)[use].sum())
 
 
 def ring_values(data, mask, xy, r_in, r_out):

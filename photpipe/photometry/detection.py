@@ -76,15 +76,21 @@ def _bin(a, b):
     for dy in range(b):
         for dx in range(b):
             part = a[dy:ny:b, dx:nx:b]
-            out = part.astype(np.float64) if out is None else out + part
+            if out is None:
+                out = part.astype(np.float64)
+            else:
+                out += part
     return out
 
 
 def _contrast_snr(signal, variance, size):
     """Signal above the local mean (a ``size`` x ``size`` box), over its noise."""
     local = uniform_filter(signal, size=size, mode="nearest")
+    noise = np.where(variance > 0, variance, np.inf)
+    np.sqrt(noise, out=noise)
+    np.subtract(signal, local, out=local)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return (signal - local) / np.sqrt(np.where(variance > 0, variance, np.inf))
+        return np.divide(local, noise, out=local)
 
 
 def _peaks_3x3(image, threshold):

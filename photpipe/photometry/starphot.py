@@ -73,9 +73,10 @@ def measure_star_fluxes(data, variance, mask, x, y, *, radii, annulus):
     n_masked = masked_in_circles(mask, xy, float(radii[-1]))
     sky, sky_std, n_sky = clipped_rings(ring_values(data, mask, xy, *annulus))
     sky_err = sky_std / np.sqrt(np.clip(n_sky, 1.0, None))
+    all_sums, all_errs = circle_sums(data, variance, mask, xy, radii)
     for k, r in enumerate(radii):
         area = np.pi * r * r
-        sums, errs = circle_sums(data, variance, mask, xy, float(r))
+        sums, errs = all_sums[k], all_errs[k]
         out[f"flux_{k}"] = sums - sky * area
         out[f"flux_err_{k}"] = np.sqrt(errs**2 + (area * sky_err) ** 2)
     out["sky"] = sky
