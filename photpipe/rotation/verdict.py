@@ -63,33 +63,120 @@ class PeriodVerdict:
     headline: str
 
 
-def _rival(t, y, dy, fit, frequency, relation, half_width):
-    alt = fit_fourier_series(t, y, dy, frequency, fit.order, search_half_width=half_width)
-    if abs(alt.frequency - frequency) > half_width / 2:
-        # the refit found its minimum away from where it started: say where it is
-        relation = f"{fit.frequency / alt.frequency:.3g} times the period (from {relation})"
-    return {"period_h": 24.0 / alt.frequency,
-            "delta_chi2": float((alt.chi2 - fit.chi2) / fit.error_scale**2),
-            "relation": relation}
+def weighing_orders(fit, n_points):
+    """Numbers of harmonics the adopted period and its rivals are weighed at.
+
+    The adopted number and up to two more, while there stay at least four points
+    per fitted parameter (project choice, as `_coverage_reasons`).
+    """
+    return [m for m in range(fit.order, fit.order + 3)
+            if m == fit.order or n_points >= _MIN_POINTS_PER_PARAMETER * (2 * m + 2)]
 
 
-def _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width):
-    """Every rival period weighed with the adopted fit's number of harmonics."""
-    t, y, dy = data
+class _Weigher:
+    """Rival periods weighed against the adopted one; aliases at their best number of harmonics.
+
+    With the adopted number of harmonics alone, a curve with too few of them leaves a
+    systematic misfit (the small 3rd and 4th harmonics of a double-peaked nucleus) that a
+    wrong window alias can absorb better than the true period: a firm wrong period. So every
+    period, the adopted one included, is fitted with each number of harmonics of
+    `weighing_orders` and scored by the Schwarz criterion, ``χ²/s² + k ln N`` with ``k``
+    fitted parameters (Schwarz 1978, Ann. Stat. 6, 461; the criterion that chooses the
+    order of the Fourier periodogram), ``s²`` the adopted fit's reduced χ² when above 1.
+    A rival's ``delta_chi2`` is its best score less the adopted period's best: Δχ² itself
+    when both are best at the same number of harmonics. A rival whose harmonics fall on the
+    adopted curve's is weighed with the adopted number only (see `_distinct`).
+    """
+
+    def __init__(self, data, fit, half_width):
+        self.t, self.y, self.dy = data
+        self.fit, self.half_width = fit, half_width
+        self.scale2 = fit.error_scale**2
+        self.adopted = {m: fit if m == fit.order else fit_fourier_series(
+            self.t, self.y, self.dy, fit.frequency, m, search_half_width=half_width / 4)
+            for m in weighing_orders(fit, self.t.size)}
+        self.adopted_score = min(self._score(f) for f in self.adopted.values())
+
+    def _score(self, f):
+        return f.chi2 / self.scale2 + (2 * f.order + 2) * np.log(self.t.size)
+
+    def _distinct(self, frequency, m):
+        """True when no harmonic 2..m of ``frequency`` falls on a harmonic of the adopted curve.
+
+        A rival whose k-th harmonic is one of the adopted curve's (an integer relative such
+        as 3/2 of the period, or an alias that lands on one) holds that curve among its own
+        with k harmonics, and so fits at least as well by construction: it is weighed only
+        with fewer.
+        """
+        f0 = self.fit.frequency
+        for k in range(2, m + 1):
+            j = round(k * frequency / f0)
+            if 1 <= j <= self.fit.order and abs(k * frequency - j * f0) < k * self.half_width:
+                return False
+        return True
+
+    def rival(self, frequency, relation):
+        """The rival near ``frequency``: its period, its Δ score and how it relates."""
+        fit = self.fit
+        first = fit_fourier_series(self.t, self.y, self.dy, frequency, fit.order,
+                                   search_half_width=self.half_width)
+        alts = {fit.order: first}
+        for m in list(self.adopted)[1:]:
+            if not self._distinct(first.frequency, m):
+                break
+            alts[m] = fit_fourier_series(self.t, self.y, self.dy, first.frequency, m,
+                                         search_half_width=self.half_width / 4)
+        if len(alts) == 1:
+            m_best, delta = fit.order, (first.chi2 - fit.chi2) / self.scale2
+        else:
+            m_best = min(alts, key=lambda m: self._score(alts[m]))
+            delta = self._score(alts[m_best]) - self.adopted_score
+        if abs(first.frequency - frequency) > self.half_width / 2:
+            # the refit found its minimum away from where it started: say where it is
+            relation = f"{fit.frequency / first.frequency:.3g} times the period (from {relation})"
+        if m_best != fit.order:
+            relation = f"{relation}, best with {m_best} harmonics"
+        return {"period_h": 24.0 / first.frequency, "delta_chi2": float(delta),
+                "relation": relation}
+
+
+def _second_harmonic_aliases(fit, window, f_range):
+    """Frequencies whose second harmonic is a window alias of the adopted second harmonic.
+
+    A double-peaked lightcurve's power is mostly in its second harmonic, so the window
+    copies it at ``2f ± w``: the rotation frequency ``f ± w/2``, which the aliases of ``f``
+    itself (``f ± w``) do not reach.
+    """
+    out = []
+    if window is None:
+        return out
+    for row in window:
+        fw = float(row["frequency"].to_value("1/d"))
+        for sign, text in ((1, "+"), (-1, "-")):
+            f = fit.frequency + sign * fw / 2
+            if f_range[0] * (1 - 1e-9) <= f <= f_range[1] * (1 + 1e-9):
+                out.append((f, f"second harmonic {text} {row['name']}"))
+    return out
+
+
+def _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width, window=None):
+    """Every rival period, weighed at its best number of harmonics (`_Weigher`)."""
     f_min, f_max = f_range
-    rivals = [{"period_h": float(r["period_h"].to_value("h")),
-               "delta_chi2": float(r["delta_chi2"]), "relation": str(r["name"])}
+    weigh = _Weigher(data, fit, half_width)
+    # window aliases: weighed again here (their Δχ² in ``aliases`` is at the adopted order)
+    rivals = [weigh.rival(float(r["frequency_per_day"].to_value("1/d")), str(r["name"]))
               for r in aliases]
+    rivals += [weigh.rival(f, name) for f, name in _second_harmonic_aliases(fit, window,
+                                                                          f_range)]
     assumed = shape.get("choice") == "double-peaked (assumed)"
     for ratio, name in RELATIVES.items():
         f = ratio * fit.frequency
         if not f_min * (1 - 1e-9) <= f <= f_max * (1 + 1e-9) or (assumed and ratio == 2.0):
             continue  # P/2 of an assumed double-peaked curve fits by construction: stated
-        rivals.append(_rival(t, y, dy, fit, f, name, half_width))
+        rivals.append(weigh.rival(f, name))
     for name, m in methods_summary.items():
         if m["relation"] == "unrelated":
-            rivals.append(_rival(t, y, dy, fit, 24.0 / m["period_h"], f"best of {name}",
-                                 half_width))
+            rivals.append(weigh.rival(24.0 / m["period_h"], f"best of {name}"))
     if assumed:
         # whatever names it (an alias can land on it), half the period of an assumed
         # double-peaked curve fits by construction
@@ -138,7 +225,7 @@ def _sampling_reasons(fit, shape, f_range, baseline_d, nights):
 
 
 def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, baseline_d,
-                 nights, period_err_h, options=VerdictOptions()):
+                 nights, period_err_h, options=VerdictOptions(), window=None):
     """Say what the data allow about the period.
 
     Parameters
@@ -164,6 +251,9 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
     period_err_h : float
         1-σ error of the adopted period (hours).
     options : VerdictOptions, optional
+    window : `~astropy.table.QTable`, optional
+        Named peaks of the spectral window (`~photpipe.rotation.aliases.window_peaks`): the
+        aliases of the second harmonic are weighed too.
 
     Returns
     -------
@@ -198,7 +288,7 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
     """
     adopted = {"period_h": 24.0 / fit.frequency, "delta_chi2": 0.0, "relation": "adopted"}
     half_width = 1.0 / (2 * baseline_d)
-    rivals = _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width)
+    rivals = _rivals(data, fit, aliases, methods_summary, shape, f_range, half_width, window)
     allowed = [r for r in rivals if r["delta_chi2"] < options.delta_chi2]
     reasons = _coverage_reasons(data[0], fit)
     reasons += _sampling_reasons(fit, shape, f_range, baseline_d, nights)
