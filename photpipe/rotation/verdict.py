@@ -1,9 +1,11 @@
 """What the data allow: one period, several (ambiguous), or none, said in one headline.
 
 After the search has adopted a period, its rivals are weighed on the same data with the same
-number of harmonics: the window aliases, the integer relatives (1/3, 1/2, 2/3, 3/2, 2 and 3
-times the period), and the best periods of the other methods. Every rival within a Δχ²
-threshold is an allowed period. The result is ``"ambiguous"`` when any rival is allowed, the
+number of harmonics as the adopted curve, and with up to two more: the window aliases of the
+period and of its second harmonic (a double-peaked curve's strongest), the integer relatives
+(1/3, 1/2, 2/3, 3/2, 2 and 3 times the period), and the best periods of the other methods.
+Every rival within a Δχ² threshold, at any of those numbers of harmonics, is an allowed
+period. The result is ``"ambiguous"`` when any rival is allowed, the
 period sits at the edge of the searched range, one night cannot tell (fewer than two cycles, or
 the double-peaked alternative untestable), or the sampling is sparse (fewer than four points per
 fitted parameter, or over a third of the rotation unobserved), and ``"none"`` when the variation is
@@ -74,18 +76,16 @@ def weighing_orders(fit, n_points):
 
 
 class _Weigher:
-    """Rival periods weighed against the adopted one; aliases at their best number of harmonics.
+    """Rival periods weighed against the adopted one with as many harmonics as it, and more.
 
     With the adopted number of harmonics alone, a curve with too few of them leaves a
     systematic misfit (the small 3rd and 4th harmonics of a double-peaked nucleus) that a
-    wrong window alias can absorb better than the true period: a firm wrong period. So every
-    period, the adopted one included, is fitted with each number of harmonics of
-    `weighing_orders` and scored by the Schwarz criterion, ``χ²/s² + k ln N`` with ``k``
-    fitted parameters (Schwarz 1978, Ann. Stat. 6, 461; the criterion that chooses the
-    order of the Fourier periodogram), ``s²`` the adopted fit's reduced χ² when above 1.
-    A rival's ``delta_chi2`` is its best score less the adopted period's best: Δχ² itself
-    when both are best at the same number of harmonics. A rival whose harmonics fall on the
-    adopted curve's is weighed with the adopted number only (see `_distinct`).
+    wrong window alias can absorb better than the true period, which then loses by more than
+    the threshold: a firm wrong period (recovery campaigns: true 7.94 h lost to 5.97 h by
+    Δχ² 16.8 with 2 harmonics, by -0.7 with 3). So the adopted period and each rival are
+    fitted with each number of harmonics of `weighing_orders`, and a rival's ``delta_chi2``
+    is the least over them of ``(χ²_rival - χ²_adopted) / s²`` at the same number (equal
+    numbers of parameters), ``s²`` the adopted fit's reduced χ² when above 1.
     """
 
     def __init__(self, data, fit, half_width):
@@ -95,10 +95,6 @@ class _Weigher:
         self.adopted = {m: fit if m == fit.order else fit_fourier_series(
             self.t, self.y, self.dy, fit.frequency, m, search_half_width=half_width / 4)
             for m in weighing_orders(fit, self.t.size)}
-        self.adopted_score = min(self._score(f) for f in self.adopted.values())
-
-    def _score(self, f):
-        return f.chi2 / self.scale2 + (2 * f.order + 2) * np.log(self.t.size)
 
     def _distinct(self, frequency, m):
         """True when no harmonic 2..m of ``frequency`` falls on a harmonic of the adopted curve.
@@ -116,27 +112,24 @@ class _Weigher:
         return True
 
     def rival(self, frequency, relation):
-        """The rival near ``frequency``: its period, its Δ score and how it relates."""
+        """The rival near ``frequency``: its period, its least Δχ² and how it relates."""
         fit = self.fit
         first = fit_fourier_series(self.t, self.y, self.dy, frequency, fit.order,
                                    search_half_width=self.half_width)
-        alts = {fit.order: first}
+        delta = {fit.order: (first.chi2 - fit.chi2) / self.scale2}
         for m in list(self.adopted)[1:]:
             if not self._distinct(first.frequency, m):
                 break
-            alts[m] = fit_fourier_series(self.t, self.y, self.dy, first.frequency, m,
-                                         search_half_width=self.half_width / 4)
-        if len(alts) == 1:
-            m_best, delta = fit.order, (first.chi2 - fit.chi2) / self.scale2
-        else:
-            m_best = min(alts, key=lambda m: self._score(alts[m]))
-            delta = self._score(alts[m_best]) - self.adopted_score
+            alt = fit_fourier_series(self.t, self.y, self.dy, first.frequency, m,
+                                     search_half_width=self.half_width / 4)
+            delta[m] = (alt.chi2 - self.adopted[m].chi2) / self.scale2
+        m_best = min(delta, key=delta.get)
         if abs(first.frequency - frequency) > self.half_width / 2:
             # the refit found its minimum away from where it started: say where it is
             relation = f"{fit.frequency / first.frequency:.3g} times the period (from {relation})"
         if m_best != fit.order:
-            relation = f"{relation}, best with {m_best} harmonics"
-        return {"period_h": 24.0 / first.frequency, "delta_chi2": float(delta),
+            relation = f"{relation}, with {m_best} harmonics"
+        return {"period_h": 24.0 / first.frequency, "delta_chi2": float(delta[m_best]),
                 "relation": relation}
 
 
@@ -253,7 +246,7 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
     options : VerdictOptions, optional
     window : `~astropy.table.QTable`, optional
         Named peaks of the spectral window (`~photpipe.rotation.aliases.window_peaks`): the
-        aliases of the second harmonic are weighed too.
+        aliases of the second harmonic (``f ± w/2``) are weighed too.
 
     Returns
     -------
@@ -261,8 +254,11 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
 
     Notes
     -----
-    Rivals are fitted with the adopted number of harmonics, so Δχ² compares models with the
-    same number of parameters; Δχ² is scaled by the adopted fit's reduced χ² when above 1.
+    Rivals are fitted with the adopted number of harmonics and up to two more
+    (`weighing_orders`), the adopted period too, and Δχ² compares the two at the same number
+    (models with the same number of parameters); the least is kept, scaled by the adopted
+    fit's reduced χ² when above 1. More harmonics are not tried for a rival whose harmonics
+    fall on the adopted curve's (`_Weigher._distinct`).
     Twice the period is always a rival of a single-peaked curve; half the period is not
     weighed against an assumed double-peaked one (it fits equally by construction, and the
     assumption is stated in ``shape``).
