@@ -1,7 +1,7 @@
 """What the data allow: one period, several (ambiguous), or none, said in one headline.
 
 After the search has adopted a period, its rivals are weighed on the same data with the same
-number of harmonics as the adopted curve, and with up to two more: the window aliases of the
+number of harmonics as the adopted curve, and with one more: the window aliases of the
 period and of its second harmonic (a double-peaked curve's strongest), the integer relatives
 (1/3, 1/2, 2/3, 3/2, 2 and 3 times the period), and the best periods of the other methods.
 Every rival within a Δχ² threshold, at any of those numbers of harmonics, is an allowed
@@ -68,15 +68,15 @@ class PeriodVerdict:
 def weighing_orders(fit, n_points):
     """Numbers of harmonics the adopted period and its rivals are weighed at.
 
-    The adopted number and up to two more, while there stay at least four points
+    The adopted number and one more, while there stay at least four points
     per fitted parameter (project choice, as `_coverage_reasons`).
     """
-    return [m for m in range(fit.order, fit.order + 3)
+    return [m for m in range(fit.order, fit.order + 2)
             if m == fit.order or n_points >= _MIN_POINTS_PER_PARAMETER * (2 * m + 2)]
 
 
 class _Weigher:
-    """Rival periods weighed against the adopted one with as many harmonics as it, and more.
+    """Rival periods weighed against the adopted one with as many harmonics as it, and one more.
 
     With the adopted number of harmonics alone, a curve with too few of them leaves a
     systematic misfit (the small 3rd and 4th harmonics of a double-peaked nucleus) that a
@@ -254,7 +254,7 @@ def judge_period(data, fit, *, fap, aliases, methods_summary, shape, f_range, ba
 
     Notes
     -----
-    Rivals are fitted with the adopted number of harmonics and up to two more
+    Rivals are fitted with the adopted number of harmonics and one more
     (`weighing_orders`), the adopted period too, and Δχ² compares the two at the same number
     (models with the same number of parameters); the least is kept, scaled by the adopted
     fit's reduced χ² when above 1. More harmonics are not tried for a rival whose harmonics

@@ -213,10 +213,7 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
         p = as_positive_value(period, u.day, "period")
     flux, flux_err, flags = MEAN_METHODS[method](m[good], e[good], times=t, period=p,
                                                  n_bins=int(n_bins), n_harmonics=int(n_harmonics))
-    shared = as_value(shared_err, u.mag, "shared_err", allow_dimensionless=True)
-    if not shared >= 0:
-        msg = f"'shared_err' must be zero or positive, got {shared_err}"
-        raise ValueError(msg)
+    shared = _shared_error(shared_err)
     stat = float(flux_err / flux / _LN10_04)
     result = AbsoluteMagnitude(H=float(-2.5 * np.log10(flux)), H_err=float(np.hypot(stat, shared)),
                                n_points=int(good.sum()), method=method, flags=tuple(flags),
@@ -226,6 +223,14 @@ def mean_absolute_magnitude(reduced_mag, reduced_mag_err, *, method="flux-mean",
         msg = f"absolute magnitude from {result.n_points} point(s) is weak: {', '.join(flags)}"
         warnings.warn(msg, PoorResultWarning, stacklevel=2)
     return result
+
+
+def _shared_error(shared_err):
+    shared = float(as_value(shared_err, u.mag, "shared_err", allow_dimensionless=True))
+    if not shared >= 0:
+        msg = f"'shared_err' must be zero or positive, got {shared_err}"
+        raise ValueError(msg)
+    return shared
 
 
 def h_method_for_rotation(rotation):
