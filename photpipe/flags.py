@@ -73,6 +73,8 @@ FLAGS = {
                                             "residual, was masked"),
     "uncatalogued_star_fitted": ("nucleus", "a star not in the catalogue, found near the nucleus,"
                                             " was fitted with it"),
+    "star_fitted_near_nucleus": ("nucleus", "a catalogued star whose mask would cover the "
+                                            "nucleus's core was fitted with it instead"),
     # rotation
     "single_night": ("rotation", "all points come from one night: longer periods and the cycle "
                                  "count between nights are not constrained"),

@@ -23,15 +23,18 @@ class Cutout:
 
 
 def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius,
-                  wing_radius=0.0):
+                  wing_radius=0.0, core_radius=0.0):
     """Box of ``size`` pixels centred on the pixel nearest (x0, y0), padded off the frame.
 
     Pixels off the frame, with quality bits, non-finite values or non-positive variance are
     masked; so are discs of ``star_radius`` around field stars farther than ``keep_radius`` from
     the nucleus (nearer ones cannot be masked without losing the nucleus: flag
-    ``star_near_nucleus``). The box positions of the stars whose disc or whose wings (within
-    ``wing_radius``) reach the box are kept (``masked_star_xy``): their light past the disc is
-    modelled by the fit.
+    ``star_near_nucleus``). A star whose disc would reach within ``core_radius`` of the
+    nucleus is not masked either (the disc would take the nucleus's core with it, and the
+    nucleus would be left out): it is fitted whole (flag ``star_fitted_near_nucleus``). The
+    box positions of the stars whose disc or whose wings (within ``wing_radius``) reach the box
+    are kept (``masked_star_xy``): their light past the disc, or all of it, is modelled by the
+    fit.
     """
     ny, nx = frame.data.shape
     half = size // 2
@@ -67,7 +70,9 @@ def cut_comet_box(frame, x0, y0, size, *, star_xy=None, star_radius, keep_radius
                 flags.append("star_near_nucleus")
                 continue
             lx, ly = sx - xa, sy - ya
-            if -star_radius < lx < size + star_radius and -star_radius < ly < size + star_radius:
+            if d < star_radius + core_radius:
+                flags.append("star_fitted_near_nucleus")
+            elif -star_radius < lx < size + star_radius and -star_radius < ly < size + star_radius:
                 good &= np.hypot(xx - lx, yy - ly) >= star_radius
             reach = max(star_radius, wing_radius)
             if -reach < lx < size + reach and -reach < ly < size + reach:

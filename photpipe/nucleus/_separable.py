@@ -17,7 +17,11 @@ __all__ = ["SeparableFit", "fit_separable", "weighted_jacobian"]
 
 @dataclass(frozen=True, eq=False)
 class SeparableFit:
-    """Result of `fit_separable`."""
+    """Result of `fit_separable`.
+
+    ``jacobian`` is the weighted Jacobian ∂(model/σ) at the solution, shape (n_data, n_free),
+    columns in the order of ``names`` (None when the covariance was not asked for).
+    """
 
     names: list
     values: dict
@@ -29,11 +33,24 @@ class SeparableFit:
     at_bound: tuple
     model: np.ndarray
     message: str
+    jacobian: np.ndarray | None = None
 
     @property
     def chi2_red(self):
         """χ² per degree of freedom."""
         return self.chi2 / self.dof if self.dof > 0 else np.nan
+
+    def leverage(self):
+        """Diagonal of the hat matrix J (JᵀJ)⁻¹ Jᵀ: each datum's share of the parameters.
+
+        It sums to the number of free parameters; over a subset of the data it is the number
+        of degrees of freedom that subset gives to the fit, so E[Σ r²] over the subset is its
+        size less that sum (Hoaglin & Welsch 1978, Am. Stat. 32, 17). NaN without a covariance.
+        """
+        if self.covariance is None or self.jacobian is None:
+            return np.full(self.model.shape, np.nan)
+        j = self.jacobian
+        return np.einsum("ij,ij->i", j @ self.covariance, j)
 
     def sigma(self, name, *, scale=True):
         """Standard error of ``name`` from the covariance (scaled by χ²_red when > 1)."""
@@ -142,7 +159,7 @@ def fit_separable(data, sigma, basis_fn, params, amp_names, *, steps, max_nfev=4
     names = list(amp_names) + varying
     values = dict(zip(amp_names, map(float, coef)))
     values.update({k: float(theta[k]) for k in params})
-    cov = None
+    cov = jac = None
     if covariance:
         jac = weighted_jacobian(basis_fn, theta, coef, sigma, {k: steps[k] for k in varying})
         try:
@@ -152,7 +169,7 @@ def fit_separable(data, sigma, basis_fn, params, amp_names, *, steps, max_nfev=4
             success = False
             message = "singular normal matrix: parameters not constrained"
     return SeparableFit(names, values, cov, chi2, int(data.size - n_free), nfev, success,
-                        at_bound, model, message)
+                        at_bound, model, message, jac)
 
 
 def _near_bound(p, tol=1e-4):

@@ -14,6 +14,8 @@ from photpipe._warnings import PoorResultWarning
 from photpipe.frames.types import CalibratedFrame
 from photpipe.models.moffat import moffat_pixel_image, moffat_surface
 
+from ._comet_light import comet_light_image, comet_light_profile
+from ._fit_steps import find_peak
 from ._residuals import shared_residual_z
 from ._stamps import cut_star_stamps, fit_linear, sky_plane
 from .psf_epsf import build_epsf_image
@@ -459,6 +461,8 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
     cutout, methods, star_trail = _trail_setup(cutout, methods, star_trail)
     stamps, dropped = cut_star_stamps(frame, star_xy, size=cutout, exclude_xy=exclude_xy,
                                       exclude_radius=exclude_radius)
+    if exclude_xy is not None:
+        stamps = _without_comet_light(frame, stamps, exclude_xy, star_xy, cutout, fwhm_guess)
     if len(stamps) < min_stars:
         return _too_few_stars(frame.name, stamps, dropped, min_stars, fb_pix, fwhm_guess,
                               star_trail)
@@ -467,6 +471,39 @@ def measure_psf(frame, star_xy, *, cutout=25, min_stars=5, methods=("moffat", "e
         return _fallback(frame.name, fb_pix, "no PSF model could be fitted to the stars",
                          len(stamps))
     return _best_model(candidates, scores, shared_z)
+
+
+def _without_comet_light(frame, stamps, comet_xy, star_xy, cutout, fwhm_guess):
+    """The stamps less the comet's light under them (`photpipe.nucleus._comet_light`).
+
+    The comet's centre is its peak within max(8, 3 FWHM) pixels of ``comet_xy`` (a header
+    WCS can be several arcsec off, and the coma's curvature at a star goes as ρ^-3); the
+    catalogued stars' discs of half a stamp are left out of the annuli.
+    """
+    if not stamps:
+        return stamps
+    good = frame.good & np.isfinite(frame.data)
+    radius = max(8.0, 3.0 * fwhm_guess)
+    cx, cy = (float(v) for v in comet_xy)
+    ny, nx = frame.data.shape
+    x0, x1 = max(int(cx - radius - 2), 0), min(int(cx + radius + 3), nx)
+    y0, y1 = max(int(cy - radius - 2), 0), min(int(cy + radius + 3), ny)
+    if x1 > x0 and y1 > y0:
+        px, py = find_peak(frame.data[y0:y1, x0:x1], good[y0:y1, x0:x1], cx - x0, cy - y0,
+                           radius=radius, fwhm=fwhm_guess)
+        cx, cy = px + x0, py + y0
+    half = cutout // 2
+    reach = np.array([np.hypot(st.x_origin + half - cx, st.y_origin + half - cy)
+                      for st in stamps])
+    profile = comet_light_profile(frame.data, good, (cx, cy),
+                                  r_lo=max(float(reach.min()) - half * np.sqrt(2.0) - 2, 0.0),
+                                  r_hi=float(reach.max()) + half * np.sqrt(2.0) + 2,
+                                  mask_xy=star_xy, mask_radius=float(half))
+    if len(profile[0]) < 2:
+        return stamps
+    return [replace(st, data=st.data - comet_light_image(profile, st.data.shape,
+                                                         (st.x_origin, st.y_origin), (cx, cy)))
+            for st in stamps]
 
 
 def _check_request(frame, methods, epsf):

@@ -71,9 +71,9 @@ def measure_star_fluxes(data, variance, mask, x, y, *, radii, annulus):
     apertures = [CircularAperture(xy, r=float(r)) for r in radii]
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        phot = aperture_photometry(data, apertures, error=np.sqrt(np.clip(variance, 0, None)),
+        phot = aperture_photometry(data, apertures, error=_stamp_errors(variance, apertures),
                                    mask=mask, method="exact")
-        masked = aperture_photometry(mask.astype(float), apertures[-1], method="center")
+    n_masked = [m.get_values(mask).sum() for m in apertures[-1].to_mask(method="center")]
     sky, sky_std, n_sky = _annulus_sky(data, mask, xy, annulus)
     sky_err = sky_std / np.sqrt(np.clip(n_sky, 1.0, None))
     for k, r in enumerate(radii):
@@ -84,14 +84,29 @@ def measure_star_fluxes(data, variance, mask, x, y, *, radii, annulus):
         out[f"flux_err_{k}"] = np.sqrt(errs**2 + (area * sky_err) ** 2)
     out["sky"] = sky
     out["sky_err"] = sky_err
-    out["n_masked"] = np.round(np.asarray(masked["aperture_sum"], dtype=float)).astype(int)
+    out["n_masked"] = np.round(np.asarray(n_masked, dtype=float)).astype(int)
     return out
+
+
+def _stamp_errors(variance, apertures):
+    """Per-pixel 1σ errors, sqrt(max(variance, 0)), filled only in the apertures' stamps.
+
+    photutils reads the error array only inside each aperture's bounding box, so the rest of the
+    frame stays zero; ``np.zeros`` maps its pages lazily, and only the stamps' pages are touched.
+    """
+    error = np.zeros(variance.shape, dtype=np.result_type(variance.dtype, np.float16))
+    for aperture in apertures:
+        for box in np.atleast_1d(aperture.bbox):
+            large, _ = box.get_overlap_slices(variance.shape)
+            if large is not None:
+                error[large] = np.sqrt(np.clip(variance[large], 0, None))
+    return error
 
 
 def _annulus_sky(data, mask, xy, annulus):
     annuli = CircularAnnulus(xy, r_in=annulus[0], r_out=annulus[1]).to_mask(method="center")
-    masked = np.where(mask, np.nan, data)
-    return clipped_rings([m.get_values(masked) for m in annuli])
+    rings = [np.where(m.get_values(mask) > 0, np.nan, m.get_values(data)) for m in annuli]
+    return clipped_rings(rings)
 
 
 def clipped_rings(rings):

@@ -48,3 +48,7 @@ def raise_unpicklable(x):
 def quantity_sum(x, shared):
     # Inputs with units must reach the worker with their units.
     return (x["length"] + shared["offset"]).to("km")
+
+
+def environment(names):
+    return {name: os.environ.get(name) for name in names}

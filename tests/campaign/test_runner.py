@@ -1,4 +1,5 @@
 import logging
+import os
 
 import pytest
 from astropy import units as u
@@ -80,7 +81,13 @@ def test_workers_started_in_the_background_run_the_tasks():
         runner.start_soon()                      # a second call starts nothing more
         local = sum(range(1000))
         out = dict(runner.map(_toys.add_shared, [1, 2], shared={"offset": local}))
+        names = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MALLOC_TRIM_THRESHOLD_")
+        [(_, env)] = runner.map(_toys.environment, [names])
     assert out == {1: 1 + local, 2: 2 + local}
+    # one thread per numerical library; glibc's allocator left as in this process (a trim
+    # threshold set in the environment turns off its moving mmap threshold; glibc mallopt(3))
+    assert env["OMP_NUM_THREADS"] == env["OPENBLAS_NUM_THREADS"] == "1"
+    assert env["MALLOC_TRIM_THRESHOLD_"] == os.environ.get("MALLOC_TRIM_THRESHOLD_")
     assert runner._client is None and runner._starting is None     # closed
 
 

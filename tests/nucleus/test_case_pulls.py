@@ -7,18 +7,21 @@ as the campaign runs it, on the benchmark's 161x161 frames with 12 catalogued st
 regime: there the PSF part of the error, bootstrapped from 6 stars, is conservative, biweight
 pull σ 0.4-0.9 over 40 seeds, measured.)
 
-Per case, the pull (F - F_true)/σ_F must have a robust σ within 0.8-1.25 and, where the nucleus
-carries at least 30 % of the light inside one FWHM, the magnitude bias must stay under
-0.03 mag. The robust σ is the biweight scale (astropy ``biweight_scale``, Beers, Flynn &
-Gebhardt 1990, AJ 100, 32), chosen over 1.4826 MAD for its efficiency on normal data. Its
-sampling spread for N normal pulls, measured on 10 000 simulated samples: standard deviation
-0.17 for N = 20, 0.14 for 30, 0.12 for 40, 0.10 for 60 (1.4826 MAD: 0.25, 0.21, 0.18, 0.15).
-So with N = 24 an honest error (σ = 1) lands in 0.8-1.25 with probability 0.84 per case (the
-same simulation; 0.88 for N = 30, 0.93 for 40): the band is the goal, and 24 frames a case
-is what the test-time budget allows (~1.5 min for the 192 frames here on the 2-core machine,
-unloaded, ~1.2 min more than the 5 frames a case this test had; they also serve the other
-tests of this module). A case outside the band is a cause to find in the pipeline, not
-a band to widen; the benchmark (``benchmarks/recovery.py``) runs more seeds.
+The pull (F - F_true)/σ_F must have a robust σ within 0.8-1.25 and a median within ±0.25
+over all the cases together, and, per case, where the nucleus carries at least 30 % of the
+light inside one FWHM, the magnitude bias must stay under 0.03 mag. The robust σ is the
+biweight scale (astropy ``biweight_scale``, Beers, Flynn & Gebhardt 1990, AJ 100, 32), chosen
+over 1.4826 MAD for its efficiency on normal data. Its sampling spread for N normal pulls,
+measured on 10 000 simulated samples: standard deviation 0.15 for N = 24, 0.053 for 192; the
+median's is 0.25 and 0.09 (1.2533/√N, Kendall & Stuart 1977, 10.10). So on 24 frames an honest
+error lands in 0.8-1.25 with probability 0.85 and its median within ±0.25 with 0.68 per case,
+and all eight cases pass both with probability 0.01: the goal bands are tested on the 192
+pulls of the eight cases together (each case has seeds of its own, see `case_seeds`), where
+an honest error passes with probability 0.99, and each case is held to bands three of its
+standard errors wide (σ 0.6-1.45, median ±0.75), which catch a broken case (a σ of 1.9 or a
+median of -1) and pass an honest one with probability 0.99. 24 frames a case is what the
+test-time budget allows (~1.2 min for the 192 frames); the benchmark
+(``benchmarks/recovery.py``) runs more seeds per case.
 """
 
 import numpy as np
@@ -34,16 +37,35 @@ N_CATALOGUED = 12
 CUTOUT = 81
 
 
+def case_seeds(index):
+    """Seeds of the case at ``index`` in `NIGHT_CASES`: a range of its own.
+
+    `render_case` draws seeing, positions and noise from one generator per seed, in the same
+    order for every case, so with shared seeds the cases saw the same noise and their pull
+    medians moved together (with the true PSF, seeds 0-15 gave medians near -0.45 on every
+    case, seeds 16-79 +0.01 on the nominal one): eight medians that were one draw.
+    """
+    return range(1000 * index, 1000 * index + N_SEEDS)
+
+
 @pytest.fixture(scope="module")
 def recovered():
-    return {name: recover_case(name, range(N_SEEDS), shape=SHAPE, n_catalogued=N_CATALOGUED,
+    return {name: recover_case(name, case_seeds(k), shape=SHAPE, n_catalogued=N_CATALOGUED,
                                cutout=CUTOUT)
-            for name in NIGHT_CASES}
+            for k, name in enumerate(NIGHT_CASES)}
 
 
 def _pulls(rows):
     p = np.array([(r["flux_e"] - r["truth_e"]) / r["err_e"] for r in rows], float)
     return p[np.isfinite(p)]
+
+
+#: The goal bands, tested on the pooled pulls of all the cases (192 pulls).
+POOLED_SIGMA_BAND = (0.8, 1.25)
+POOLED_MEDIAN_BAND = 0.25
+#: A case's bands: three sampling standard errors of 24 pulls (see the module's notes).
+CASE_SIGMA_BAND = (0.6, 1.45)
+CASE_MEDIAN_BAND = 0.75
 
 
 @pytest.mark.slow
@@ -52,17 +74,17 @@ def test_error_bars_hold_over_all_cases(recovered):
     s = summarise_recovery(rows)
     print({k: round(v, 3) if isinstance(v, float) else v for k, v in s.items()})
     assert s["n_failed"] == 0
-    assert 0.8 <= biweight_scale(_pulls(rows)) <= 1.25
+    pulls = _pulls(rows)
+    lo, hi = POOLED_SIGMA_BAND
+    assert lo <= biweight_scale(pulls) <= hi
+    assert abs(np.median(pulls)) < POOLED_MEDIAN_BAND
 
 
-# Measured on these frames (seeds 0-23) with the joint PSF measurement: biweight pull σ 0.94-1.19
-# on every case, bias 0.002-0.025 mag where the goal applies (faint_nucleus 0.065). Open: the pull
-# medians are negative (-0.17 to -1.25). On faint_nucleus frames without faint stars the median
-# flux ratio is 0.949 with the measured PSF and 0.989 with the true one (20 seeds, same noise),
-# 0.966 with the PSF measured on noise-free stars: the Moffat β comes out 0.06-0.07 high and a
-# coma with 90 % of the core light passes that misfit to the nucleus (the PSF measurement's
-# matter). Before that measurement was rewritten, comet_tracked had σ 1.33 and poor_seeing and
-# comet_trailed a bias of 0.030 mag on the same seeds.
+# Measured on these frames: pooled pull σ 0.94 (1.4826 MAD), median -0.14; per case biweight σ
+# 0.79-1.28, medians -0.71 (nominal: seeds 0-23, -0.53 on them with the true PSF) to +0.15, bias
+# 0.002-0.015 mag where the goal applies (faint_nucleus 0.018). With the PSF stars fitted on the
+# comet's light (before `measure_psf` took it out): pooled median -0.26, faint_nucleus median
+# -1.04 and bias 0.064 mag, the Moffat β 0.06-0.08 high where the coma holds 90 % of the core.
 
 #: Cases where the bias goal applies: a nucleus with at least 30 % of the light in one FWHM.
 _BIAS_CASES = [name for name, case in NIGHT_CASES.items()
@@ -79,7 +101,9 @@ def test_each_case_pull_sigma(name, recovered):
           "biweight σ", round(biweight_scale(pulls), 3))
     assert s["n_failed"] == 0
     assert all(np.isfinite(r["err_e"]) and r["err_e"] > 0 for r in rows)
-    assert 0.8 <= biweight_scale(pulls) <= 1.25
+    lo, hi = CASE_SIGMA_BAND
+    assert lo <= biweight_scale(pulls) <= hi
+    assert abs(np.median(pulls)) < CASE_MEDIAN_BAND
     # an upper limit must lie above the truth (a 3σ limit misses in 0.13 % of honest cases)
     assert s["limit_violations"] == 0
 

@@ -179,3 +179,23 @@ def test_azimuthal_modulation_is_recovered(make_frame):
     assert fit.modulation["a1"] == pytest.approx(0.3, abs=0.03)
     assert fit.modulation["b1"] == pytest.approx(0.0, abs=0.03)
     assert fit.nucleus_flux_e == pytest.approx(3e4, abs=4 * fit.nucleus_flux_err_e)
+
+
+def test_leverage_sums_to_the_free_parameters():
+    # The hat matrix J (JᵀJ)⁻¹ Jᵀ of a least-squares fit has trace p, the number of free
+    # parameters (Hoaglin & Welsch 1978, Am. Stat. 32, 17, eq. 2.2), each entry within [0, 1].
+    from lmfit import Parameters
+
+    from photpipe.nucleus._separable import fit_separable
+
+    x = np.linspace(0.0, 3.0, 40)
+    rng = np.random.default_rng(3)
+    y = 2.0 * np.exp(-1.3 * x) + 0.5 + rng.normal(0.0, 0.02, x.size)
+    p = Parameters()
+    p.add("rate", value=1.0, min=0.1, max=5.0)
+    res = fit_separable(y, np.full(x.size, 0.02),
+                        lambda t: np.vstack([np.exp(-t["rate"] * x), np.ones_like(x)]), p,
+                        ["a", "c"], steps={"rate": 1e-5})
+    h = res.leverage()
+    assert h.sum() == pytest.approx(3.0, rel=1e-6)
+    assert np.all((h >= 0.0) & (h <= 1.0))

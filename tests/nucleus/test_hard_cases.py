@@ -120,3 +120,30 @@ def test_every_flag_word_is_registered():
             for name in ("nominal", "no_nucleus", "no_coma")]
     for fit in fits:
         assert set(fit.flags) <= set(NUCLEUS_FLAGS)
+
+
+@pytest.mark.parametrize("share", [0.02, 0.2])
+def test_catalogued_star_beside_the_nucleus_is_fitted_not_masked(share):
+    # A catalogued star 2.7 FWHM from the nucleus: its 3-FWHM mask would cover the nucleus, which
+    # was then left out with no value and no limit (core_masked). It is fitted with the nucleus
+    # instead; the truth is the rendered flux (Moffat 1969 star added on the pixel grid).
+    from photpipe.frames.types import CalibratedFrame
+    from photpipe.models.moffat import moffat_pixel_image
+
+    cf = render_case("nominal", 2)
+    angle = 0.7
+    sx = cf.x + 2.7 * cf.fwhm_pix * np.cos(angle)
+    sy = cf.y + 2.7 * cf.fwhm_pix * np.sin(angle)
+    star = share * cf.nucleus_flux_e * moffat_pixel_image(
+        cf.frame.data.shape, sx, sy, fwhm=cf.fwhm_pix, beta=cf.beta, ellipticity=cf.ellipticity,
+        angle=np.deg2rad(cf.angle_deg))
+    rng = np.random.default_rng(2)
+    var = cf.frame.variance + star
+    data = cf.frame.data + star + rng.normal(size=star.shape) * np.sqrt(star)
+    frame = CalibratedFrame(cf.frame.info, data, var, cf.frame.quality)
+    star_xy = np.vstack([cf.star_xy, [sx, sy]])
+    fit = _fit(replace(cf, frame=frame, star_xy=star_xy))
+    assert "star_fitted_near_nucleus" in fit.flags
+    assert "core_masked" not in fit.flags
+    assert np.isfinite(fit.nucleus_flux_e) and fit.nucleus_flux_err_e > 0
+    assert abs(fit.nucleus_flux_e - cf.nucleus_flux_e) < 3 * fit.nucleus_flux_err_e

@@ -105,3 +105,30 @@ def test_aperture_correction_error_is_the_error_of_a_median():
     # one or two stars: their own errors, not a scatter of nothing
     assert aperture_correction_error(0.0, 1, [0.03]) == pytest.approx(np.sqrt(np.pi / 2) * 0.03)
     assert np.isnan(aperture_correction_error(0.01, 0))
+
+
+def test_errors_and_masks_at_frame_edges_agree_with_photutils(field):
+    # the reference: photutils aperture_photometry on full-frame arrays (error = sqrt(variance),
+    # negative variance clipped to 0, masked pixels left out), for stars cut by the frame's edges
+    # and a negative variance pixel; the step itself builds these only in the stars' stamps
+    img, var, _, _, _ = field
+    var = var.copy()
+    var[100, 100] = -5.0
+    mask = np.zeros(img.shape, bool)
+    mask[[1, 99, 100, 198], [2, 100, 101, 197]] = True
+    x = np.array([1.5, 100.2, 198.7, -2.0])
+    y = np.array([2.2, 99.6, 197.4, 100.0])
+    t = measure_star_fluxes(img, var, mask, x, y, radii=[2.5, 5.0], annulus=(8.0, 12.0))
+    xy = np.column_stack([x, y])
+    aps = [CircularAperture(xy, r=r) for r in (2.5, 5.0)]
+    ref = aperture_photometry(img, aps, error=np.sqrt(np.clip(var, 0, None)), mask=mask)
+    counted = aperture_photometry(mask.astype(float), aps[1], method="center")["aperture_sum"]
+    sky = np.asarray(t["sky"])
+    for k, r in enumerate((2.5, 5.0)):
+        want = np.asarray(ref[f"aperture_sum_{k}"]) - sky * np.pi * r * r
+        np.testing.assert_allclose(t[f"flux_{k}"], want, rtol=1e-12)
+        err = np.hypot(np.asarray(ref[f"aperture_sum_err_{k}"]),
+                       np.pi * r * r * np.asarray(t["sky_err"]))
+        np.testing.assert_allclose(t[f"flux_err_{k}"], err, rtol=1e-12)
+    assert list(t["n_masked"]) == [int(round(c)) for c in np.asarray(counted)]
+    assert list(t["n_masked"])[:3] == [1, 2, 1]
