@@ -15,10 +15,10 @@ from photpipe.scenario.recovery import recover_case
 def test_bare_nucleus_campaigns_period_h_and_radius():
     # 20 rendered frames (seeds 1000-1019), 30 three-night campaigns (seeds 5000-5029).
     # Measured: 0 wrong firm periods (before the verdict weighed one harmonic more and the
-    # second harmonic's aliases, 2-3 of 160 campaigns over the cases); H pull robust σ 1.11
+    # second harmonic's aliases, 2-3 of 160 campaigns over the cases); H pull robust σ 1.00
     # (2.0 before the shared calibration error entered H_err); the 68 % radius interval
     # (albedo 0.02-0.06, D = 1329 km / sqrt(p) 10^(-H/5), Harris & Lagerros 2002) held the
-    # true radius in 0.67 of them. The robust σ of 30 normal pulls scatters by about 0.3
+    # true radius in 0.63 of them. The robust σ of 30 normal pulls scatters by about 0.3
     # (the median absolute deviation is 37 % efficient, common practice), so the bounds
     # here are 2 of those either side; tests/size/test_h_uncertainty.py holds 0.8-1.25 on
     # 150 campaigns.
