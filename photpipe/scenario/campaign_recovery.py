@@ -15,8 +15,8 @@ changes with the nucleus's brightness over the rotation (0.3 mag here).
 Every campaign also carries one calibration error shared by all its frames, a normal deviate
 of sd `~photpipe.size.CALIBRATION_ERR_MAG` (the catalogue zero point a real campaign has; the
 frames drawn from the case carry none) at a quantile set by the seed alone
-(`_calibration_error`), so the rest of the campaign does not change with it. The drawn frames come from a pool of a few tens of fitted
-frames, so the pool's mean error (about the frame error over √(pool size)) is shared by all
+(`_calibration_error`), so the rest of the campaign does not change with it. The drawn
+frames come from a pool of a few tens of fitted frames, so the pool's mean error (about the frame error over √(pool size)) is shared by all
 campaigns of a case as well: the calibration term covers it.
 
 The campaign then runs the stages as the pipeline does: `reduce_lightcurve` and
