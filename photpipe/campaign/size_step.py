@@ -17,6 +17,7 @@ from photpipe._warnings import PoorResultWarning
 from photpipe.config import ConfigError, read_filters, read_size
 from photpipe.orbit.bound import acceleration_limit_from_fit
 from photpipe.size import (
+    CALIBRATION_ERR_MAG,
     absolute_magnitude_limit,
     assess_nucleus,
     assess_nucleus_limit,
@@ -179,18 +180,21 @@ def _absolute_magnitude(rows, reduced, rotation, notes):
     times = _emission_times(rows)
     if method == "harmonic" and times is not None:
         h = mean_absolute_magnitude(reduced, errors, method="harmonic", times=times * u.day,
-                                    period=period)
+                                    period=period, shared_err=CALIBRATION_ERR_MAG)
         notes.append(f"H is the constant term of a 4-harmonic Fourier fit in flux at the "
                      f"rotation period {period.to_value(u.h):g} h (light-time corrected times)")
     else:
         h = mean_absolute_magnitude(reduced, errors, method="rotation-unknown",
-                                    times=None if times is None else times * u.day)
+                                    times=None if times is None else times * u.day,
+                                    shared_err=CALIBRATION_ERR_MAG)
         status = "no rotation result" if not rotation else (
             f"rotation period {rotation.get('status', 'unknown')}")
         notes.append(f"H without a rotation model ({status}): the mean flux of all points, "
                      "its error covering the unknown rotational sampling (the scatter of the "
                      "nightly means from 4 nights on, else the rotational spread over "
                      "sqrt(3 n_nights))")
+    notes.append(f"the H error holds {CALIBRATION_ERR_MAG:g} mag shared by every frame (the "
+                 "catalogue zero point and colour), which averaging frames does not reduce")
     if rotation is not None and rotation.get("amplitude_mag") is not None:
         notes.append(f"lightcurve amplitude {float(rotation['amplitude_mag']):g} mag: the radius "
                      "is that of the mean cross-section, not of the long axis")

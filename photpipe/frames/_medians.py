@@ -1,4 +1,4 @@
-"""Running medians of 3, 5 and 7 pixels by comparator networks (fast on whole frames).
+"""Running medians of 3, 5, 7 and 9 pixels by comparator networks (fast on whole frames).
 
 A comparator sorts two values (min, max). The networks below leave the median of their inputs in
 their middle wire; each comparator is one `numpy.minimum` and one `numpy.maximum` over the whole
@@ -14,12 +14,14 @@ import numpy as np
 __all__ = ["Buffers", "running_median", "separable_median"]
 
 # (wire, wire) comparators; after them the median is on wire n // 2. The networks are from memory
-# (3, 7 and 13 comparators) and proven by the exhaustive 0/1 test, not by a citation.
+# (3, 7, 13 and 19 comparators) and proven by the exhaustive 0/1 test, not by a citation.
 _NETWORKS = {
     3: ((0, 1), (1, 2), (0, 1)),
     5: ((0, 1), (3, 4), (0, 3), (1, 4), (1, 2), (2, 3), (1, 2)),
     7: ((0, 5), (0, 3), (1, 6), (2, 4), (0, 1), (3, 5), (2, 6), (2, 3), (3, 6), (4, 5),
         (1, 4), (1, 3), (3, 4)),
+    9: ((1, 2), (4, 5), (7, 8), (0, 1), (3, 4), (6, 7), (1, 2), (4, 5), (7, 8), (0, 3),
+        (5, 8), (4, 7), (3, 6), (1, 4), (2, 5), (4, 7), (4, 2), (6, 4), (4, 2)),
 }
 
 

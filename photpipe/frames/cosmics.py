@@ -6,8 +6,10 @@ mask of pixels to ignore, and returns a boolean mask of cosmic-ray hits.
 
 import numpy as np
 from scipy import ndimage
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
 
-from ._lacosmic import laplacian_cosmics
+from ._lacosmic import laplacian_cosmics, sparse_nonzero
 
 __all__ = ["lacosmic_mask", "COSMIC_METHODS", "find_cosmic_rays"]
 
@@ -109,32 +111,73 @@ def lacosmic_mask(data, variance, ignore, *, read_noise, saturated=None, star_ra
     mask = mask[pad:-pad, pad:-pad] if pad else mask
     mask &= ~bad
     if star_ratio is not None and star_ratio > 0:
-        mask = _drop_star_like(mask, np.where(bad, np.nan, data), star_ratio)
+        mask = _drop_star_like(mask, data, bad, star_ratio)
     return mask
 
 
-def _drop_star_like(mask, data, ratio):
-    """Unflag groups whose brightest pixel has bright neighbours, as a star's core has."""
-    labels, n = ndimage.label(mask, structure=np.ones((3, 3), bool))
-    if n == 0:
+def _groups(ys, xs, shape):
+    """The 8-connected group of each pixel (ys, xs), given in row-major order: labels 0..n-1."""
+    nx = shape[1]
+    flat = ys * nx + xs
+    links = []
+    for dy, dx in ((0, 1), (1, -1), (1, 0), (1, 1)):
+        target = (ys + dy) * nx + xs + dx
+        place = np.minimum(np.searchsorted(flat, target), len(flat) - 1)
+        linked = (flat[place] == target) & (xs + dx >= 0) & (xs + dx < nx)
+        links.append((np.flatnonzero(linked), place[linked]))
+    i = np.concatenate([a for a, _ in links])
+    j = np.concatenate([b for _, b in links])
+    graph = coo_matrix((np.ones(len(i), np.int8), (i, j)), shape=(len(flat), len(flat)))
+    return connected_components(graph, directed=False)[1]
+
+
+def _around(data, bad, ys, xs, reach):
+    """The (2 reach + 1)**2 pixels about each (ys, xs), NaN where bad or past the frame."""
+    offsets = np.arange(-reach, reach + 1)
+    rows, cols = ys[:, None, None] + offsets[:, None], xs[:, None, None] + offsets
+    inside = (rows >= 0) & (rows < data.shape[0]) & (cols >= 0) & (cols < data.shape[1])
+    rows, cols = np.clip(rows, 0, data.shape[0] - 1), np.clip(cols, 0, data.shape[1] - 1)
+    values = np.where(inside & ~bad[rows, cols], data[rows, cols], np.nan)
+    return values.reshape(len(ys), -1)
+
+
+def _nan_median_rows(values):
+    """`numpy.nanmedian` of each row (NaN for a row without a number), in the rows' dtype."""
+    ordered = np.sort(values, axis=1)                       # NaN sorts last
+    count = np.count_nonzero(~np.isnan(values), axis=1)
+    rows = np.arange(len(values))
+    low = ordered[rows, np.maximum((count - 1) // 2, 0)]
+    high = ordered[rows, np.maximum(count // 2, 0)]
+    middle = np.where(count % 2 == 1, high, (low + high) / values.dtype.type(2))
+    return np.where(count > 0, middle, np.nan)
+
+
+def _drop_star_like(mask, data, bad, ratio):
+    """Unflag groups whose brightest pixel has bright neighbours, as a star's core has.
+
+    Worked on the flagged pixels' coordinates: the groups, each one's brightest pixel (the
+    first in row-major order on a tie), the median of the 9x9 pixels about it (background)
+    and of its 8 neighbours, bad pixels and the frame's outside left out of both.
+    """
+    ys, xs = sparse_nonzero(mask)
+    if len(ys) == 0:
         return mask
-    keep = np.ones(n + 1, bool)
-    for k, box in enumerate(ndimage.find_objects(labels), 1):
-        # the group's brightest pixel, searched in its own box (the first one on a tie, as
-        # scipy's maximum_position gives)
-        values = np.where(labels[box] == k, np.nan_to_num(data[box], nan=-np.inf), -np.inf)
-        dy, dx = np.unravel_index(np.argmax(values), values.shape)
-        y, x = box[0].start + dy, box[1].start + dx
-        around = data[max(0, y - 4):y + 5, max(0, x - 4):x + 5]
-        ring = data[max(0, y - 1):y + 2, max(0, x - 1):x + 2].ravel().tolist()
-        ring.remove(data[y, x])
-        background = np.nanmedian(around)
-        excess = data[y, x] - background
-        neighbours = np.nanmedian(ring) - background if np.isfinite(ring).any() else 0.0
-        if excess > 0 and neighbours >= ratio * excess:
-            keep[k] = False
-    keep[0] = False
-    return keep[labels]
+    data = np.asarray(data)
+    group = _groups(ys, xs, mask.shape)
+    values = data[ys, xs]
+    first = np.lexsort((np.arange(len(ys)), -values, group))   # by group, brightest first
+    starts = first[np.r_[True, np.diff(group[first]) != 0]]
+    y, x = ys[starts], xs[starts]
+    background = _nan_median_rows(_around(data, bad, y, x, 4))
+    ring = np.delete(_around(data, bad, y, x, 1), 4, axis=1).astype(np.float64)
+    excess = data[y, x] - background
+    around = _nan_median_rows(ring)
+    neighbours = np.where(np.isnan(around), 0.0, around - background)
+    star = (excess > 0) & (neighbours >= ratio * excess)    # by group number (starts in order)
+    out = mask.copy()
+    dropped = star[group]
+    out[ys[dropped], xs[dropped]] = False
+    return out
 
 
 def _no_cosmics(data, variance, ignore, *, read_noise, saturated=None, **options):

@@ -7,10 +7,11 @@ the mean of the surrounding ``background_box`` blocks subtracted. Subtracting th
 removes smooth light, so the noise on a bright coma does not turn into thousands of false peaks.
 This is several times faster than a matched-filter finder on a full 2048 × 2048 frame and loses
 nothing the zero point needs. Centroids are then measured on the full-resolution frame with
-photutils' ``centroid_sources`` and ``centroid_quadratic`` (a quadratic fitted to the brightest
-pixels in a box around each peak). The FWHM comes from a closed-form fit of a circular
-Gaussian to the log of each star's core (Caruana's method with the weights of Guo 2011), checked
-in the tests against photutils' ``psf.fit_fwhm``, which is about a hundred times slower.
+photutils' ``centroid_quadratic`` (a quadratic fitted to the brightest pixels in a box around
+each peak), worked for all sources at once (`photpipe.photometry._centroids`). The FWHM comes
+from a closed-form fit of a circular Gaussian to the log of each star's core (Caruana's method
+with the weights of Guo 2011), checked in the tests against photutils' ``psf.fit_fwhm``, which
+is about a hundred times slower.
 """
 
 import warnings
@@ -18,10 +19,11 @@ import warnings
 import numpy as np
 from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
-from photutils.centroids import centroid_quadratic, centroid_sources
 from photutils.detection import find_peaks
 from photutils.utils.exceptions import NoDetectionsWarning
 from scipy.ndimage import uniform_filter
+
+from ._centroids import quadratic_centroids
 
 __all__ = ["sky_statistics", "detect_sources", "measure_fwhm", "measure_fwhm_minor"]
 
@@ -74,15 +76,39 @@ def _bin(a, b):
     for dy in range(b):
         for dx in range(b):
             part = a[dy:ny:b, dx:nx:b]
-            out = part.astype(np.float64) if out is None else out + part
+            if out is None:
+                out = part.astype(np.float64)
+            else:
+                out += part
     return out
 
 
 def _contrast_snr(signal, variance, size):
     """Signal above the local mean (a ``size`` x ``size`` box), over its noise."""
     local = uniform_filter(signal, size=size, mode="nearest")
+    noise = np.where(variance > 0, variance, np.inf)
+    np.sqrt(noise, out=noise)
+    np.subtract(signal, local, out=local)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return (signal - local) / np.sqrt(np.where(variance > 0, variance, np.inf))
+        return np.divide(local, noise, out=local)
+
+
+def _peaks_3x3(image, threshold):
+    """Pixels above ``threshold`` that equal the maximum of their 3x3 box, the edge left out.
+
+    What photutils' ``find_peaks(image, threshold, box_size=3, border_width=1)`` finds on a
+    finite image, in the same (row-major) order, with the maximum taken only about the pixels
+    above the threshold.
+    """
+    ys, xs = np.nonzero(image[1:-1, 1:-1] > threshold)
+    ys, xs = ys + 1, xs + 1
+    values = image[ys, xs]
+    top = np.full(len(ys), -np.inf, dtype=image.dtype)
+    for dy in (-1, 0, 1):
+        for dx in (-1, 0, 1):
+            np.maximum(top, image[ys + dy, xs + dx], out=top)
+    peak = values == top
+    return ys[peak], xs[peak]
 
 
 def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_size=3,
@@ -137,26 +163,29 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     sig_b = _bin(work, b) if b > 1 else work.astype(np.float64)
     var_b = _bin(var, b) if b > 1 else var.astype(np.float64)
     snr = _contrast_snr(sig_b, var_b, int(background_box))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", NoDetectionsWarning)
-        peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
+    if box_size == 3:
+        peak_y, peak_x = _peaks_3x3(snr, threshold)
+    else:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", NoDetectionsWarning)
+            peaks = find_peaks(snr, threshold, box_size=box_size, border_width=1)
+        peak_y, peak_x = ((np.zeros(0, int),) * 2 if peaks is None
+                          else (np.asarray(peaks["y_peak"]), np.asarray(peaks["x_peak"])))
     out = QTable({"x": np.zeros(0), "y": np.zeros(0), "snr": np.zeros(0), "peak": np.zeros(0),
                   "centroided": np.zeros(0, bool)})
-    if peaks is None or len(peaks) == 0:
+    if len(peak_y) == 0:
         return out
-    order = np.argsort(-np.asarray(peaks["peak_value"]))[:max_sources]
-    xb = np.asarray(peaks["x_peak"], dtype=float)[order]
-    yb = np.asarray(peaks["y_peak"], dtype=float)[order]
+    peak_value = snr[peak_y, peak_x]
+    order = np.argsort(-peak_value)[:max_sources]
+    xb = np.asarray(peak_x, dtype=float)[order]
+    yb = np.asarray(peak_y, dtype=float)[order]
     x0 = b * xb + (b - 1) / 2.0
     y0 = b * yb + (b - 1) / 2.0
     box = int(centroid_box) | 1
     x, y = x0.copy(), y0.copy()
     nc = min(int(n_centroid), len(x0))
     if nc:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            xn, yn = centroid_sources(work, x0[:nc], y0[:nc], box_size=box,
-                                      centroid_func=centroid_quadratic)
+        xn, yn = quadratic_centroids(work, x0[:nc], y0[:nc], box)
         ok = np.isfinite(xn) & np.isfinite(yn) & (np.hypot(xn - x0[:nc], yn - y0[:nc]) <= box)
         x[:nc] = np.where(ok, xn, x0[:nc])
         y[:nc] = np.where(ok, yn, y0[:nc])
@@ -165,7 +194,7 @@ def detect_sources(data, variance, good, *, sky, threshold=5.0, binning=4, box_s
     ny, nx = data.shape
     ix = np.clip(np.round(x).astype(int), 0, nx - 1)
     iy = np.clip(np.round(y).astype(int), 0, ny - 1)
-    out = QTable({"x": x, "y": y, "snr": np.asarray(peaks["peak_value"], float)[order],
+    out = QTable({"x": x, "y": y, "snr": np.asarray(peak_value, float)[order],
                   "peak": work[iy, ix], "centroided": centroided})
     return out
 

@@ -1,9 +1,10 @@
 """Aperture photometry of field stars with a local sky and a curve-of-growth aperture correction.
 
-Sums come from photutils ``aperture_photometry`` (exact pixel overlap) with the variance plane as
-the error; the local sky is the sigma-clipped median in an annulus, with the annulus pixels taken
-by photutils' ``ApertureMask.get_values`` and clipped for all stars at once (astropy
-``sigma_clipped_stats`` along an axis, much faster than one clipping call per star).
+Sums are those of photutils ``aperture_photometry`` (exact pixel overlap) with the variance plane
+as the error; the local sky is the sigma-clipped median in an annulus, the pixels whose centres
+lie in it, clipped for all stars at once (astropy ``sigma_clipped_stats`` along an axis, much
+faster than one clipping call per star). Both are taken by `photpipe.photometry._circles`, which
+gives photutils' numbers without its per-star objects.
 
 The stars are measured through a small aperture (good signal-to-noise) and a
 large one; the median ratio of large to small over the brightest good stars is the aperture
@@ -16,7 +17,8 @@ import warnings
 import numpy as np
 from astropy.stats import sigma_clipped_stats
 from astropy.table import QTable
-from photutils.aperture import CircularAnnulus, CircularAperture, aperture_photometry
+
+from ._circles import circle_sums, masked_in_circles, ring_values
 
 __all__ = ["measure_star_fluxes", "aperture_correction", "aperture_correction_error"]
 
@@ -68,45 +70,19 @@ def measure_star_fluxes(data, variance, mask, x, y, *, radii, annulus):
         out["sky"] = out["sky_err"] = np.zeros(0)
         out["n_masked"] = np.zeros(0, int)
         return out
-    apertures = [CircularAperture(xy, r=float(r)) for r in radii]
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        phot = aperture_photometry(data, apertures, error=_stamp_errors(variance, apertures),
-                                   mask=mask, method="exact")
-    n_masked = [m.get_values(mask).sum() for m in apertures[-1].to_mask(method="center")]
-    sky, sky_std, n_sky = _annulus_sky(data, mask, xy, annulus)
+    n_masked = masked_in_circles(mask, xy, float(radii[-1]))
+    sky, sky_std, n_sky = clipped_rings(ring_values(data, mask, xy, *annulus))
     sky_err = sky_std / np.sqrt(np.clip(n_sky, 1.0, None))
+    all_sums, all_errs = circle_sums(data, variance, mask, xy, radii)
     for k, r in enumerate(radii):
         area = np.pi * r * r
-        sums = np.asarray(phot[f"aperture_sum_{k}"], dtype=float)
-        errs = np.asarray(phot[f"aperture_sum_err_{k}"], dtype=float)
+        sums, errs = all_sums[k], all_errs[k]
         out[f"flux_{k}"] = sums - sky * area
         out[f"flux_err_{k}"] = np.sqrt(errs**2 + (area * sky_err) ** 2)
     out["sky"] = sky
     out["sky_err"] = sky_err
     out["n_masked"] = np.round(np.asarray(n_masked, dtype=float)).astype(int)
     return out
-
-
-def _stamp_errors(variance, apertures):
-    """Per-pixel 1σ errors, sqrt(max(variance, 0)), filled only in the apertures' stamps.
-
-    photutils reads the error array only inside each aperture's bounding box, so the rest of the
-    frame stays zero; ``np.zeros`` maps its pages lazily, and only the stamps' pages are touched.
-    """
-    error = np.zeros(variance.shape, dtype=np.result_type(variance.dtype, np.float16))
-    for aperture in apertures:
-        for box in np.atleast_1d(aperture.bbox):
-            large, _ = box.get_overlap_slices(variance.shape)
-            if large is not None:
-                error[large] = np.sqrt(np.clip(variance[large], 0, None))
-    return error
-
-
-def _annulus_sky(data, mask, xy, annulus):
-    annuli = CircularAnnulus(xy, r_in=annulus[0], r_out=annulus[1]).to_mask(method="center")
-    rings = [np.where(m.get_values(mask) > 0, np.nan, m.get_values(data)) for m in annuli]
-    return clipped_rings(rings)
 
 
 def clipped_rings(rings):

@@ -359,7 +359,8 @@ def _verdict(points, grid, fit, fap, evidence, shape, errors, opts, flags):
                            shape=shape, f_range=(grid.f0, grid.f_max),
                            baseline_d=grid.baseline_d, nights=points.nights,
                            period_err_h=errors.period_err_h,
-                           options=VerdictOptions(opts.alias_delta_chi2, opts.fap_limit))
+                           options=VerdictOptions(opts.alias_delta_chi2, opts.fap_limit),
+                           window=evidence.window)
     if verdict.status != "period":
         flags.append(f"period_{verdict.status}")
         _warn(verdict.headline)

@@ -66,3 +66,43 @@ def test_saturated_areas_grown_in_boxes_equal_the_whole_frame_dilation():
     mask[80:90, 110:120] = True
     expected = ndi.binary_dilation(mask, structure=_disk(_SATURATED_GROW))
     np.testing.assert_array_equal(_grown_around(mask, _SATURATED_GROW), expected)
+
+
+def _star_like_one_group_at_a_time(mask, data, ratio):
+    """The rule of `_drop_star_like` group by group with scipy's labels: the oracle."""
+    from scipy import ndimage as ndi
+
+    labels, n = ndi.label(mask, structure=np.ones((3, 3), bool))
+    keep = np.ones(n + 1, bool)
+    for k, box in enumerate(ndi.find_objects(labels), 1):
+        values = np.where(labels[box] == k, np.nan_to_num(data[box], nan=-np.inf), -np.inf)
+        dy, dx = np.unravel_index(np.argmax(values), values.shape)
+        y, x = box[0].start + dy, box[1].start + dx
+        background = np.nanmedian(data[max(0, y - 4):y + 5, max(0, x - 4):x + 5])
+        ring = data[max(0, y - 1):y + 2, max(0, x - 1):x + 2].ravel().tolist()
+        ring.remove(data[y, x])
+        excess = data[y, x] - background
+        neighbours = np.nanmedian(ring) - background if np.isfinite(ring).any() else 0.0
+        keep[k] = not (excess > 0 and neighbours >= ratio * excess)
+    keep[0] = False
+    return keep[labels]
+
+
+def test_star_like_groups_released_as_one_group_at_a_time():
+    # random masks, stars, bad pixels, ties and frame edges against the per-group loop
+    from photpipe.frames.cosmics import _drop_star_like
+
+    rng = np.random.default_rng(5)
+    for trial in range(150):
+        shape = tuple(rng.integers(5, 50, 2))
+        y, x = np.mgrid[0:shape[0], 0:shape[1]]
+        data = rng.normal(100.0, 10.0, shape)
+        for _ in range(3):
+            y0, x0, w = rng.uniform(0, shape[0]), rng.uniform(0, shape[1]), rng.uniform(0.3, 2)
+            data += rng.uniform(50, 3000) * np.exp(-((y - y0) ** 2 + (x - x0) ** 2) / (2 * w * w))
+        data = (np.round(data / 20) * 20 if trial % 3 == 0 else data).astype(np.float32)
+        bad = rng.uniform(size=shape) < 0.05
+        mask = (rng.uniform(size=shape) < rng.uniform(0.02, 0.4)) & ~bad
+        ratio = rng.uniform(0.05, 0.5)
+        expected = _star_like_one_group_at_a_time(mask, np.where(bad, np.nan, data), ratio)
+        np.testing.assert_array_equal(_drop_star_like(mask, data, bad, ratio), expected)

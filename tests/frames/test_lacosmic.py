@@ -147,3 +147,27 @@ def test_later_passes_about_the_replaced_pixels_give_the_whole_frame_mask(seed):
     local = laplacian_cosmics(data, variance, bad, niter=4)
     assert whole.sum() > 100
     assert np.array_equal(local, whole)
+
+
+def test_first_pass_worked_densely_when_the_screen_passes_much_of_the_frame(monkeypatch):
+    # past _SCREEN_MAX_SHARE the first pass runs the whole-frame medians: the same mask
+    from photpipe.frames import _lacosmic
+
+    rng = np.random.default_rng(6)
+    data, variance, _ = _field(rng, shape=(120, 150), n_stars=30, n_hits=50)
+    bad = np.zeros(data.shape, bool)
+    screened = laplacian_cosmics(data, variance, bad, niter=2)
+    monkeypatch.setattr(_lacosmic, "_SCREEN_MAX_SHARE", 0.0)
+    assert np.array_equal(laplacian_cosmics(data, variance, bad, niter=2), screened)
+    assert screened.sum() > 40
+
+
+def test_sparse_nonzero_is_numpy_nonzero():
+    from photpipe.frames._lacosmic import sparse_nonzero
+
+    rng = np.random.default_rng(9)
+    for trial in range(100):
+        mask = rng.uniform(size=tuple(rng.integers(1, 40, 2))) < rng.uniform(0.0, 0.5)
+        mask = mask[:, ::2] if trial % 3 == 0 else mask        # not contiguous
+        want, got = np.nonzero(mask), sparse_nonzero(mask)
+        assert np.array_equal(got[0], want[0]) and np.array_equal(got[1], want[1])

@@ -100,3 +100,50 @@ def test_fwhm_of_stars_on_a_coma_uses_their_own_sky():
     on_coma = img + coma_image(img.shape, 80.0, 80.0, 1.0e4).astype(np.float32)
     assert measure_fwhm(on_coma, x, y, sky=200.0) == pytest.approx(flat, rel=0.03)
     assert measure_fwhm(on_coma, x, y, sky=200.0, local_sky=False) > 1.3 * flat
+
+
+def test_peaks_of_3x3_boxes_are_those_photutils_finds():
+    # photutils.detection.find_peaks (reference library) on noise, with ties and tiny frames
+    from photutils.detection import find_peaks
+
+    from photpipe.photometry.detection import _peaks_3x3
+
+    rng = np.random.default_rng(4)
+    for trial in range(60):
+        image = rng.normal(0.0, 3.0, tuple(rng.integers(3, 40, 2)))
+        image = np.round(image) if trial % 2 else image
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            want = find_peaks(image, 2.0, box_size=3, border_width=1)
+        ys, xs = _peaks_3x3(image, 2.0)
+        if want is None:
+            assert len(ys) == 0
+        else:
+            np.testing.assert_array_equal(ys, want["y_peak"])
+            np.testing.assert_array_equal(xs, want["x_peak"])
+
+
+def test_quadratic_centroids_are_photutils_centroid_sources():
+    # photutils.centroids (reference library) on stars, noise, boxes cut by the frame's edge
+    from photutils.centroids import centroid_quadratic, centroid_sources
+
+    from photpipe.photometry._centroids import quadratic_centroids
+
+    rng = np.random.default_rng(3)
+    image = rng.normal(0.0, 5.0, (120, 150))
+    yy, xx = np.mgrid[:120, :150]
+    xs, ys = rng.uniform(0, 149, 300), rng.uniform(0, 119, 300)
+    for x0, y0 in zip(xs[:80], ys[:80], strict=True):
+        image += rng.uniform(50, 2000) * np.exp(-((xx - x0) ** 2 + (yy - y0) ** 2)
+                                                / (2 * rng.uniform(0.8, 2.5) ** 2))
+    x = np.round(xs) + 0.5 * ((rng.uniform(size=300) < 0.5) & (xs < 148))
+    y = np.round(ys)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        want_x, want_y = centroid_sources(image, x, y, box_size=9,
+                                          centroid_func=centroid_quadratic)
+    got_x, got_y = quadratic_centroids(image, x, y, 9)
+    assert np.isfinite(want_x).sum() > 200
+    np.testing.assert_array_equal(np.isfinite(got_x), np.isfinite(want_x))
+    np.testing.assert_allclose(got_x, want_x, rtol=0, atol=1e-9)   # least squares, two ways
+    np.testing.assert_allclose(got_y, want_y, rtol=0, atol=1e-9)

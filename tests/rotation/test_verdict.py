@@ -160,3 +160,49 @@ def test_firm_period_headline_and_contract():
     assert d["status"] == "period" and d["headline"].startswith("rotation period 7.3")
     assert d["allowed_periods"][0]["relation"] == "adopted"
     assert d["n_upper_limits_set_aside"] == 0 and d["set_aside"] == {}
+
+
+def _near_symmetric_three_nights(seed):
+    """Three nights at one site, a nearly symmetric double-peaked curve (asymmetry 0.1)."""
+    rng = np.random.default_rng(seed)
+    table, truth = synthetic_lightcurve(period=rng.uniform(4, 14) * u.h, rng=rng, n_nights=3,
+                                        sites=ONE_SITE, cloud_fraction=0.0, cadence=8 * u.min,
+                                        noise=0.03 * u.mag, amplitude=0.3 * u.mag,
+                                        asymmetry=0.1)
+    return table, truth
+
+
+def test_alias_of_the_second_harmonic_needing_a_third_harmonic_is_allowed():
+    # Seed 127: the single-peaked curve sits on a 1/day alias of the body's second harmonic,
+    # and its doubled period, 4.215 h, was printed firm for a true 4.625 h: the truth is
+    # f - (1/day)/2, which no rival at f ± k/day reached, and with 2 harmonics it lost by
+    # Δχ² 18 (with 3 harmonics, 3.6). Now it is weighed, with one harmonic more, and allowed.
+    table, truth = _near_symmetric_three_nights(127)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RotationWarning)
+        res = search_rotation(reduce_lightcurve(table), n_bootstrap=0,
+                              rng=np.random.default_rng(127))
+    d = res.to_dict()
+    assert d["status"] == "ambiguous"
+    true_h = truth.period.to_value(u.h)
+    match = [p for p in d["allowed_periods"] if abs(p["period_h"] / true_h - 1) < 0.01]
+    assert match and "with 3 harmonics" in match[0]["relation"]
+    assert match[0]["delta_chi2"] < 10
+
+
+@pytest.mark.slow
+def test_three_nights_at_one_site_never_a_wrong_firm_period():
+    # Seeds 0-59 of the nearly symmetric three-night campaign, 2-60 h searched (measured when
+    # written: before the change 1 wrong firm period in 300 seeds and 95 right; now none wrong
+    # and 51 right in 300; here none wrong and at least 8 right of 60, 15 measured)
+    firm_right = 0
+    for seed in range(60):
+        table, truth = _near_symmetric_three_nights(seed)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RotationWarning)
+            res = search_rotation(reduce_lightcurve(table), n_bootstrap=0,
+                                  rng=np.random.default_rng(seed))
+        if res.status == "period":
+            assert abs(float(res.period / truth.period) - 1) < 0.02, seed
+            firm_right += 1
+    assert firm_right >= 8

@@ -13,6 +13,7 @@ from astropy import units as u
 from photpipe._warnings import PoorResultWarning
 from photpipe.rotation import reduce_lightcurve, synthetic_lightcurve
 from photpipe.size import (
+    CALIBRATION_ERR_MAG,
     AbsoluteMagnitude,
     assess_nucleus,
     fit_phase_coefficient,
@@ -139,3 +140,44 @@ def test_large_h_error_is_flagged_and_said():
     small = assess_nucleus(h, band="V", phase=phase_coefficient_assumed(0.035, 5.0),
                            n_samples=5000, rng=2)
     assert small.status == "radius" and small.reason == ""
+
+
+def test_shared_error_adds_in_quadrature():
+    # an error every point shares is not reduced by averaging (common practice)
+    mag, err = [15.1, 14.9, 15.1, 14.9], [0.02] * 4
+    alone = mean_absolute_magnitude(mag, err)
+    h = mean_absolute_magnitude(mag, err, shared_err=0.02 * u.mag)
+    assert h.H == alone.H and h.H_err_statistical == pytest.approx(alone.H_err, rel=1e-12)
+    assert h.H_err == pytest.approx(np.hypot(alone.H_err, 0.02), rel=1e-12)
+    assert h.H_err_shared == 0.02
+    with pytest.raises(ValueError, match="'shared_err' must be zero or positive"):
+        mean_absolute_magnitude(mag, err, shared_err=-0.01)
+
+
+def _bare_nucleus_campaign(seed):
+    """Six nights, 1 % frame errors, a calibration error of 0.02 mag shared by all frames."""
+    rng = np.random.default_rng(seed)
+    table, truth = synthetic_lightcurve(period=rng.uniform(4, 14) * u.h, rng=rng, n_nights=6,
+                                        sites=ONE_SITE, cloud_fraction=0.0, noise=0.01 * u.mag,
+                                        amplitude=0.3 * u.mag)
+    table["nucleus_mag"] += rng.normal(0.0, CALIBRATION_ERR_MAG)
+    return reduce_lightcurve(table), truth
+
+
+def test_h_error_holds_the_calibration_error_every_frame_shares():
+    # Measured when written (seeds 0-149, known period): pulls robust σ 1.05 with the shared
+    # error and 13.4 without it (~90 frames of 1 % give H to 0.0015 mag, but the zero point
+    # all of them share is off by 0.02 mag). The recovery campaigns of the bare-nucleus case
+    # showed it as a pull σ of 2.0 (benchmarks/recovery.py). (Seed 198's 12.0 h period, two
+    # cycles a day, leaves the 4-harmonic fit degenerate: the pipeline calls such a period
+    # ambiguous, its rotation unobserved, and never fits it.)
+    with_shared, without = [], []
+    for seed in range(150):
+        lc, truth = _bare_nucleus_campaign(seed)
+        for out, shared in ((with_shared, CALIBRATION_ERR_MAG), (without, 0.0)):
+            h = mean_absolute_magnitude(lc.mag, lc.mag_err, method="harmonic",
+                                        times=lc.epoch_mjd * u.day, period=truth.period,
+                                        shared_err=shared)
+            out.append((h.H - _true_h(truth)) / h.H_err)
+    assert 0.8 < _robust_sigma(np.array(with_shared)) < 1.25
+    assert _robust_sigma(np.array(without)) > 3
