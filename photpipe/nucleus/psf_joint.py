@@ -258,8 +258,8 @@ def fit_stars_jointly(stamps, *, fwhm_guess=3.0, beta_guess=3.0, offsets=((0.0, 
     -----
     After a first fit, pixels more than 5σ above it outside 1.5 FWHM of a star are masked (grown
     by 2 pixels), so are discs of 2 FWHM about fainter neighbours the matched filter finds in
-    the residual beyond 2 FWHM of a star, and stars whose χ²/dof exceeds `STAR_OUTLIER_FACTOR` times the median are left
-    out; the fit is then repeated from where it stopped.
+    the residual beyond 2 FWHM of a star, and stars whose χ²/dof exceeds `STAR_OUTLIER_FACTOR`
+    times the median are left out; the fit is then repeated from where it stopped.
     """
     if not stamps:
         msg = "no star stamp to fit a Moffat profile to"
