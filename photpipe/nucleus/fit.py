@@ -10,7 +10,7 @@ from the scatter of the star-by-star fits (`psf_shape_error`), and the two are a
 quadrature. A residual bootstrap alone would miss that second part (it resamples the
 residuals of a fit made with the same PSF), and was the stage's main cost; it stays as an
 option. The pulls (F - F_true)/σ_F over the named cases of `photpipe.scenario.NIGHT_CASES`
-(24 seeds each) have a pooled σ of 0.94 and median -0.14 (tests/nucleus/test_case_pulls.py
+(24 seeds each) have a pooled σ of 0.97 and median -0.08 (tests/nucleus/test_case_pulls.py
 gives the figures per case).
 """
 

@@ -16,8 +16,9 @@ Every campaign also carries one calibration error shared by all its frames, a no
 of sd `~photpipe.size.CALIBRATION_ERR_MAG` (the catalogue zero point a real campaign has; the
 frames drawn from the case carry none) at a quantile set by the seed alone
 (`_calibration_error`), so the rest of the campaign does not change with it. The drawn
-frames come from a pool of a few tens of fitted frames, so the pool's mean error (about the frame error over √(pool size)) is shared by all
-campaigns of a case as well: the calibration term covers it.
+frames come from a pool of a few tens of fitted frames, so the pool's mean error (about the
+frame error over √(pool size)) is shared by all campaigns of a case as well: the calibration
+term covers it.
 
 The campaign then runs the stages as the pipeline does: `reduce_lightcurve` and
 `search_rotation` on the nucleus magnitudes (upper limits kept as limits), the absolute

@@ -80,11 +80,12 @@ def test_error_bars_hold_over_all_cases(recovered):
     assert abs(np.median(pulls)) < POOLED_MEDIAN_BAND
 
 
-# Measured on these frames: pooled pull σ 0.94 (1.4826 MAD), median -0.14; per case biweight σ
-# 0.79-1.28, medians -0.71 (nominal: seeds 0-23, -0.53 on them with the true PSF) to +0.15, bias
-# 0.002-0.015 mag where the goal applies (faint_nucleus 0.018). With the PSF stars fitted on the
-# comet's light (before `measure_psf` took it out): pooled median -0.26, faint_nucleus median
-# -1.04 and bias 0.064 mag, the Moffat β 0.06-0.08 high where the coma holds 90 % of the core.
+# Measured on these frames: pooled pull σ 0.97 (1.4826 MAD), median -0.08; per case biweight σ
+# 0.81-1.28, medians -0.68 (nominal: seeds 0-23, -0.53 on them with the true PSF) to +0.23, bias
+# 0.000-0.015 mag where the goal applies (faint_nucleus 0.014). With the PSF stars fitted on the
+# comet's light and beside faint neighbours (before `measure_psf` left both out): pooled median
+# -0.26, faint_nucleus median -1.04 and bias 0.064 mag, the Moffat β 0.06-0.08 high where the
+# coma holds 90 % of the core.
 
 #: Cases where the bias goal applies: a nucleus with at least 30 % of the light in one FWHM.
 _BIAS_CASES = [name for name, case in NIGHT_CASES.items()

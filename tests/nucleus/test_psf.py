@@ -123,8 +123,9 @@ def test_coma_under_the_stars_does_not_steepen_the_moffat(seed):
     # Stars 25-80 px from a coma holding 90 % of the core's light, noise-free. The truth is the
     # generator's Moffat (1969) profile, β = 3 and its FWHM (FWHM = 2α√(2^(1/β) - 1), Moffat
     # 1969; Trujillo et al. 2001, MNRAS 328, 977, eq. 5). A sloping sky alone cannot follow the
-    # coma's curvature (K/ρ³) and gave β 3.06-3.08 on these frames; with the comet's light
-    # taken out of the stamps β is within 0.01 and the FWHM within 0.3 %.
+    # coma's curvature (K/ρ³) and gave β 3.02-3.05 on these frames (3.06-3.08 before faint
+    # neighbours were left out); with the comet's light taken out of the stamps β is within
+    # 0.01 and the FWHM within 0.3 %.
     from photpipe.scenario import render_case
 
     cf = render_case("faint_nucleus", seed)
@@ -135,4 +136,21 @@ def test_coma_under_the_stars_does_not_steepen_the_moffat(seed):
     assert psf.fwhm_major_pix == pytest.approx(cf.fwhm_pix, rel=0.003)
     # without the comet's position nothing is taken out: the old bias shows
     blind = measure_psf(frame, cf.star_xy, **kw)
-    assert blind.beta - cf.beta > 0.03
+    assert blind.beta - cf.beta > 0.015
+
+
+@pytest.mark.parametrize("seed", [2, 4, 6])
+def test_faint_neighbours_of_the_psf_stars_are_left_out(seed):
+    # Poor-seeing frames (FWHM 3-4 px) with stars below the catalogue limit beside some PSF
+    # stars, noise-free, no coma; the truth is the generator's Moffat (1969) β = 3. Their cores
+    # are under 5σ a pixel: left in, they gave β 3.02-3.04 on these seeds; found by the matched
+    # filter and left out, β is within 0.015.
+    from dataclasses import replace
+
+    from photpipe.scenario import NIGHT_CASES, render_case
+
+    cf = render_case(replace(NIGHT_CASES["poor_seeing"], nucleus_fraction=None), seed)
+    psf = measure_psf(_noise_free(cf), cf.star_xy, exclude_xy=(cf.x_start, cf.y_start),
+                      exclude_radius=20.0, methods=("moffat",))
+    assert psf.beta == pytest.approx(cf.beta, abs=0.015)
+    assert psf.fwhm_major_pix == pytest.approx(cf.fwhm_pix, rel=0.003)
