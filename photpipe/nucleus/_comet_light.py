@@ -28,6 +28,17 @@ _WIDTH_SHARE = 0.08
 _MIN_WIDTH = 1.5
 
 
+def _mask_disc(use, sx, sy, radius):
+    """Clear ``use`` inside a disc (box coordinates), touching only the disc's own square."""
+    ny, nx = use.shape
+    xa, xb = max(int(np.floor(sx - radius)), 0), min(int(np.ceil(sx + radius)) + 1, nx)
+    ya, yb = max(int(np.floor(sy - radius)), 0), min(int(np.ceil(sy + radius)) + 1, ny)
+    if xb <= xa or yb <= ya:
+        return
+    yy, xx = np.mgrid[ya:yb, xa:xb]
+    use[ya:yb, xa:xb] &= np.hypot(xx - sx, yy - sy) > radius
+
+
 def _edges(r_lo, r_hi):
     """Annulus edges from ``r_lo`` to ``r_hi``, each max(1.5, 0.08 ρ) pixels wide."""
     edges = [max(r_lo, 0.0)]
@@ -81,7 +92,7 @@ def comet_light_profile(data, good, centre, *, r_lo, r_hi, mask_xy=(), mask_radi
     use = good[y0:y1, x0:x1] & np.isfinite(data[y0:y1, x0:x1])
     for sx, sy in np.asarray(mask_xy, dtype=float).reshape(-1, 2):
         if abs(sx - cx) <= r_hi + mask_radius and abs(sy - cy) <= r_hi + mask_radius:
-            use &= np.hypot(xx - sx, yy - sy) > mask_radius
+            _mask_disc(use, sx - x0, sy - y0, mask_radius)
     rho = np.hypot(xx - cx, yy - cy)
     edges = _edges(r_lo, r_hi)
     use &= (rho >= edges[0]) & (rho < edges[-1])
