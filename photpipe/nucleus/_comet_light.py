@@ -18,6 +18,8 @@ asymmetric coma, the median's noise).
 
 import numpy as np
 
+from photpipe.photometry.coma_background import ring_medians
+
 __all__ = ["comet_light_profile", "comet_light_image", "MIN_ANNULUS_PIXELS"]
 
 #: Annuli with fewer usable pixels than this give no node.
@@ -105,17 +107,7 @@ def comet_light_profile(data, good, centre, *, r_lo, r_hi, mask_xy=(), mask_radi
     use &= (rho >= edges[0]) & (rho < edges[-1])
     rho, val = rho[use], data[y0:y1:step, x0:x1:step][use].astype(float)
     ring = np.searchsorted(edges, rho, side="right") - 1
-    order = np.argsort(ring, kind="stable")
-    ring, val, rho = ring[order], val[order], rho[order]
-    starts = np.searchsorted(ring, np.arange(len(edges)))
-    nodes_r, nodes_v = [], []
-    for k in range(len(edges) - 1):
-        a, b = starts[k], starts[k + 1]
-        if b - a < MIN_ANNULUS_PIXELS:
-            continue
-        nodes_v.append(np.median(val[a:b]))
-        nodes_r.append(np.median(rho[a:b]))
-    return np.array(nodes_r), np.array(nodes_v)
+    return ring_medians(ring, rho, val, MIN_ANNULUS_PIXELS)
 
 
 def comet_light_image(profile, shape, origin, centre):

@@ -14,7 +14,7 @@ whose level the stars' own annuli then measure.
 
 import numpy as np
 
-__all__ = ["azimuthal_median_model", "ring_profile", "subtract_rings_near"]
+__all__ = ["azimuthal_median_model", "ring_profile", "ring_medians", "subtract_rings_near"]
 
 #: Largest number of pixels whose ring medians are taken (larger frames are sub-sampled).
 _MAX_PIXELS = 1_000_000
@@ -126,7 +126,7 @@ def ring_profile(data, good, x0, y0, *, width=2.0, min_pixels=8):
     r_used = rho_sub[ok_sub]
     values = data[::step, ::step][ok_sub].astype(np.float64)
     ring = (r_used / width).astype(np.int64)
-    centres, medians = _ring_medians(ring, r_used, values, min_pixels)
+    centres, medians = ring_medians(ring, r_used, values, min_pixels)
     if not centres.size:
         msg = f"no ring of width {width} pix about ({x0:.1f}, {y0:.1f}) has {min_pixels} pixels"
         raise ValueError(msg)
@@ -184,9 +184,25 @@ def subtract_rings_near(data, profile, x0, y0, xy, half):
     return out
 
 
-def _ring_medians(ring, radius, values, min_pixels):
+def ring_medians(ring, radius, values, min_pixels):
     """Median radius and median value of each ring holding at least ``min_pixels`` pixels.
 
+    Parameters
+    ----------
+    ring : ndarray of int
+        Ring number (0, 1, ...) of each pixel, in any order.
+    radius, values : ndarray of float
+        Each pixel's distance from the centre and its value.
+    min_pixels : int
+        Rings with fewer pixels give no median.
+
+    Returns
+    -------
+    radii, medians : ndarray
+        Per ring with enough pixels, in ring order.
+
+    Notes
+    -----
     The pixels are put in ring order by one sort of the integer ring numbers (a radix sort);
     each ring's two middle values then come from a partial sort of the ring alone.
     """
