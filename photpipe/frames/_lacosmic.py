@@ -201,15 +201,19 @@ _SCREEN_MAX_SHARE = 0.02
 _OFF5 = np.arange(-2, 3)
 
 
+def _separable5(block):
+    """Median of 5 along each block's rows, then of those 5 (as `separable_median`), (n, 5, 5)."""
+    along_rows = _network_median([block[:, :, k] for k in range(5)], 5)
+    return _network_median([along_rows[:, k] for k in range(5)], 5)
+
+
 def _median5_at(windows, ys, xs):
     """`separable_median` of 5 (rows, then columns, edges repeated) at the pixels (ys, xs).
 
     ``windows`` are the 5x5 windows of the frame padded by 2 repeated edge pixels. The median
     of five values is one of them, so this equals the whole-frame median there.
     """
-    block = windows[ys, xs]                                                     # (n, 5, 5)
-    along_rows = _network_median([block[:, :, k] for k in range(5)], 5)
-    return _network_median([along_rows[:, k] for k in range(5)], 5)
+    return _separable5(windows[ys, xs])
 
 
 class _SharpnessAt:
@@ -238,9 +242,7 @@ class _SharpnessAt:
         uy, ux = np.divmod(unique, nx)
         s = self.laplacian[uy, ux] / (2.0 * self.noise(uy, ux))
         block = s[inverse.reshape(len(ys), 5, 5)]                               # (n, 5, 5)
-        along_rows = _network_median([block[:, :, k] for k in range(5)], 5)
-        smooth = _network_median([along_rows[:, k] for k in range(5)], 5)
-        return block[:, 2, 2] - smooth
+        return block[:, 2, 2] - _separable5(block)
 
 
 def _noise_lower_bound(var):
